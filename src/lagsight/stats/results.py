@@ -84,7 +84,7 @@ class TestResult:
         pairs = []
         for f in fields(self):
             value = getattr(self, f.name)
-            if f.name in ("name", "notes") or value is None or value == ():
+            if f.name in ("name", "notes") or value is None or (isinstance(value, tuple) and not value):
                 continue
             pairs.append((f.name, value))
         return pairs

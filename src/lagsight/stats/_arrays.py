@@ -1,0 +1,153 @@
+"""Input checks shared by the battery, correlogram and remedies modules.
+
+Every check raises a one-line ValueError/TypeError naming the argument, what
+was expected and what was received.  Nothing here copies an n-by-n matrix.
+"""
+from __future__ import annotations
+
+import numbers
+from dataclasses import dataclass, fields
+
+import numpy as np
+
+from .results import TestResult, _fmt
+
+
+def _describe(value) -> str:
+    if isinstance(value, np.ndarray):
+        return f"array of shape {value.shape}"
+    text = repr(value)
+    return text if len(text) <= 60 else text[:57] + "..."
+
+
+def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
+    """Return ``x`` as a finite 1-D float array of at least ``min_len`` items."""
+    if x is None:
+        raise TypeError(f"'{name}' must be a 1-D array of floats (got None)")
+    try:
+        arr = np.asarray(x, dtype=float)
+    except (TypeError, ValueError):
+        raise TypeError(f"'{name}' must be a 1-D array of floats (got {_describe(x)})") from None
+    if arr.ndim == 2 and 1 in arr.shape:
+        arr = arr.reshape(-1)
+    if arr.ndim != 1:
+        raise ValueError(f"'{name}' must be 1-D (got shape {arr.shape})")
+    finite = np.isfinite(arr)
+    if not finite.all():
+        pos = int(np.flatnonzero(~finite)[0])
+        raise ValueError(
+            f"'{name}' must be finite (got {arr[pos]} at position {pos}; "
+            f"{int((~finite).sum())} non-finite values)"
+        )
+    if arr.shape[0] < min_len:
+        raise ValueError(f"'{name}' must have at least {min_len} observations (got {arr.shape[0]})")
+    return arr
+
+
+def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np.ndarray:
+    """Return ``exog`` as a finite 2-D float array with ``n`` rows (and full column rank)."""
+    if exog is None:
+        raise TypeError(f"'{name}' must be a 2-D array of floats (got None)")
+    try:
+        arr = np.asarray(exog, dtype=float)
+    except (TypeError, ValueError):
+        raise TypeError(f"'{name}' must be a 2-D array of floats (got {_describe(exog)})") from None
+    if arr.ndim == 1:
+        arr = arr[:, None]
+    if arr.ndim != 2:
+        raise ValueError(f"'{name}' must be 2-D (n x k) (got shape {arr.shape})")
+    if arr.shape[0] != n:
+        raise ValueError(f"'{name}' must have {n} rows to match the residuals (got {arr.shape[0]})")
+    if arr.shape[1] < 1:
+        raise ValueError(f"'{name}' must have at least one column (got shape {arr.shape})")
+    finite = np.isfinite(arr)
+    if not finite.all():
+        row, col = (int(i[0]) for i in np.nonzero(~finite))
+        raise ValueError(
+            f"'{name}' must be finite (got {arr[row, col]} at row {row}, column {col})"
+        )
+    rank = np.linalg.matrix_rank(arr) if full_rank else arr.shape[1]
+    if rank < arr.shape[1]:
+        raise ValueError(
+            f"'{name}' must have full column rank {arr.shape[1]} (got rank {rank})"
+        )
+    return arr
+
+
+def check_int(value, name: str, *, minimum: int) -> int:
+    """Return ``value`` as an int no smaller than ``minimum``."""
+    if isinstance(value, bool) or not isinstance(value, numbers.Integral):
+        raise TypeError(f"'{name}' must be an integer >= {minimum} (got {_describe(value)})")
+    value = int(value)
+    if value < minimum:
+        raise ValueError(f"'{name}' must be an integer >= {minimum} (got {value})")
+    return value
+
+
+def check_alpha(alpha) -> float:
+    """Return ``alpha`` as a float in (0, 1)."""
+    if isinstance(alpha, bool) or not isinstance(alpha, numbers.Real):
+        raise TypeError(f"'alpha' must be a number in (0, 1) (got {_describe(alpha)})")
+    alpha = float(alpha)
+    if not 0.0 < alpha < 1.0:
+        raise ValueError(f"'alpha' must be in (0, 1) (got {alpha})")
+    return alpha
+
+
+def check_choice(value, name: str, choices: tuple) -> str:
+    """Return ``value`` if it is one of ``choices``."""
+    if value not in choices:
+        opts = ", ".join(repr(c) for c in choices)
+        raise ValueError(f"'{name}' must be one of {opts} (got {_describe(value)})")
+    return value
+
+
+def check_names(names, k: int, name: str = "names") -> tuple:
+    """Return ``k`` column names, made up as x0, x1, ... when ``names`` is None."""
+    if names is None:
+        return tuple(f"x{i}" for i in range(k))
+    if isinstance(names, str):
+        raise TypeError(f"'{name}' must be a sequence of {k} strings (got a single string {names!r})")
+    names = tuple(str(s) for s in names)
+    if len(names) != k:
+        raise ValueError(f"'{name}' must have one entry per column, {k} (got {len(names)})")
+    return names
+
+
+def constant_columns(exog: np.ndarray) -> np.ndarray:
+    """Boolean mask of columns that are constant and non-zero."""
+    return (np.ptp(exog, axis=0) == 0) & (exog[0] != 0)
+
+
+def readonly(a) -> np.ndarray:
+    """A read-only copy of ``a`` (results are frozen, so are their arrays)."""
+    a = np.array(a, copy=True)
+    a.setflags(write=False)
+    return a
+
+
+@dataclass(frozen=True)
+class ArrayResult(TestResult):
+    """TestResult whose extra fields may be numpy arrays."""
+
+    def _summary_pairs(self):
+        pairs = []
+        for f in fields(self):
+            value = getattr(self, f.name)
+            if f.name in ("name", "notes") or value is None:
+                continue
+            if isinstance(value, tuple) and not value:
+                continue
+            pairs.append((f.name, value))
+        return pairs
+
+    def __str__(self) -> str:
+        lines = [self.name or type(self).__name__]
+        for key, value in self._summary_pairs():
+            if isinstance(value, np.ndarray):
+                text = np.array2string(value, precision=6, separator=", ", threshold=12)
+            else:
+                text = _fmt(value)
+            lines.append(f"  {key:<12} {text}")
+        lines.extend(f"  note: {note}" for note in self.notes)
+        return "\n".join(lines)

@@ -1,0 +1,407 @@
+"""A battery of serial-correlation tests on OLS residuals.
+
+All functions take plain numpy arrays: ``resid`` (1-D), ``exog`` (n x k design
+including any constant column) and, where needed, ``endog``.  Each returns a
+frozen result dataclass built on :class:`lagsight.stats.results.TestResult`.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+import math
+
+import numpy as np
+from scipy import special, stats
+from statsmodels.regression.linear_model import OLS
+from statsmodels.stats.diagnostic import acorr_ljungbox
+
+from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
+                      constant_columns, readonly)
+from .results import TestResult, check_alternative, tail_pvalue
+
+__all__ = [
+    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "RunsResult",
+    "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative",
+    "detect_lagged_response", "runs_test", "runs_distribution",
+]
+
+
+def _upper_means_positive(stat_cdf: float, stat_sf: float, alternative: str) -> float:
+    """p-value for a statistic whose LARGE values signal positive autocorrelation.
+
+    :func:`tail_pvalue` maps 'positive' to its first argument, so the upper
+    tail is passed first.
+    """
+    return tail_pvalue(stat_sf, stat_cdf, alternative)
+
+
+# --------------------------------------------------------------------------- BG
+@dataclass(frozen=True)
+class BreuschGodfreyResult(TestResult):
+    """Breusch-Godfrey LM test; ``statistic`` is n*R^2 (chi-square), F form alongside."""
+
+    f_statistic: float = math.nan
+    f_pvalue: float = math.nan
+    f_df: tuple = ()
+    order: int = 0
+
+
+def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
+    """Breusch-Godfrey test for autocorrelation up to lag ``order``.
+
+    The auxiliary regression of ``resid`` on ``[exog, e_{t-1}, ..., e_{t-order}]``
+    uses zeros for pre-sample residuals (all n rows kept) and adds a constant
+    when ``exog`` has none, as statsmodels' ``acorr_breusch_godfrey`` does.
+    LM = n R^2 ~ chi2(order); F = joint test of the lag coefficients.
+    """
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    order = check_int(order, "order", minimum=1)
+    X = as_design(exog, n)
+    lagged = np.zeros((n, order))
+    for j in range(1, order + 1):
+        lagged[j:, j - 1] = e[:-j]
+    parts = [X]
+    notes = [f"Pre-sample residuals set to zero; all {n} observations used."]
+    if not OLS(e, X).k_constant:
+        parts.append(np.ones((n, 1)))
+        notes.append("A constant was added to the auxiliary regression (exog has none).")
+    parts.append(lagged)
+    aux = np.column_stack(parts)
+    k_aux = aux.shape[1]
+    if n <= k_aux:
+        raise ValueError(
+            f"'order' is too large for n={n}: need n > {k_aux - order} regressors + order "
+            f"(got order={order})"
+        )
+    fit = OLS(e, aux).fit()
+    lm = float(n * fit.rsquared)
+    ftest = fit.f_test(np.eye(order, k_aux, k_aux - order))
+    df_denom = float(ftest.df_denom)
+    return BreuschGodfreyResult(
+        statistic=lm,
+        pvalue=float(stats.chi2.sf(lm, order)),
+        alternative=f"autocorrelation up to lag {order}",
+        df=(float(order),),
+        method="LM = n*R^2 of the auxiliary regression, chi-square",
+        name="Breusch-Godfrey",
+        notes=tuple(notes),
+        f_statistic=float(np.squeeze(ftest.fvalue)),
+        f_pvalue=float(np.squeeze(ftest.pvalue)),
+        f_df=(float(order), df_denom),
+        order=order,
+    )
+
+
+# ------------------------------------------------------------------ Ljung-Box
+@dataclass(frozen=True)
+class PortmanteauResult(ArrayResult):
+    """Ljung-Box and Box-Pierce statistics for a set of lags.
+
+    ``statistic``/``pvalue``/``df`` are the Ljung-Box values at the largest lag;
+    the arrays hold every requested lag.  ``lag_df`` is lags - model_df.
+    """
+
+    lags: np.ndarray = field(default_factory=lambda: np.empty(0, int))
+    lb_stat: np.ndarray = field(default_factory=lambda: np.empty(0))
+    lb_pvalue: np.ndarray = field(default_factory=lambda: np.empty(0))
+    bp_stat: np.ndarray = field(default_factory=lambda: np.empty(0))
+    bp_pvalue: np.ndarray = field(default_factory=lambda: np.empty(0))
+    lag_df: np.ndarray = field(default_factory=lambda: np.empty(0, int))
+    model_df: int = 0
+
+
+def ljung_box(resid, *, lags, model_df=0) -> PortmanteauResult:
+    """Ljung-Box (and Box-Pierce) portmanteau tests.
+
+    Parameters
+    ----------
+    resid : 1-D array
+    lags : int or sequence of int
+        An int L tests lags 1..L; a sequence tests exactly those lags.
+    model_df : int
+        Degrees of freedom used up by a fitted ARMA model; the reference
+        chi-square has lags - model_df df, and lags with df <= 0 get NaN p-values.
+    """
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    model_df = check_int(model_df, "model_df", minimum=0)
+    if np.ndim(lags) == 0:
+        maxlag = check_int(lags, "lags", minimum=1)
+        lag_arr = np.arange(1, maxlag + 1)
+    else:
+        raw = list(np.asarray(lags).ravel())
+        if not raw:
+            raise ValueError("'lags' must be a positive int or a non-empty sequence of them (got [])")
+        lag_arr = np.array(sorted({check_int(v.item() if hasattr(v, "item") else v, "lags", minimum=1)
+                                   for v in raw}))
+    if lag_arr.max() >= n:
+        raise ValueError(f"'lags' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
+    table = acorr_ljungbox(e, lags=lag_arr, boxpierce=True, model_df=model_df)
+    lag_df = lag_arr - model_df
+    notes = ["Residuals are demeaned before the autocorrelations are computed."]
+    bad = lag_arr[lag_df <= 0]
+    if bad.size:
+        notes.append(
+            f"No p-value at lag(s) {', '.join(map(str, bad))}: lags - model_df <= 0 leaves no degrees of freedom."
+        )
+    top = lag_arr.max()
+    return PortmanteauResult(
+        statistic=float(table["lb_stat"].iloc[-1]),
+        pvalue=float(table["lb_pvalue"].iloc[-1]),
+        alternative=f"autocorrelation at some lag up to {int(top)}",
+        df=(float(top - model_df),),
+        method=f"Ljung-Box Q, chi-square; statistic and pvalue refer to the largest lag ({int(top)})",
+        name="Ljung-Box",
+        notes=tuple(notes),
+        lags=readonly(lag_arr),
+        lb_stat=readonly(table["lb_stat"].to_numpy(float)),
+        lb_pvalue=readonly(table["lb_pvalue"].to_numpy(float)),
+        bp_stat=readonly(table["bp_stat"].to_numpy(float)),
+        bp_pvalue=readonly(table["bp_pvalue"].to_numpy(float)),
+        lag_df=readonly(lag_df),
+        model_df=model_df,
+    )
+
+
+# ---------------------------------------------------------------- Durbin's h
+_LAG_HINTS = ("lag", "l1", "_1", "(-1)", "[-1]", "shift", "prev")
+
+
+def detect_lagged_response(exog, endog, names=None):
+    """Index of the ``exog`` column equal to ``endog`` shifted by one, or None.
+
+    Column j matches when ``exog[t, j] == endog[t-1]`` for t = 1..n-1 within a
+    relative tolerance of 1e-10.  Constant columns never match.  If several
+    columns match, one whose name hints at a lag ('lag', 'l1', '_1', ...) wins,
+    else the first.
+    """
+    y = as_vector(endog, "endog", min_len=3)
+    X = as_design(exog, y.shape[0], full_rank=False)
+    labels = check_names(names, X.shape[1])
+    target = y[:-1]
+    scale = max(float(np.max(np.abs(target))), np.finfo(float).tiny)
+    const = constant_columns(X)
+    hits = [j for j in range(X.shape[1])
+            if not const[j] and np.max(np.abs(X[1:, j] - target)) <= 1e-10 * scale]
+    if not hits:
+        return None
+    for j in hits:
+        if any(h in labels[j].lower() for h in _LAG_HINTS):
+            return j
+    return hits[0]
+
+
+@dataclass(frozen=True)
+class DurbinHResult(TestResult):
+    """Durbin's h; ``rho`` = 1 - d/2, ``var_lag`` = OLS variance of the lag coefficient."""
+
+    rho: float = math.nan
+    dw: float = math.nan
+    var_lag: float = math.nan
+    lag_column: int = -1
+    nobs: int = 0
+
+
+def _ols_checked(y, X, e):
+    fit = OLS(y, X).fit()
+    scale = max(float(np.max(np.abs(y))), 1.0)
+    gap = float(np.max(np.abs(fit.resid - e)))
+    if gap > 1e-6 * scale:
+        raise ValueError(
+            f"'resid' must be the OLS residuals of endog on exog (max difference {gap:.3g})"
+        )
+    return fit
+
+
+def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> DurbinHResult:
+    """Durbin's (1970) h test for a regression that includes the lagged response.
+
+    h = rho * sqrt(n / (1 - n Var(b_lag))) with rho = 1 - d/2 (d the Durbin-Watson
+    statistic), compared with the standard normal.  Large h means positive
+    autocorrelation.  When n Var(b_lag) >= 1, h is undefined: statistic and
+    p-value are NaN and a note points to :func:`durbin_alternative`.
+
+    Parameters
+    ----------
+    lag_column : int, optional
+        Column of ``exog`` holding the lagged response; found with
+        :func:`detect_lagged_response` when omitted.
+    """
+    check_alternative(alternative)
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    y = as_vector(endog, "endog")
+    if y.shape[0] != n:
+        raise ValueError(f"'endog' must have {n} observations to match 'resid' (got {y.shape[0]})")
+    X = as_design(exog, n)
+    k = X.shape[1]
+    if n <= k:
+        raise ValueError(f"'exog' must have fewer columns than observations n={n} (got {k})")
+    notes = []
+    if lag_column is None:
+        lag_column = detect_lagged_response(X, y)
+        if lag_column is None:
+            raise ValueError(
+                "'lag_column' must be given: no column of 'exog' equals 'endog' shifted by one (got None)"
+            )
+        notes.append(f"Lagged response found in column {lag_column}.")
+    lag_column = check_int(lag_column, "lag_column", minimum=0)
+    if lag_column >= k:
+        raise ValueError(f"'lag_column' must be < {k}, the number of columns of 'exog' (got {lag_column})")
+    fit = _ols_checked(y, X, e)
+    d = float(np.sum(np.diff(e) ** 2) / np.dot(e, e))
+    rho = 1.0 - d / 2.0
+    var_lag = float(fit.bse[lag_column] ** 2)
+    nv = n * var_lag
+    method = "normal; rho = 1 - d/2 from the Durbin-Watson d"
+    if nv >= 1.0:
+        notes.append(
+            f"h is undefined because n*Var(b_lag) = {nv:.4g} >= 1; use durbin_alternative() instead."
+        )
+        h = pval = math.nan
+    else:
+        h = rho * math.sqrt(n / (1.0 - nv))
+        pval = _upper_means_positive(stats.norm.cdf(h), stats.norm.sf(h), alternative)
+    notes.append("Large-sample test: the normal reference is asymptotic.")
+    return DurbinHResult(
+        statistic=float(h), pvalue=float(pval), alternative=alternative, df=None,
+        method=method, name="Durbin's h", notes=tuple(notes),
+        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, nobs=n,
+    )
+
+
+def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> TestResult:
+    """Durbin's alternative test: regress e_t on exog_t and e_{t-1}, ..., e_{t-order}.
+
+    The first ``order`` rows are dropped (their lagged residuals are pre-sample).
+    With ``order=1`` the statistic is the t-ratio of the e_{t-1} coefficient
+    (Student t, any alternative; large t means positive autocorrelation); with
+    ``order > 1`` it is the F statistic of the joint test (two-sided only).
+    """
+    check_alternative(alternative)
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    order = check_int(order, "order", minimum=1)
+    if order > 1 and alternative != "two-sided":
+        raise ValueError(
+            f"'alternative' must be 'two-sided' when order > 1 (got {alternative!r})"
+        )
+    X = as_design(exog, n)
+    k = X.shape[1]
+    m = n - order
+    if m <= k + order:
+        raise ValueError(
+            f"'order' is too large for n={n} with {k} regressors: need n - order > k + order (got order={order})"
+        )
+    lagged = np.column_stack([e[order - j: n - j] for j in range(1, order + 1)])
+    aux = np.column_stack([X[order:], lagged])
+    fit = OLS(e[order:], aux).fit()
+    notes = (
+        f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; "
+        f"{m} rows used.",
+        "Assumes resid are OLS residuals of the response on exog (which may include the "
+        "lagged response), homoskedastic errors, and no constant added beyond those in exog.",
+    )
+    if order == 1:
+        t = float(fit.tvalues[-1])
+        df = float(fit.df_resid)
+        pval = _upper_means_positive(stats.t.cdf(t, df), stats.t.sf(t, df), alternative)
+        return TestResult(
+            statistic=t, pvalue=pval, alternative=alternative, df=(df,),
+            method="t-test of the e_{t-1} coefficient, Student t",
+            name="Durbin's alternative", notes=notes,
+        )
+    ft = fit.f_test(np.eye(order, aux.shape[1], k))
+    return TestResult(
+        statistic=float(np.squeeze(ft.fvalue)), pvalue=float(np.squeeze(ft.pvalue)),
+        alternative="two-sided", df=(float(order), float(ft.df_denom)),
+        method=f"F-test of the {order} lagged-residual coefficients",
+        name="Durbin's alternative", notes=notes,
+    )
+
+
+# ---------------------------------------------------------------- runs test
+@dataclass(frozen=True)
+class RunsResult(TestResult):
+    """Runs test on residual signs; ``statistic`` is z = (runs - E[runs]) / sd."""
+
+    runs: int = 0
+    expected_runs: float = math.nan
+    n_positive: int = 0
+    n_negative: int = 0
+    zeros_dropped: int = 0
+
+
+def _log_comb(a, b):
+    a = np.asarray(a, float)
+    b = np.asarray(b, float)
+    out = np.full(np.broadcast(a, b).shape, -np.inf)
+    ok = (b >= 0) & (b <= a)
+    a, b = np.broadcast_arrays(a, b)
+    out[ok] = special.gammaln(a[ok] + 1) - special.gammaln(b[ok] + 1) - special.gammaln(a[ok] - b[ok] + 1)
+    return out
+
+
+def runs_distribution(n1: int, n2: int):
+    """Exact null pmf of the number of runs for n1 of one sign and n2 of the other.
+
+    Returns (r, pmf) with r = 2..n1+n2.  P(R=2k) = 2 C(n1-1,k-1) C(n2-1,k-1) / C(n,n1);
+    P(R=2k+1) = [C(n1-1,k) C(n2-1,k-1) + C(n1-1,k-1) C(n2-1,k)] / C(n,n1).
+    """
+    n1 = check_int(n1, "n1", minimum=1)
+    n2 = check_int(n2, "n2", minimum=1)
+    r = np.arange(2, n1 + n2 + 1)
+    k = r // 2
+    even = r % 2 == 0
+    log_total = _log_comb(n1 + n2, n1)
+    with np.errstate(invalid="ignore"):
+        ev = np.log(2.0) + _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k - 1)
+        od = np.logaddexp(_log_comb(n1 - 1, k) + _log_comb(n2 - 1, k - 1),
+                          _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k))
+    pmf = np.exp(np.where(even, ev, od) - log_total)
+    return r, pmf
+
+
+def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
+    """Wald-Wolfowitz runs test on the signs of the residuals.
+
+    Too FEW runs signals positive autocorrelation, so 'positive' uses the lower
+    tail.  ``method='auto'`` uses the exact runs distribution unless both sign
+    counts exceed 20, then the normal approximation (no continuity correction).
+    Zero residuals carry no sign and are dropped (with a note).
+    """
+    check_alternative(alternative)
+    if method not in ("auto", "exact", "normal"):
+        raise ValueError(f"'method' must be one of 'auto', 'exact', 'normal' (got {method!r})")
+    e = as_vector(resid, "resid", min_len=2)
+    signs = e[e != 0] > 0
+    dropped = e.shape[0] - signs.shape[0]
+    n1 = int(signs.sum())
+    n2 = int(signs.shape[0] - n1)
+    if n1 == 0 or n2 == 0:
+        raise ValueError(
+            f"'resid' must have both positive and negative values (got {n1} positive, {n2} negative)"
+        )
+    runs = int(1 + np.count_nonzero(signs[1:] != signs[:-1]))
+    N = n1 + n2
+    mean = 2.0 * n1 * n2 / N + 1.0
+    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - N) / (N ** 2 * (N - 1.0))
+    z = (runs - mean) / math.sqrt(var) if var > 0 else math.nan
+    use_exact = method == "exact" or (method == "auto" and min(n1, n2) <= 20) or var <= 0
+    if use_exact:
+        r, pmf = runs_distribution(n1, n2)
+        lower = min(1.0, float(pmf[r <= runs].sum()))
+        upper = min(1.0, float(pmf[r >= runs].sum()))
+        how = "exact runs distribution"
+    else:
+        lower, upper = float(stats.norm.cdf(z)), float(stats.norm.sf(z))
+        how = "normal approximation, no continuity correction"
+    notes = []
+    if dropped:
+        notes.append(f"{dropped} zero residual(s) dropped: they have no sign.")
+    return RunsResult(
+        statistic=float(z), pvalue=tail_pvalue(lower, upper, alternative),
+        alternative=alternative, df=None, method=how, name="Runs test",
+        notes=tuple(notes), runs=runs, expected_runs=mean,
+        n_positive=n1, n_negative=n2, zeros_dropped=dropped,
+    )

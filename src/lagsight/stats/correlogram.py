@@ -1,0 +1,123 @@
+"""Residual autocorrelations (ACF), partial autocorrelations (PACF) and their bands.
+
+Memory stays linear in n: the ACF uses statsmodels' FFT route for long series
+and the PACF is the Yule-Walker ('ywadjusted') solution built from sums of
+lagged products.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import stats
+from statsmodels.tsa.stattools import acf as _sm_acf
+from statsmodels.tsa.stattools import pacf as _sm_pacf
+
+from ._arrays import as_vector, check_alpha, check_int, readonly
+
+__all__ = ["Correlogram", "LagPairs", "correlogram", "lag_pairs", "PACF_METHOD", "FFT_MIN_N"]
+
+#: statsmodels PACF method used: Yule-Walker with n-k denominators.
+PACF_METHOD = "ywadjusted"
+#: from this many observations on, the ACF is computed by FFT.
+FFT_MIN_N = 1000
+
+
+@dataclass(frozen=True, eq=False)
+class Correlogram:
+    """ACF and PACF of residuals at lags 1..nlags (lag 0 is left out).
+
+    Attributes
+    ----------
+    lags : ndarray of int
+    acf, pacf : ndarray
+        Sample autocorrelations (denominator n, statsmodels ``acf``) and partial
+        autocorrelations (statsmodels ``pacf``, method ``pacf_method``).
+    white_band : float
+        z_{1-alpha/2} / sqrt(n): the band for white noise at every lag.
+    bartlett_band : ndarray
+        z_{1-alpha/2} * sqrt((1 + 2 sum_{j<h} r_j^2) / n) for lag h (Bartlett's formula).
+    n : int
+    alpha : float
+    pacf_method : str
+    """
+
+    lags: np.ndarray
+    acf: np.ndarray
+    pacf: np.ndarray
+    white_band: float
+    bartlett_band: np.ndarray
+    n: int
+    alpha: float
+    pacf_method: str = PACF_METHOD
+
+    def outside_white_band(self) -> np.ndarray:
+        """Lags whose autocorrelation lies outside +/- ``white_band``."""
+        return self.lags[np.abs(self.acf) > self.white_band]
+
+    def __str__(self) -> str:
+        lines = [f"Correlogram (n={self.n}, alpha={self.alpha:g}, white band +/-{self.white_band:.4f})",
+                 f"  {'lag':>4} {'acf':>9} {'pacf':>9} {'bartlett':>9}"]
+        for h, a, p, b in zip(self.lags, self.acf, self.pacf, self.bartlett_band):
+            flag = " *" if abs(a) > self.white_band else ""
+            lines.append(f"  {h:>4d} {a:>9.4f} {p:>9.4f} {b:>9.4f}{flag}")
+        return "\n".join(lines)
+
+
+def correlogram(resid, *, nlags, alpha=0.05) -> Correlogram:
+    """ACF, PACF and the white-noise and Bartlett bands of ``resid``.
+
+    Parameters
+    ----------
+    resid : 1-D array
+    nlags : int
+        Largest lag, 1 <= nlags <= n // 2 (the Yule-Walker PACF needs that).
+    alpha : float
+        Two-sided level of the bands.
+    """
+    e = as_vector(resid, "resid", min_len=4)
+    n = e.shape[0]
+    nlags = check_int(nlags, "nlags", minimum=1)
+    if nlags > n // 2:
+        raise ValueError(f"'nlags' must be <= n // 2 = {n // 2} for the PACF (got {nlags})")
+    alpha = check_alpha(alpha)
+    if np.ptp(e) == 0:
+        raise ValueError(f"'resid' must not be constant (got all values equal to {e[0]})")
+    r = _sm_acf(e, nlags=nlags, fft=n >= FFT_MIN_N)[1:]
+    p = _sm_pacf(e, nlags=nlags, method=PACF_METHOD)[1:]
+    z = float(stats.norm.ppf(1.0 - alpha / 2.0))
+    cum = np.concatenate(([0.0], np.cumsum(r[:-1] ** 2)))  # sum_{j=1}^{h-1} r_j^2
+    bartlett = z * np.sqrt((1.0 + 2.0 * cum) / n)
+    return Correlogram(
+        lags=readonly(np.arange(1, nlags + 1)), acf=readonly(r), pacf=readonly(p), white_band=z / np.sqrt(n),
+        bartlett_band=readonly(bartlett), n=n, alpha=alpha,
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class LagPairs:
+    """Pairs (e_{t-h}, e_t) for a lag scatter plot, with their Pearson correlation."""
+
+    h: int
+    lagged: np.ndarray
+    current: np.ndarray
+    correlation: float
+
+
+def lag_pairs(resid, h) -> LagPairs:
+    """Return the n - h pairs (e_{t-h}, e_t) and their Pearson correlation.
+
+    The correlation is that of the pairs themselves (each side centred on its
+    own mean), so it differs slightly from the ACF value at lag h.
+    """
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    h = check_int(h, "h", minimum=1)
+    if h > n - 2:
+        raise ValueError(f"'h' must be <= n - 2 = {n - 2} to leave two pairs (got {h})")
+    lagged, current = e[:-h], e[h:]
+    if np.ptp(lagged) == 0 or np.ptp(current) == 0:
+        corr = float("nan")
+    else:
+        corr = float(np.corrcoef(lagged, current)[0, 1])
+    return LagPairs(h=h, lagged=readonly(lagged), current=readonly(current), correlation=corr)

@@ -54,6 +54,8 @@ def imhof_prob_nonpositive(weights: np.ndarray) -> float:
         wu = w * u
         theta = 0.5 * np.arctan(wu).sum()
         log_rho = 0.25 * np.log1p(wu * wu).sum()
+        if log_rho > 700:
+            return 0.0
         return np.sin(theta) / (u * np.exp(log_rho))
 
     wmax = np.abs(w).max()

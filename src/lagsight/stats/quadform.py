@@ -74,6 +74,8 @@ def imhof_cdf(weights, x: float = 0.0, df=1, nc=0.0) -> float:
         if u == 0.0:
             return 0.5 * (np.sum(lam * (h + delta)) - x)
         beta, log_rho = beta_rho(u)
+        if log_rho > 700.0:
+            return 0.0
         return math.sin(beta - 0.5 * x * u) / (u * math.exp(log_rho))
 
     # the head of the integral in geometric panels between the scales 1/|w_j|
@@ -88,11 +90,11 @@ def imhof_cdf(weights, x: float = 0.0, df=1, nc=0.0) -> float:
     else:
         def amp_sin(u):
             beta, log_rho = beta_rho(u)
-            return math.sin(beta) / (u * math.exp(log_rho))
+            return 0.0 if log_rho > 700.0 else math.sin(beta) / (u * math.exp(log_rho))
 
         def amp_cos(u):
             beta, log_rho = beta_rho(u)
-            return math.cos(beta) / (u * math.exp(log_rho))
+            return 0.0 if log_rho > 700.0 else math.cos(beta) / (u * math.exp(log_rho))
 
         w = 0.5 * abs(x)
         sign = 1.0 if x > 0 else -1.0
@@ -119,9 +121,8 @@ class TailProbability:
 def _cheb_coefficients(values: np.ndarray) -> np.ndarray:
     """Chebyshev coefficients from samples at first-kind nodes (last axis)."""
     n = values.shape[-1]
-    re = fft.dct(values.real, type=2, axis=-1) / n
-    im = fft.dct(values.imag, type=2, axis=-1) / n
-    coef = re + 1j * im
+    both = fft.dct(np.stack([values.real, values.imag]), type=2, axis=-1) / n
+    coef = both[0] + 1j * both[1]
     coef[..., 0] *= 0.5
     return coef
 
@@ -371,17 +372,17 @@ class SpectralForm:
         nodes = np.cos(np.pi * (np.arange(degree + 1) + 0.5) / (degree + 1))
         a = 1.0 - z * (2.0 - c)
         D = a[:, None] - 2.0 * z[:, None] * nodes[None, :]
-        L = _cheb_coefficients(np.log(D)) @ mu
         inv = 1.0 / D
+        funcs = [np.log(D), inv] + ([inv * inv] if trace and G is not None else [])
+        coef = _cheb_coefficients(np.stack(funcs))  # one transform for all of them
+        L = coef[0] @ mu
         T1 = H = K2 = None
         if trace:
-            T1 = _cheb_coefficients(inv) @ mu
+            T1 = coef[1] @ mu
         if G is not None:
-            cf = _cheb_coefficients(inv)
-            H = cf.real @ G + 1j * (cf.imag @ G)
+            H = coef[1].real @ G + 1j * (coef[1].imag @ G)
             if trace:
-                cf2 = _cheb_coefficients(inv * inv)
-                K2 = cf2.real @ G + 1j * (cf2.imag @ G)
+                K2 = coef[2].real @ G + 1j * (coef[2].imag @ G)
         return self._finish(z, L, H, K2, T1, c, trace)
 
     # -- distribution -----------------------------------------------------------

@@ -99,19 +99,30 @@ def dw_statistic(resid, lag: int = 1) -> tuple[float, float, float]:
     return num / den, num, den
 
 
-def difference_spectrum(n: int, lag: int = 1):
-    """Eigenvalues of the order-``lag`` difference matrix and the chain layout.
+def difference_spectrum(n: int, lag: int = 1, blocks=None):
+    """Eigenvalues of the order-``lag`` difference matrix and its chain layout.
 
-    Returns (nu, chains) where chains lists, for each residue r = 0..lag-1, the
-    row positions r, r+lag, ... whose DCT-II coefficients occupy consecutive
-    blocks of ``nu``.
+    The matrix of sum (e_t - e_{t-lag})^2 splits into independent
+    first-difference chains: rows r, r+lag, r+2 lag, ... for r = 0..lag-1, and,
+    with ``blocks`` (a list of row-position arrays, e.g. the groups of a panel),
+    no difference is taken across block boundaries.  Each chain of length m is
+    diagonalised by the DCT-II with eigenvalues 2 - 2 cos(pi j / m).
+
+    Returns (nu, chains): the chains' row positions, whose DCT coefficients
+    occupy consecutive slices of ``nu`` in that order.
     """
+    if blocks is None:
+        blocks = [np.arange(n)]
     nus, chains = [], []
-    for r in range(lag):
-        rows = np.arange(r, n, lag)
-        m = rows.size
-        nus.append(2.0 - 2.0 * np.cos(np.pi * np.arange(m) / m))
-        chains.append(rows)
+    for block in blocks:
+        block = np.asarray(block)
+        for r in range(lag):
+            rows = block[r::lag]
+            m = rows.size
+            if m == 0:
+                continue
+            nus.append(2.0 - 2.0 * np.cos(np.pi * np.arange(m) / m))
+            chains.append(rows)
     return np.concatenate(nus), chains
 
 
@@ -163,7 +174,7 @@ class DurbinWatsonDistribution:
     memory is O(n k) and the precomputation O(n k^2 + k n log n).
     """
 
-    def __init__(self, exog, lag: int = 1, *, _n: int | None = None):
+    def __init__(self, exog, lag: int = 1, *, blocks=None, _n: int | None = None):
         if exog is None:
             if _n is None:
                 raise ValueError("'exog' is required for the exact distribution")
@@ -192,12 +203,13 @@ class DurbinWatsonDistribution:
             raise ValueError(
                 f"need more residuals than regressors + 1 (n = {n}, k = {rank})"
             )
-        nu, chains = difference_spectrum(n, self.lag)
+        nu, chains = difference_spectrum(n, self.lag, blocks)
+        single = blocks is None and self.lag == 1
         if rank:
             Wt = np.empty((rank, n))
             pos = 0
             for rows in chains:
-                src = Qt[:, rows] if self.lag > 1 else Qt
+                src = Qt if single else Qt[:, rows]
                 Wt[:, pos : pos + rows.size] = fft.dct(src, type=2, norm="ortho", axis=1, workers=-1)
                 pos += rows.size
         else:
@@ -292,9 +304,13 @@ def _solve_quantile(form: SpectralForm, q: float, mean: float, sd: float) -> flo
     raise RuntimeError("quantile search did not converge")  # pragma: no cover
 
 
-def dw_distribution(exog, *, lag: int = 1) -> DurbinWatsonDistribution:
-    """The exact null distribution of the Durbin-Watson statistic for design ``exog``."""
-    return DurbinWatsonDistribution(exog, lag)
+def dw_distribution(exog, *, lag: int = 1, blocks=None) -> DurbinWatsonDistribution:
+    """The exact null distribution of the Durbin-Watson statistic for design ``exog``.
+
+    ``blocks`` (row-position arrays) gives the within-block statistic used for
+    panels: differences are never taken across block boundaries.
+    """
+    return DurbinWatsonDistribution(exog, lag, blocks=blocks)
 
 
 # ----------------------------------------------------------------------------

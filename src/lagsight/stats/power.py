@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 import numbers
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 from scipy import signal
@@ -148,13 +148,21 @@ def _ar1(eps: np.ndarray, rho: float) -> np.ndarray:
     return u
 
 
-def _dw_of_projected(u: np.ndarray, basis_t: np.ndarray, lag: int) -> np.ndarray:
-    """Order-``lag`` d of the OLS residuals of each row of ``u``; ``basis_t`` is k x n orthonormal."""
-    e = u
+def _dw_of_projected(u: np.ndarray, basis_t: np.ndarray, lag: int, work=None) -> np.ndarray:
+    """Order-``lag`` d of the OLS residuals of each row of ``u``; ``basis_t`` is k x n orthonormal.
+
+    ``work`` is an optional pair of scratch arrays shaped like ``u`` and like
+    its lag-differences, reused across calls to avoid fresh allocations.
+    """
+    m, n = u.shape
+    e_buf, d_buf = work if work is not None else (np.empty((m, n)), np.empty((m, n - lag)))
+    e_buf, d_buf = e_buf[:m], d_buf[:m]
     if basis_t.shape[0]:
-        fitted = (u @ basis_t.T) @ basis_t
-        e = np.subtract(u, fitted, out=fitted)
-    diff = e[:, lag:] - e[:, :-lag]
+        np.matmul(u @ basis_t.T, basis_t, out=e_buf)
+        e = np.subtract(u, e_buf, out=e_buf)
+    else:
+        e = u
+    diff = np.subtract(e[:, lag:], e[:, :-lag], out=d_buf)
     return np.einsum("ij,ij->i", diff, diff) / np.einsum("ij,ij->i", e, e)
 
 
@@ -261,12 +269,13 @@ def dw_power(
     rng = np.random.default_rng(seed)
     rows = max(1, min(n_sim, _CHUNK_ELEMENTS // n))
     hits = np.zeros(uniq.size, dtype=np.int64)
+    work = (np.empty((rows, n)), np.empty((rows, n - lag)))
     done = 0
     while done < n_sim:
         m = min(rows, n_sim - done)
         eps = rng.standard_normal((m, n))
         for j, rho in enumerate(uniq):
-            d = _dw_of_projected(_ar1(eps, float(rho)), basis_t, lag)
+            d = _dw_of_projected(_ar1(eps, float(rho)), basis_t, lag, work)
             hits[j] += _rejections(d, crit, alternative)
         done += m
     p_uniq = hits / n_sim

@@ -1,4 +1,10 @@
-"""lagsight: are a regression's residuals serially correlated, how sure is that, and what to do about it."""
+"""lagsight: are a regression's residuals serially correlated, how sure is that, and what to do about it.
+
+Start with :func:`diagnose`; in a notebook, ``%load_ext lagsight`` then ``%lagsight model``.
+"""
+from .diagnosis import Diagnosis, diagnose
+from .inputs import ResidualData, as_residual_data
+from .order import OrderReport, check_order
 from .stats import (
     BoundsResult,
     DurbinWatsonDistribution,
@@ -8,15 +14,39 @@ from .stats import (
     dw_bounds,
     dw_distribution,
 )
+from .stats.battery import breusch_godfrey, durbin_alternative, durbin_h, ljung_box, runs_test
+from .stats.correlogram import correlogram
+from .stats.power import PowerCurve, dw_power
+from .stats.remedies import cochrane_orcutt, compare_inference, newey_west, prais_winsten
+from .verdict import Verdict
 
 __version__ = "0.1.0"
 
 __all__ = [
     "BoundsResult",
+    "Diagnosis",
     "DurbinWatsonDistribution",
     "DurbinWatsonResult",
+    "OrderReport",
+    "PowerCurve",
+    "ResidualData",
     "TestResult",
+    "Verdict",
+    "as_residual_data",
+    "breusch_godfrey",
+    "check_order",
+    "cochrane_orcutt",
+    "compare_inference",
+    "correlogram",
+    "diagnose",
+    "durbin_alternative",
+    "durbin_h",
     "durbin_watson",
     "dw_bounds",
     "dw_distribution",
+    "dw_power",
+    "ljung_box",
+    "newey_west",
+    "prais_winsten",
+    "runs_test",
 ]

@@ -8,6 +8,8 @@ and says plainly what it found.  It never sorts silently.
 """
 from __future__ import annotations
 
+import warnings
+
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -299,7 +301,10 @@ def infer_seasonal_period(index) -> int | None:
     stamps = index[~index.isna()].unique().sort_values()
     if len(stamps) < 3:
         return None
-    inferred = pd.infer_freq(stamps)
+    with warnings.catch_warnings():
+        # pandas 3 warns that infer_freq will return an offset; to_offset accepts both
+        warnings.simplefilter("ignore")
+        inferred = pd.infer_freq(stamps)
     if inferred is not None:
         return _offset_period(pd.tseries.frequencies.to_offset(inferred))
     pos, unit = _time_axis(stamps)

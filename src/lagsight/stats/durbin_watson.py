@@ -24,6 +24,7 @@ __all__ = [
     "DurbinWatsonResult",
     "BoundsResult",
     "durbin_watson",
+    "durbin_watson_exact",
     "dw_bounds",
     "dw_distribution",
     "dw_statistic",
@@ -513,10 +514,24 @@ def durbin_watson(
             numerator=num, denominator=den, n=n, k=None, lag=lag,
             bounds=bounds, bounds_decision=decision,
         )
+    return durbin_watson_exact(e, exog, alternative=alternative, lag=lag, alpha=alpha)[0]
+
+
+def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.05, distribution=None):
+    """:func:`durbin_watson` with a design, also returning the distribution it built.
+
+    Pass ``distribution`` to reuse one built earlier for the same design and lag.
+    """
+    check_alternative(alternative)
+    alpha = _check_alpha(alpha)
+    d, num, den = dw_statistic(resid, lag)
+    e = _as_vector(resid, "resid")
+    n = e.size
+    notes: list[str] = []
     X = _as_design(exog, n)
     if n - X.shape[1] < 2:
         raise ValueError(f"need more residuals than regressors + 1 (n = {n}, k = {X.shape[1]})")
-    dist = DurbinWatsonDistribution(X, lag)
+    dist = distribution if distribution is not None else DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
     proj = dist._basis_t @ e
     if float(np.dot(proj, proj)) > 1e-12 * den:
@@ -534,13 +549,14 @@ def durbin_watson(
             decision = bounds.decision(d, alternative)
         else:
             notes.append(f"bounds dL/dU not computed for n > {BOUNDS_MAX_N}; the exact p-value replaces them")
-    return DurbinWatsonResult(
+    result = DurbinWatsonResult(
         statistic=d, pvalue=pvalue, alternative=alternative, df=(n, dist.k),
         method=method, name=_name(lag), notes=tuple(notes),
         numerator=num, denominator=den, n=n, k=dist.k, lag=lag,
         null_mean=dist.mean, null_var=dist.var, lower_tail=lower, upper_tail=upper,
         bounds=bounds, bounds_decision=decision,
     )
+    return result, dist
 
 
 def _name(lag: int) -> str:

@@ -1,0 +1,224 @@
+"""``diagnose``: from a fitted model (or residuals) to a full Diagnosis.
+
+Runs the order guard, the test battery (or the per-group battery for panels),
+the remedies when correlation is found, optionally the power curve, and writes
+the verdict.  Everything the notebook panel and the magic show comes from here.
+"""
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from .battery_run import DW, RUNS, BatterySettings, run_battery
+from .groups import GroupSummary, run_groups
+from .inputs import ResidualData, as_residual_data
+from .order import OrderReport, check_order, infer_seasonal_period
+from .stats import battery
+from .stats.correlogram import Correlogram
+from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
+from .stats.power import PowerCurve, dw_power
+from .stats.remedies import InferenceComparison, compare_inference
+from .stats.results import check_alternative, tail_pvalue
+from .verdict import Verdict, write_verdict
+
+__all__ = ["Diagnosis", "diagnose"]
+
+
+@dataclass(frozen=True, eq=False)
+class Diagnosis:
+    """Everything lagsight found about one model's residuals.
+
+    Attributes
+    ----------
+    tests : dict
+        Test name -> result object (statistic, pvalue, alternative, df, method, notes).
+    errors : dict
+        Test name -> why that test could not run.
+    notes : tuple of str
+        Findings as sentences, order-guard warnings among them.
+    verdict : Verdict
+        Plain language: what was found, how strong, what to do, the cautions.
+    """
+
+    data: ResidualData
+    order: OrderReport
+    tests: dict
+    errors: dict
+    verdict: Verdict
+    alpha: float
+    alternative: str
+    correlogram: Correlogram | None = None
+    distribution: DurbinWatsonDistribution | None = field(default=None, repr=False)
+    remedies: InferenceComparison | None = None
+    power: PowerCurve | None = None
+    groups: GroupSummary | None = None
+    seasonal_period: int | None = None
+    lagged_response: str | None = None
+    notes: tuple = ()
+
+    # -- views ---------------------------------------------------------------
+    @property
+    def n(self) -> int:
+        return self.data.n
+
+    @property
+    def shuffled(self) -> bool:
+        """True when the rows tested are not in time order (a shuffle that was not sorted away)."""
+        return bool(self.order.flags.get("shuffled")) and not self.order.flags.get("sorted")
+
+    def to_frame(self) -> pd.DataFrame:
+        """The test table: one row per test."""
+        rows = []
+        for name, res in self.tests.items():
+            p = res.pvalue
+            rows.append({
+                "test": name,
+                "statistic": res.statistic,
+                "pvalue": p,
+                "alternative": res.alternative,
+                "df": ", ".join(f"{d:g}" for d in res.df) if res.df else "",
+                "method": res.method,
+                "reading": "" if math.isnan(p) else ("evidence" if p < self.alpha else "no evidence"),
+            })
+        for name, msg in self.errors.items():
+            rows.append({"test": name, "statistic": math.nan, "pvalue": math.nan, "alternative": "",
+                         "df": "", "method": "", "reading": f"not run: {msg}"})
+        return pd.DataFrame(rows, columns=["test", "statistic", "pvalue", "alternative", "df", "method", "reading"])
+
+    def reassess(self, *, alpha: float | None = None, alternative: str | None = None) -> "Diagnosis":
+        """The same diagnosis at another alpha or alternative, without recomputing distributions."""
+        alpha = self.alpha if alpha is None else _check_alpha(alpha)
+        alternative = self.alternative if alternative is None else check_alternative(alternative)
+        tests = dict(self.tests)
+        for name, res in self.tests.items():
+            if hasattr(res, "lower_tail") and not math.isnan(res.pvalue):
+                p = tail_pvalue(res.lower_tail, res.upper_tail, alternative)
+                bounds = getattr(res, "bounds", None)
+                tests[name] = dataclasses.replace(
+                    res, pvalue=p, alternative=alternative,
+                    bounds_decision=None if bounds is None else bounds.decision(res.statistic, alternative),
+                )
+        if RUNS in tests:
+            tests[RUNS] = battery.runs_test(self.data.resid, alternative=alternative)
+        remedies = self.remedies
+        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative)
+        verdict = _verdict(new, remedies)
+        if verdict.finding == "evidence" and remedies is None:
+            remedies = _remedies(self.data, alpha)
+            verdict = _verdict(new, remedies)
+        elif remedies is not None and remedies.alpha != alpha:
+            remedies = _remedies(self.data, alpha)
+            verdict = _verdict(new, remedies)
+        return dataclasses.replace(new, verdict=verdict, remedies=remedies)
+
+    def __str__(self) -> str:
+        lines = [f"lagsight diagnosis: {self.data.source}", f"tested in {self.order.order_used}, n = {self.n}", ""]
+        lines.append(str(self.verdict))
+        lines.append("")
+        table = self.to_frame()[["test", "statistic", "pvalue", "reading"]]
+        lines.append(table.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
+        if self.notes:
+            lines.append("")
+            lines += [f"note: {n}" for n in self.notes]
+        return "\n".join(lines)
+
+    __repr__ = __str__
+
+
+def _remedies(data: ResidualData, alpha: float):
+    if data.endog is None or data.exog is None:
+        return None
+    try:
+        return compare_inference(data.endog, data.exog, list(data.exog_names) if data.exog_names else None,
+                                 alpha=alpha)
+    except (ValueError, np.linalg.LinAlgError):
+        return None
+
+
+def _verdict(d: Diagnosis, remedies) -> Verdict:
+    return write_verdict(
+        d.tests, alpha=d.alpha, alternative=d.alternative, order_warnings=d.order.warnings,
+        shuffled=d.shuffled, lagged_response=d.lagged_response, remedies=remedies,
+        seasonal_period=d.seasonal_period, groups=d.groups,
+    )
+
+
+def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None, groups=None,
+             order="auto", order_by=None, alpha: float = 0.05, alternative: str = "positive",
+             max_lag: int | None = None, bg_order: int | None = None, seasonal_period: int | None = None,
+             remedies: bool | str = "auto", power: bool = False) -> Diagnosis:
+    """Diagnose serial correlation in a model's residuals.
+
+    Parameters
+    ----------
+    model
+        A statsmodels regression or ARIMA/SARIMAX result, a scikit-learn
+        regressor (with ``X`` and ``y``), residuals (array or Series, optionally
+        with ``exog``), or a DataFrame with ``response`` and ``predictors``.
+    groups : str or array, optional
+        Group labels (a column name for DataFrames): the battery runs within each group.
+    order : {'auto', 'keep', 'index'} or column name
+        Order in which residuals are tested (see :func:`lagsight.order.check_order`).
+    alpha, alternative
+        Level and direction ('positive', 'negative', 'two-sided').
+    max_lag, bg_order, seasonal_period
+        Correlogram lags, Breusch-Godfrey order, seasonal period s (0 turns the
+        seasonal test off); inferred from the index frequency when omitted.
+    remedies : 'auto', True or False
+        Corrected inference: when correlation is found ('auto'), always, or never.
+    power : bool
+        Also simulate the power of the exact DW test against AR(1) errors.
+    """
+    alpha = _check_alpha(alpha)
+    check_alternative(alternative)
+    if remedies not in ("auto", True, False):
+        raise ValueError(f"'remedies' must be 'auto', True or False (got {remedies!r})")
+    data = as_residual_data(model, exog=exog, X=X, y=y, response=response, predictors=predictors,
+                            groups=groups, order_by=order_by)
+    report = check_order(data, order=order)
+    data = report.apply(data)
+    if seasonal_period is None:
+        period = infer_seasonal_period(data.index)
+    else:
+        if not isinstance(seasonal_period, (int, np.integer)) or seasonal_period < 0:
+            raise ValueError(f"'seasonal_period' must be a non-negative integer (got {seasonal_period!r})")
+        period = int(seasonal_period) or None
+    settings = BatterySettings(alpha=alpha, alternative=alternative, max_lag=max_lag, bg_order=bg_order,
+                               seasonal_period=period)
+    notes = list(data.notes) + list(report.warnings)
+    group_summary = None
+    if data.groups is not None and pd.Series(data.groups).nunique() > 1:
+        group_summary = run_groups(data, settings)
+        notes += list(group_summary.notes)
+        # the pooled series is still tested, but never across group boundaries for DW
+    run = run_battery(data, settings)
+    notes += list(run.notes)
+    tests = dict(run.tests)
+    if group_summary is not None and DW in tests:
+        notes.append("With groups, read the per-group table and the pooled within-group d; the "
+                     "whole-series tests below run across group boundaries.")
+    d = Diagnosis(
+        data=data, order=report, tests=tests, errors=dict(run.errors), verdict=None, alpha=alpha,
+        alternative=alternative, correlogram=run.correlogram, distribution=run.distribution,
+        groups=group_summary, seasonal_period=run.seasonal_period, lagged_response=run.lagged_response,
+        notes=tuple(notes),
+    )
+    verdict = _verdict(d, None)
+    fixes = None
+    if remedies is True or (remedies == "auto" and verdict.finding == "evidence"):
+        fixes = _remedies(data, alpha)
+        if fixes is None and remedies is True:
+            notes.append("Corrected inference needs the response and the design (a fitted regression).")
+        verdict = _verdict(d, fixes)
+    curve = None
+    if power:
+        if data.exog is None:
+            notes.append("The power curve needs the design matrix.")
+        else:
+            curve = dw_power(data.exog, alpha=alpha,
+                             alternative=alternative if alternative != "two-sided" else "two-sided")
+    return dataclasses.replace(d, verdict=verdict, remedies=fixes, power=curve, notes=tuple(notes))

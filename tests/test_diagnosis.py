@@ -1,0 +1,153 @@
+"""diagnose(): the whole pipeline against outside references and real behaviour."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+import statsmodels.formula.api as smf
+
+import lagsight
+from lagsight.diagnosis import diagnose
+
+
+def _macro_fit():
+    # statsmodels' quarterly macrodata regression used in its own test suite:
+    # y = 400 dlog(realinv) on a constant, 400 dlog(realgdp) and realint lagged one quarter
+    d = sm.datasets.macrodata.load_pandas().data
+    idx = pd.period_range("1959Q2", periods=len(d) - 1, freq="Q")
+    frame = pd.DataFrame({
+        "inv": 400 * np.diff(np.log(d["realinv"].to_numpy())),
+        "gdp": 400 * np.diff(np.log(d["realgdp"].to_numpy())),
+        "rate": d["realint"].to_numpy()[:-1],
+    }, index=idx)
+    return smf.ols("inv ~ gdp + rate", data=frame).fit()
+
+
+def test_macrodata_reference_values_through_diagnose():
+    # statsmodels test-suite reference output: DW 2.213805, BG(4) LM 4.771042651230007
+    # (p 0.3116067133066697), F 1.179280833676792, Ljung-Box lag 4 5.23587172795227
+    fit = _macro_fit()
+    d = diagnose(fit)
+    assert d.seasonal_period == 4          # quarterly PeriodIndex
+    assert abs(d.tests["Durbin-Watson"].statistic - 2.213805) < 5e-7
+    bg = d.tests["Breusch-Godfrey"]
+    assert bg.order == 4
+    assert abs(bg.statistic - 4.771042651230007) < 1e-9
+    assert abs(bg.pvalue - 0.3116067133066697) < 1e-9
+    assert abs(bg.f_statistic - 1.179280833676792) < 1e-9
+    lb = d.tests["Ljung-Box"]
+    assert abs(lb.lb_stat[list(lb.lags).index(4)] - 5.23587172795227) < 1e-9
+    assert d.verdict.finding == "no evidence"
+    assert "does not prove" in d.verdict.headline
+    frame = d.to_frame()
+    assert {"Durbin-Watson", "Breusch-Godfrey", "Ljung-Box", "Runs test"} <= set(frame["test"])
+
+
+def _ar1_frame(n=400, rho=0.8, seed=0):
+    rng = np.random.default_rng(seed)
+    x = rng.normal(size=n)
+    u = np.zeros(n)
+    eps = rng.normal(size=n)
+    for t in range(1, n):
+        u[t] = rho * u[t - 1] + eps[t]
+    idx = pd.date_range("2020-01-01", periods=n, freq="D")
+    return pd.DataFrame({"y": 1 + 2 * x + u, "x": x}, index=idx)
+
+
+def test_order_guard_flags_random_split_and_sorting_restores_correlation():
+    frame = _ar1_frame()
+    train = frame.sample(frac=0.7, random_state=3)           # a random train split
+    fit = smf.ols("y ~ x", data=train).fit()
+    shuffled = diagnose(fit)
+    assert shuffled.order.flags["shuffled"]
+    assert shuffled.verdict.finding == "not meaningful"
+    assert shuffled.tests["Durbin-Watson"].pvalue > 0.01     # the shuffle hid the correlation
+    fixed = diagnose(fit, order="index")
+    assert fixed.tests["Durbin-Watson"].pvalue < 1e-6
+    assert fixed.verdict.finding == "evidence"
+    assert any("not" in w.lower() for w in fixed.order.warnings)  # the warning stays beside it
+
+
+def test_evidence_brings_remedies_and_reassess_is_cheap():
+    fit = smf.ols("y ~ x", data=_ar1_frame()).fit()
+    d = diagnose(fit)
+    assert d.verdict.finding == "evidence" and d.verdict.strength == "strong"
+    assert d.remedies is not None and abs(d.remedies.rho - 0.8) < 0.1
+    neg = d.reassess(alternative="negative")
+    dw_pos, dw_neg = d.tests["Durbin-Watson"], neg.tests["Durbin-Watson"]
+    assert abs(dw_pos.pvalue + dw_neg.pvalue - 1) < 1e-9
+    assert neg.tests["Durbin-Watson"].alternative == "negative"
+
+
+def test_lagged_response_switches_to_durbin_tests():
+    # consumption function on statsmodels' macrodata with lagged consumption
+    d = sm.datasets.macrodata.load_pandas().data
+    c = np.log(d["realcons"].to_numpy())
+    inc = np.log(d["realdpi"].to_numpy())
+    frame = pd.DataFrame({"c": c[1:], "inc": inc[1:], "c_lag": c[:-1]})
+    fit = smf.ols("c ~ inc + c_lag", data=frame).fit()
+    diag = diagnose(fit)
+    assert diag.lagged_response == "c_lag"
+    assert "Durbin's alternative" in diag.tests
+    assert "Durbin's h" in diag.tests
+    assert any("biased towards 2" in n for n in diag.notes)
+
+
+def test_panel_within_group_results():
+    rng = np.random.default_rng(9)
+    parts = []
+    for g, rho in zip("ABC", (0.85, 0.0, 0.6)):
+        n = 120
+        x = rng.normal(size=n)
+        u = np.zeros(n)
+        for t in range(1, n):
+            u[t] = rho * u[t - 1] + rng.normal()
+        parts.append(pd.DataFrame({"store": g, "t": np.arange(n), "x": x, "y": 3 + x + u}))
+    frame = pd.concat(parts, ignore_index=True)
+    diag = diagnose(frame, response="y", predictors=["x"], groups="store")
+    table = diag.groups.table.set_index("group")
+    # per-group statistic is the group's own lag-1 statistic on its residuals
+    resid = diag.data.resid
+    for g in "ABC":
+        rows = np.flatnonzero(diag.data.groups == g)
+        assert abs(table.loc[g, "dw"] - lagsight.stats.dw_statistic(resid[rows])[0]) < 1e-12
+    assert table.loc["A", "dw_pvalue"] < 1e-6 and table.loc["B", "dw_pvalue"] > 0.01
+    assert list(diag.groups.table["group"])[0] in ("A", "C")     # sorted by evidence
+    # the pooled within-group d never differences across boundaries, the stacked one does
+    assert abs(diag.groups.pooled_dw - diag.groups.naive_dw) > 1e-3
+    assert diag.groups.pooled_pvalue < 1e-6
+
+
+def test_small_groups_are_skipped_and_listed():
+    rng = np.random.default_rng(1)
+    frame = pd.DataFrame({"g": ["a"] * 40 + ["b"] * 2, "x": rng.normal(size=42)})
+    frame["y"] = frame["x"] + rng.normal(size=42)
+    diag = diagnose(frame, response="y", predictors=["x"], groups="g")
+    assert "b" in diag.groups.skipped
+    assert "fewer than 3" in diag.groups.skipped["b"]
+
+
+def test_missing_values_dropped_with_a_count():
+    resid = pd.Series(np.r_[np.random.default_rng(0).normal(size=50), np.nan, 1.0])
+    diag = diagnose(resid)
+    assert diag.n == 51
+    assert any("1" in n and ("missing" in n.lower() or "nan" in n.lower()) for n in diag.notes)
+    assert math.isnan(diag.tests["Durbin-Watson"].pvalue)      # residuals only: bounds
+
+
+def test_unknown_kind_is_a_type_error():
+    with pytest.raises(TypeError, match="Unexpected type for 'model'"):
+        diagnose(object())
+
+
+def test_bad_options():
+    fit = smf.ols("y ~ x", data=_ar1_frame(80)).fit()
+    with pytest.raises(ValueError, match="'alpha' must be in"):
+        diagnose(fit, alpha=2)
+    with pytest.raises(ValueError, match="'alternative'"):
+        diagnose(fit, alternative="up")
+    with pytest.raises(ValueError, match="'remedies'"):
+        diagnose(fit, remedies="maybe")

@@ -405,7 +405,8 @@ class SpectralForm:
         p1, p2 = self.power_sums(c)
         sd = math.sqrt(2.0 * p2)
         t_lo = 1e-5 / math.sqrt(2.0 * p2 + p1 * p1)
-        t_hi = self._upper_limit(c, 1.0 / sd)
+        # first guess from log|phi(t)| ~ -t^2 p2 (small t); doubled until the bound holds
+        t_hi = self._upper_limit(c, max(1.0 / sd, 1.15 * math.sqrt(36.0 / p2)))
         v_lo, v_hi = math.log(t_lo), math.log(t_hi)
 
         def f(v):

@@ -17,6 +17,7 @@ from scipy import fft, optimize
 from scipy.special import ndtri
 
 from .quadform import SpectralForm
+from ._arrays import as_design, as_vector, check_alpha
 from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
@@ -40,35 +41,11 @@ BOUNDS_MAX_N = 200_000
 # validation (one place)
 # ----------------------------------------------------------------------------
 def _as_vector(x, name: str) -> np.ndarray:
-    try:
-        arr = np.asarray(x, dtype=float)
-    except (TypeError, ValueError):
-        raise TypeError(f"'{name}' must be a 1-D array of numbers (got {type(x).__name__})") from None
-    if arr.ndim == 2 and 1 in arr.shape:
-        arr = arr.ravel()
-    if arr.ndim != 1:
-        raise ValueError(f"'{name}' must be 1-D (got shape {arr.shape})")
-    bad = int(np.count_nonzero(~np.isfinite(arr)))
-    if bad:
-        raise ValueError(f"'{name}' must be finite (got {bad} NaN or inf values)")
-    return arr
+    return as_vector(x, name)
 
 
 def _as_design(exog, n: int) -> np.ndarray:
-    try:
-        X = np.asarray(exog, dtype=float)
-    except (TypeError, ValueError):
-        raise TypeError(f"'exog' must be a 2-D array of numbers (got {type(exog).__name__})") from None
-    if X.ndim == 1:
-        X = X[:, None]
-    if X.ndim != 2:
-        raise ValueError(f"'exog' must be 2-D (got shape {X.shape})")
-    if X.shape[0] != n:
-        raise ValueError(f"'exog' must have one row per residual ({n} rows expected, got {X.shape[0]})")
-    bad = int(np.count_nonzero(~np.isfinite(X)))
-    if bad:
-        raise ValueError(f"'exog' must be finite (got {bad} NaN or inf values)")
-    return X
+    return as_design(exog, n, full_rank=False)
 
 
 def _check_lag(lag, n: int) -> int:
@@ -79,10 +56,7 @@ def _check_lag(lag, n: int) -> int:
     return int(lag)
 
 
-def _check_alpha(alpha) -> float:
-    if not (isinstance(alpha, (int, float, np.floating)) and 0.0 < float(alpha) < 1.0):
-        raise ValueError(f"'alpha' must be in (0, 1) (got {alpha!r})")
-    return float(alpha)
+_check_alpha = check_alpha
 
 
 # ----------------------------------------------------------------------------
@@ -489,32 +463,31 @@ def durbin_watson(
         Without ``exog``: the number of regressors excluding the constant, used
         for the bounds (default 1, with a note).
     """
+    if exog is not None:
+        return durbin_watson_exact(resid, exog, alternative=alternative, lag=lag, alpha=alpha)[0]
     check_alternative(alternative)
     alpha = _check_alpha(alpha)
     d, num, den = dw_statistic(resid, lag)
-    e = _as_vector(resid, "resid")
-    n = e.size
+    n = _as_vector(resid, "resid").size
     notes: list[str] = []
-    if exog is None:
-        kp = 1 if regressors is None else int(regressors)
-        if regressors is None:
-            notes.append("no design given: bounds assume one regressor besides a constant; pass exog for an exact p-value")
-        else:
-            notes.append("no design given: no exact p-value, only the bounds dL and dU")
-        bounds = None
-        decision = None
-        if lag == 1 and n > kp + 2:
-            bounds = dw_bounds(n, kp, alpha=alpha, intercept=True)
-            decision = bounds.decision(d, alternative)
-        elif lag != 1:
-            notes.append(f"bounds are tabulated for lag 1 only; the order-{lag} statistic needs the design")
-        return DurbinWatsonResult(
-            statistic=d, pvalue=float("nan"), alternative=alternative, df=None,
-            method="bounds only", name=_name(lag), notes=tuple(notes),
-            numerator=num, denominator=den, n=n, k=None, lag=lag,
-            bounds=bounds, bounds_decision=decision,
-        )
-    return durbin_watson_exact(e, exog, alternative=alternative, lag=lag, alpha=alpha)[0]
+    kp = 1 if regressors is None else int(regressors)
+    if regressors is None:
+        notes.append("no design given: bounds assume one regressor besides a constant; pass exog for an exact p-value")
+    else:
+        notes.append("no design given: no exact p-value, only the bounds dL and dU")
+    bounds = None
+    decision = None
+    if lag == 1 and n > kp + 2:
+        bounds = dw_bounds(n, kp, alpha=alpha, intercept=True)
+        decision = bounds.decision(d, alternative)
+    elif lag != 1:
+        notes.append(f"bounds are tabulated for lag 1 only; the order-{lag} statistic needs the design")
+    return DurbinWatsonResult(
+        statistic=d, pvalue=float("nan"), alternative=alternative, df=None,
+        method="bounds only", name=_name(lag), notes=tuple(notes),
+        numerator=num, denominator=den, n=n, k=None, lag=lag,
+        bounds=bounds, bounds_decision=decision,
+    )
 
 
 def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.05, distribution=None):

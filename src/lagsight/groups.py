@@ -10,6 +10,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+from scipy.stats import f_oneway
 from statsmodels.stats.multitest import multipletests
 
 from .battery_run import BG, DW, LB, RUNS, BatterySettings, run_battery, strength
@@ -67,6 +68,25 @@ def _row(label, part: ResidualData, settings: BatterySettings) -> dict:
     row["runs_pvalue"] = runs.pvalue if runs is not None else math.nan
     row["errors"] = "; ".join(f"{k}: {v}" for k, v in run.errors.items() if k != "Correlogram")
     return row
+
+
+def _group_level_note(e: np.ndarray, blocks) -> str | None:
+    """Say so when residual means differ between groups (one-way ANOVA F test, p < 0.001).
+
+    Group levels left in the residuals of a pooled model make every
+    within-group statistic look autocorrelated.
+    """
+    if len(blocks) < 2:
+        return None
+    p = f_oneway(*[e[b] for b in blocks]).pvalue
+    if p < 1e-3:
+        return (
+            "Residual means differ between groups (one-way ANOVA p = "
+            f"{p:.2g}): the pooled model leaves group levels in the residuals, which shows up as "
+            "autocorrelation within groups. Add group effects to the model, or screen one model per group "
+            "with lagsight.screen."
+        )
+    return None
 
 
 def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
@@ -133,6 +153,9 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
         except ValueError as err:
             notes.append(f"No exact p-value for the pooled statistic: {err}")
     naive = dw_statistic(e)[0] if data.n > 1 else math.nan
+    level_note = _group_level_note(e, tested)
+    if level_note:
+        notes.append(level_note)
     if skipped:
         notes.append(f"{len(skipped)} group(s) skipped: see 'skipped'.")
     return GroupSummary(

@@ -64,6 +64,11 @@ def _fmt_p(p: float) -> str:
     return f"{p:.2g}" if p < 0.001 else f"{p:.3f}"
 
 
+def _p_eq(p: float) -> str:
+    """'p = 0.012', or 'p < 1e-300' when the tail underflows."""
+    return "p < 1e-300" if p == 0.0 else f"p = {_fmt_p(p)}"
+
+
 def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings=(), shuffled=False,
                   lagged_response=None, remedies=None, seasonal_period=None, groups=None) -> Verdict:
     """Compose the verdict from the test results."""
@@ -82,9 +87,9 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
         res = tests[name]
         p = pvals[name]
         reading = "evidence" if p < alpha else "no evidence"
-        details.append(f"{name}: statistic {res.statistic:.4g}, p = {_fmt_p(p)} ({reading} at alpha {alpha:g}).")
+        details.append(f"{name}: statistic {res.statistic:.4g}, {_p_eq(p)} ({reading} at alpha {alpha:g}).")
     if RUNS in tests:
-        details.append(f"{RUNS} on residual signs: p = {_fmt_p(_p(tests[RUNS]))} (assumption-free check).")
+        details.append(f"{RUNS} on residual signs: {_p_eq(_p(tests[RUNS]))} (assumption-free check).")
     dw = tests.get(DW)
     if dw is not None and math.isnan(dw.pvalue) and getattr(dw, "bounds_decision", None):
         details.append(
@@ -94,7 +99,7 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
     if groups is not None and not math.isnan(groups.pooled_dw):
         details.append(
             f"Across {groups.n_groups} groups the pooled within-group d is {groups.pooled_dw:.3f}"
-            + ("" if math.isnan(groups.pooled_pvalue) else f" (p = {_fmt_p(groups.pooled_pvalue)})")
+            + ("" if math.isnan(groups.pooled_pvalue) else f" ({_p_eq(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
     if not finite:
@@ -115,7 +120,7 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
             SEASONAL: f"seasonal autocorrelation at lag {seasonal_period}",
         }[best_name]
         headline = (
-            f"{_STRENGTH_WORDS[level]} evidence of {where} ({best_name}, p = {_fmt_p(best)}). "
+            f"{_STRENGTH_WORDS[level]} evidence of {where} ({best_name}, {_p_eq(best)}). "
             "OLS standard errors and p-values for this model are not reliable as they stand."
         )
         steps.append(
@@ -135,7 +140,7 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
         steps.append("Consider modelling the dynamics directly: lagged variables or ARMA errors.")
     else:
         headline = (
-            f"No evidence of autocorrelation at alpha {alpha:g} (smallest p = {_fmt_p(best)}, {best_name}). "
+            f"No evidence of autocorrelation at alpha {alpha:g} (smallest {_p_eq(best)}, {best_name}). "
             "This does not prove the errors are independent."
         )
     finding = "evidence" if found else "no evidence"

@@ -22,6 +22,21 @@ from .verdict import Verdict
 
 __version__ = "0.1.0"
 
+
+def load_ipython_extension(ipython):
+    """``%load_ext lagsight``: register the magics (IPython is imported only here)."""
+    from .magic import load_ipython_extension as _load
+
+    _load(ipython)
+
+
+def unload_ipython_extension(ipython):
+    """``%unload_ext lagsight``."""
+    from .magic import unload_ipython_extension as _unload
+
+    _unload(ipython)
+
+
 __all__ = [
     "BoundsResult",
     "Diagnosis",
@@ -46,6 +61,7 @@ __all__ = [
     "dw_distribution",
     "dw_power",
     "ljung_box",
+    "load_ipython_extension",
     "newey_west",
     "prais_winsten",
     "runs_test",

@@ -111,7 +111,7 @@ class Diagnosis:
             remedies = _remedies(self.data, alpha)
             verdict = _verdict(new, remedies)
         elif remedies is not None and remedies.alpha != alpha:
-            remedies = _remedies(self.data, alpha)
+            remedies = remedies.at_alpha(alpha)
             verdict = _verdict(new, remedies)
         return dataclasses.replace(new, verdict=verdict, remedies=remedies)
 
@@ -127,6 +127,25 @@ class Diagnosis:
         return "\n".join(lines)
 
     __repr__ = __str__
+
+    # -- notebook display (glue in lagsight.display and lagsight.panel) --------------
+    def _repr_mimebundle_(self, include=None, exclude=None):
+        from .display import mimebundle
+        return mimebundle(self, include=include, exclude=exclude)
+
+    def _ipython_display_(self):
+        from .display import show
+        show(self)
+
+    def save_html(self, path, **view_options):
+        """Write a standalone HTML report (no network needed) and return its path."""
+        from .render.html import save_html
+        return save_html(self, path, **view_options)
+
+    def panel(self, **options):
+        """The interactive panel (:class:`lagsight.panel.DiagnosisPanel`) for this diagnosis."""
+        from .panel import DiagnosisPanel
+        return DiagnosisPanel(self, **options)
 
 
 def _remedies(data: ResidualData, alpha: float):

@@ -39,7 +39,7 @@ __all__ = ["SpectralForm", "imhof_cdf", "TailProbability"]
 
 _TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
 _DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
-_CHEB_MIN_N = 1000    # below this the direct path is always used
+_CHEB_MIN_N = 300    # below this the direct path is always used
 _CHEB_MAX_DEGREE = 600
 
 

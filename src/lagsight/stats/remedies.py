@@ -6,6 +6,8 @@ applied row by row.
 """
 from __future__ import annotations
 
+import dataclasses
+
 from dataclasses import dataclass
 import math
 import numbers
@@ -310,9 +312,25 @@ class InferenceComparison:
     rho: float
     notes: tuple = ()
 
+    def at_alpha(self, alpha: float) -> "InferenceComparison":
+        """The same comparison judged at another alpha (estimates do not depend on alpha)."""
+        alpha = check_alpha(alpha)
+        t = _flag_changes(self.table.copy(), alpha)
+        return dataclasses.replace(self, table=t, alpha=alpha)
+
     def __str__(self) -> str:
         return (f"OLS vs HAC ({self.hac_lag} lags) vs {self.fgls_method} (rho={self.rho:.4f}), "
                 f"alpha={self.alpha:g}\n{self.table.to_string()}")
+
+
+def _flag_changes(t: pd.DataFrame, alpha: float) -> pd.DataFrame:
+    """Mark the coefficients whose significance at ``alpha`` differs from OLS."""
+    sig_ols = t["p_ols"] < alpha
+    t["changed_hac"] = (t["p_hac"] < alpha) != sig_ols
+    t["changed_fgls"] = (t["p_fgls"] < alpha) != sig_ols
+    t["changes"] = [", ".join(w for w, flag in (("HAC", a), ("FGLS", b)) if flag)
+                    for a, b in zip(t["changed_hac"], t["changed_fgls"])]
+    return t
 
 
 def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-west-1994",
@@ -339,11 +357,7 @@ def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-we
         "se_hac": hac.bse, "p_hac": hac.pvalues,
         "coef_fgls": gls.params, "se_fgls": gls.bse, "p_fgls": gls.pvalues,
     }, index=pd.Index(list(labels), name="term"))
-    sig_ols = t["p_ols"] < alpha
-    t["changed_hac"] = (t["p_hac"] < alpha) != sig_ols
-    t["changed_fgls"] = (t["p_fgls"] < alpha) != sig_ols
-    t["changes"] = [", ".join(w for w, flag in (("HAC", a), ("FGLS", b)) if flag)
-                    for a, b in zip(t["changed_hac"], t["changed_fgls"])]
+    t = _flag_changes(t, alpha)
     notes = (*extra, f"HAC: {hac.method}.", f"FGLS: {gls.method}.", *gls.notes)
     return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.maxlags, hac_rule=hac_rule,
                                fgls_method="Prais-Winsten" if fgls == "prais-winsten" else "Cochrane-Orcutt",

@@ -1,0 +1,219 @@
+"""IPython magics: ``%lagsight`` (diagnose a model) and ``%lagsight_bounds`` (dL and dU).
+
+Nothing is registered at import; ``%load_ext lagsight`` calls
+:func:`load_ipython_extension`.  A user mistake (an unknown name, an object
+lagsight cannot diagnose, a bad option value) raises ``UsageError``, which
+IPython shows as one line without a traceback.
+"""
+from __future__ import annotations
+
+import warnings
+
+from IPython.core.error import UsageError
+from IPython.core.magic import Magics, line_magic, magics_class
+from IPython.core.magic_arguments import argument, magic_arguments, parse_argstring
+
+__all__ = ["LagsightMagics", "load_ipython_extension", "unload_ipython_extension"]
+
+_ALTERNATIVES = ("positive", "negative", "two-sided")
+
+
+def _first_line(err: BaseException) -> str:
+    text = str(err).strip()
+    return text.splitlines()[0] if text else type(err).__name__
+
+
+def _unquote(text: str | None) -> str | None:
+    if text is not None and len(text) >= 2 and text[0] == text[-1] and text[0] in "'\"":
+        return text[1:-1]
+    return text
+
+
+def _positive_int(name: str, value):
+    if value is not None and value < 1:
+        raise UsageError(f"{name} must be a positive integer (got {value})")
+    return value
+
+
+@magics_class
+class LagsightMagics(Magics):
+    """The lagsight magics."""
+
+    def _evaluate(self, expr: str, what: str):
+        expr = expr.strip()
+        if not expr:
+            raise UsageError(f"{what} is missing")
+        try:
+            return eval(expr, self.shell.user_global_ns, self.shell.user_ns)  # the user's own expression
+        except NameError as err:
+            name = getattr(err, "name", None)
+            detail = f"name {name!r} is not defined" if name else _first_line(err)
+            raise UsageError(f"{what} {expr!r}: {detail} in this session") from None
+        except SyntaxError as err:
+            raise UsageError(f"{what} {expr!r} is not a Python expression ({err.msg})") from None
+        except Exception as err:  # the user's expression failed: report it in one line
+            raise UsageError(f"{what} {expr!r} could not be evaluated: "
+                             f"{type(err).__name__}: {_first_line(err)}") from None
+
+    @magic_arguments()
+    @argument("expr", nargs="*", help="The model or residuals: a name or expression from the notebook.")
+    @argument("--lags", type=int, metavar="N", help="Largest lag of the correlogram.")
+    @argument("--bg", type=int, metavar="P", help="Order of the Breusch-Godfrey test.")
+    @argument("--alpha", type=float, metavar="A", help="Significance level, in (0, 1). Default 0.05.")
+    @argument("--alt", choices=_ALTERNATIVES,
+              help="Direction of the alternative. Default positive.")
+    @argument("--order", metavar="HOW",
+              help="Row order to test in: keep (as given), index (sort by the index) or a column name "
+                   "(sort by that column). Default: keep, with a warning when the rows look out of order.")
+    @argument("--group", metavar="COLUMN", help="Column with group labels: test within each group.")
+    @argument("--season", type=int, metavar="S",
+              help="Seasonal period for the seasonal Durbin-Watson test; 0 turns it off. "
+                   "Default: from the index frequency.")
+    @argument("--X", dest="X", metavar="EXPR",
+              help="The design: X for a scikit-learn estimator, the regressors (exog) for residuals, or "
+                   "comma-separated predictor columns for a DataFrame.")
+    @argument("--y", dest="y", metavar="EXPR",
+              help="The response: y for a scikit-learn estimator, or the response column for a DataFrame.")
+    @argument("--power", action="store_true", help="Also simulate the power of the exact Durbin-Watson test.")
+    @argument("--static", action="store_true", help="Static output only (no widgets).")
+    @argument("--quiet", action="store_true",
+              help="Show only the verdict and the sentence to paste; hide warnings raised while diagnosing.")
+    @line_magic
+    def lagsight(self, line: str = ""):
+        """Diagnose serial correlation in a model's residuals and show the interactive panel.
+
+        Returns the Diagnosis, so ``d = %lagsight model`` keeps it; end the line
+        with ``;`` to show nothing.  EXPR may be a fitted statsmodels regression or
+        ARIMA/SARIMAX result, a fitted scikit-learn regressor (with --X and --y),
+        residuals (with --X for their design), or a DataFrame (with --y and --X
+        naming columns).
+
+        Examples
+        --------
+        ::
+
+            %load_ext lagsight
+            %lagsight fit                          # statsmodels results: the full panel
+            d = %lagsight fit --alpha 0.01 --alt two-sided
+            %lagsight fit --order date --lags 30   # sort rows by the 'date' column first
+            %lagsight fit --group store --static   # test within each store, static output
+            %lagsight fit --season 12              # monthly data: seasonal lag 12
+            %lagsight reg --X X_test --y y_test    # a scikit-learn regressor
+            %lagsight frame --y sales --X price,promo
+            %lagsight fit --quiet                  # one verdict line and the sentence to paste
+        """
+        line = line.strip()
+        silent = line.endswith(";")
+        args = parse_argstring(self.lagsight, line.rstrip(";"))
+        expr = " ".join(args.expr)
+        if not expr:
+            raise UsageError("give the model to diagnose, e.g. %lagsight fit (see %lagsight?)")
+        options = self._options(args)
+        model = self._evaluate(expr, "model")
+        self._design(model, args, options)
+        from .diagnosis import diagnose
+        from .display import set_preferences, silence_in_cell
+        try:
+            with warnings.catch_warnings():
+                if args.quiet:
+                    warnings.simplefilter("ignore")
+                diag = diagnose(model, **options)
+        except (TypeError, ValueError) as err:
+            raise UsageError(_first_line(err)) from None
+        mode = "quiet" if args.quiet else ("static" if args.static else "panel")
+        set_preferences(diag, mode=mode)
+        if silent:
+            silence_in_cell(diag, self.shell)
+        return diag
+
+    def _options(self, args) -> dict:
+        if args.static and args.quiet:
+            raise UsageError("choose one of --static and --quiet")
+        options = {}
+        if args.alpha is not None:
+            if not 0 < args.alpha < 1:
+                raise UsageError(f"--alpha must be in (0, 1) (got {args.alpha:g})")
+            options["alpha"] = args.alpha
+        if args.alt is not None:
+            options["alternative"] = args.alt
+        options["max_lag"] = _positive_int("--lags", args.lags)
+        options["bg_order"] = _positive_int("--bg", args.bg)
+        if args.season is not None:
+            if args.season < 0 or args.season == 1:
+                raise UsageError(f"--season must be 0 (off) or a period of 2 or more (got {args.season})")
+            options["seasonal_period"] = args.season
+        order = _unquote(args.order)
+        if order is not None:
+            options["order"] = order
+        group = _unquote(args.group)
+        if group is not None:
+            options["groups"] = group
+        if args.power:
+            options["power"] = True
+        return {k: v for k, v in options.items() if v is not None}
+
+    def _design(self, model, args, options) -> None:
+        """Route --X / --y to what ``diagnose`` expects for this kind of model."""
+        import numpy as np
+        import pandas as pd
+        X, y = _unquote(args.X), _unquote(args.y)
+        if isinstance(model, pd.DataFrame):
+            if y is None:
+                raise UsageError("a DataFrame needs --y (the response column) and --X (predictor columns)")
+            if X is None:
+                raise UsageError("a DataFrame needs --X: the predictor columns, separated by commas")
+            options["response"] = y.strip()
+            options["predictors"] = [c.strip() for c in X.split(",") if c.strip()]
+        elif isinstance(model, (np.ndarray, list, tuple, pd.Series)):
+            if y is not None:
+                raise UsageError("--y does not apply to residuals (use --X for their design matrix)")
+            if X is not None:
+                options["exog"] = self._evaluate(X, "--X")
+        elif X is not None or y is not None:
+            if X is not None:
+                options["X"] = self._evaluate(X, "--X")
+            if y is not None:
+                options["y"] = self._evaluate(y, "--y")
+
+    @magic_arguments()
+    @argument("n", type=int, help="Number of observations.")
+    @argument("k", type=int, help="Number of regressors, not counting the constant (k').")
+    @argument("--alpha", type=float, default=0.05, metavar="A", help="Level of the one-sided test. Default 0.05.")
+    @argument("--no-constant", action="store_true", help="The model has no constant term.")
+    @line_magic
+    def lagsight_bounds(self, line: str = ""):
+        """Durbin-Watson bounds dL and dU for n observations and k' regressors, as a table and the 0-4 scale.
+
+        Returns the bounds view (its ``bounds`` attribute holds dL and dU).
+
+        Examples
+        --------
+        ::
+
+            %lagsight_bounds 50 3
+            %lagsight_bounds 120 2 --alpha 0.01
+            %lagsight_bounds 40 1 --no-constant
+        """
+        args = parse_argstring(self.lagsight_bounds, line.strip().rstrip(";"))
+        if args.n < 1:
+            raise UsageError(f"N must be a positive number of observations (got {args.n})")
+        if args.k < 0:
+            raise UsageError(f"K must be 0 or more regressors (got {args.k})")
+        if not 0 < args.alpha < 1:
+            raise UsageError(f"--alpha must be in (0, 1) (got {args.alpha:g})")
+        from .display import BoundsView
+        from .stats.durbin_watson import dw_bounds
+        try:
+            bounds = dw_bounds(args.n, args.k, alpha=args.alpha, intercept=not args.no_constant)
+        except (TypeError, ValueError) as err:
+            raise UsageError(_first_line(err)) from None
+        return BoundsView(bounds)
+
+
+def load_ipython_extension(ipython) -> None:
+    """Register the lagsight magics (called by ``%load_ext lagsight``)."""
+    ipython.register_magics(LagsightMagics)
+
+
+def unload_ipython_extension(ipython) -> None:
+    """Nothing to undo beyond what IPython does itself."""

@@ -1,0 +1,363 @@
+"""matplotlib Figures for every lagsight view (never pyplot state).
+
+Each function returns a new :class:`matplotlib.figure.Figure` built inside a
+local ``rc_context``; ``fig.lagsight_caption`` holds a one-paragraph caption
+(what is drawn, what was thinned for display).  Dense series are thinned for
+display only: the statistics always use every observation.
+"""
+from __future__ import annotations
+
+import math
+
+import matplotlib.dates as mdates
+import numpy as np
+import pandas as pd
+from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
+
+from ..order import _time_axis
+from ..stats.correlogram import Correlogram, lag_pairs
+from ..stats.power import TARGET_POWER
+from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
+from .scale import bounds_figure, density_grid, scale_figure
+from .style import FIG_WIDTH, PALETTE, figure_rc
+
+__all__ = [
+    "scale_figure", "bounds_figure", "correlogram_figure", "lag_scatter_figure", "residuals_figure", "power_figure",
+    "groups_figure", "figure_to_svg", "figure_to_png", "figure_to_png_data_uri", "density_grid",
+    "MAX_POINTS", "BANDS",
+]
+
+#: most points drawn in a residual or scatter plot (display only)
+MAX_POINTS = 2000
+#: above this many markers a scatter is rasterised inside the SVG to keep it small
+RASTER_MARKERS = 300
+BANDS = ("white", "bartlett")
+
+
+def _plain(text) -> str:
+    """A user string for a matplotlib Text: dollar signs stay literal (no mathtext)."""
+    return str(text).replace("$", r"\$")
+
+
+def _finish(fig: Figure, caption: str) -> Figure:
+    fig.lagsight_caption = caption
+    return fig
+
+
+# ---------------------------------------------------------------------------
+def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, band: str = "white",
+                       period: int | None = None, width: float = FIG_WIDTH) -> Figure:
+    """ACF and PACF panels with a white-noise or Bartlett band.
+
+    Parameters
+    ----------
+    correlogram : Correlogram
+    max_lag : int, optional
+        Largest lag drawn (default all computed lags).
+    band : {'white', 'bartlett'}
+        Band of the ACF panel: +/- z/sqrt(n) at every lag, or Bartlett's
+        formula (wider at lag h when earlier lags are correlated).  The PACF
+        panel always uses +/- z/sqrt(n).
+    period : int, optional
+        Seasonal period: its multiples get faint guide lines.
+    """
+    if not isinstance(correlogram, Correlogram):
+        raise TypeError(f"'correlogram' must be a Correlogram (got {type(correlogram).__name__})")
+    if band not in BANDS:
+        raise ValueError(f"'band' must be 'white' or 'bartlett' (got {band!r})")
+    available = int(correlogram.lags.size)
+    if max_lag is None:
+        max_lag = available
+    if not isinstance(max_lag, (int, np.integer)) or isinstance(max_lag, bool) or max_lag < 1:
+        raise ValueError(f"'max_lag' must be an integer >= 1 (got {max_lag!r})")
+    shown = min(int(max_lag), available)
+    lags = correlogram.lags[:shown]
+    z_note = f"{100 * (1 - correlogram.alpha):g}%"
+    with figure_rc():
+        fig = Figure(figsize=(width, 3.0))
+        axes = fig.subplots(1, 2, sharey=True)
+        fig.subplots_adjust(left=0.08, right=0.98, top=0.8, bottom=0.26, wspace=0.08)
+        for ax, values, name in ((axes[0], correlogram.acf[:shown], "ACF"),
+                                 (axes[1], correlogram.pacf[:shown], "PACF")):
+            if name == "ACF" and band == "bartlett":
+                b = correlogram.bartlett_band[:shown]
+                poly = ax.fill_between(lags, -b, b, step="mid", color=PALETTE["blue_light"], lw=0, zorder=0)
+            else:
+                b = np.full(shown, correlogram.white_band)
+                poly = ax.axhspan(-correlogram.white_band, correlogram.white_band, color=PALETTE["blue_light"],
+                                  lw=0, zorder=0)
+            poly.set_gid(f"lgs-band-{name.lower()}")
+            if period and period > 1:
+                for m in range(period, shown + 1, period):
+                    ax.axvline(m, color=PALETTE["rule"], lw=0.8, ls=(0, (1, 2)), zorder=0)
+            outside = np.abs(values) > b
+            # stems as one path (NaN breaks) keeps the SVG small
+            sx = np.repeat(lags.astype(float), 3)
+            sy = np.column_stack([np.zeros(shown), values, np.full(shown, np.nan)]).ravel()
+            sx[2::3] = np.nan
+            ax.plot(sx, sy, color=PALETTE["muted"], lw=1.1, zorder=2, solid_capstyle="butt")
+            ax.axhline(0, color=PALETTE["ink"], lw=0.7, zorder=1)
+            (inn,) = ax.plot(lags[~outside], values[~outside], "o", ms=3.6, color=PALETTE["blue"], zorder=3)
+            (out,) = ax.plot(lags[outside], values[outside], "s", ms=4.2, color=PALETTE["orange"], zorder=4)
+            inn.set_gid(f"lgs-{name.lower()}-inside")
+            out.set_gid(f"lgs-{name.lower()}-outside")
+            ax.set_title(f"{name}: {int(outside.sum())} of {shown} lags outside the band", fontsize=8.5)
+            ax.set_xlim(0.3, shown + 0.7)
+            ax.set_xlabel("lag")
+        peak = float(np.max(np.abs(np.concatenate([correlogram.acf[:shown], correlogram.pacf[:shown]]))))
+        lim = max(0.25, peak * 1.15)
+        axes[0].set_ylim(-lim, lim)
+        axes[0].set_ylabel("correlation")
+        band_words = ("Bartlett band (ACF)" if band == "bartlett" else "white-noise band")
+        fig.text(0.08, 0.95, f"Residual autocorrelation, lags 1\u2013{shown}", fontsize=10, fontweight="bold",
+                 va="center")
+        fig.legend(handles=[
+            Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], ms=4, label="inside the band"),
+            Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4, label="outside the band"),
+            Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
+        ], loc="lower center", bbox_to_anchor=(0.53, 0.0), ncol=3, fontsize=7.5, frameon=False)
+    which = ("Bartlett band for the ACF (white-noise band for the PACF)" if band == "bartlett"
+             else "white-noise band, z/sqrt(n)")
+    cap = (f"Sample ACF and PACF (Yule-Walker) of the residuals, n = {correlogram.n:,}. The shaded band is the "
+           f"{z_note} {which}; points outside it are squares.")
+    if max_lag is not None and int(max_lag) > available:
+        cap += f" Only {available} lags were computed."
+    return _finish(fig, cap)
+
+
+# ---------------------------------------------------------------------------
+def _thin_even(m: int, max_points: int) -> np.ndarray:
+    if m <= max_points:
+        return np.arange(m)
+    return np.unique(np.linspace(0, m - 1, max_points).round().astype(np.intp))
+
+
+def lag_scatter_figure(resid, h: int, *, max_points: int = MAX_POINTS, width: float = 3.9) -> Figure:
+    """e_t against e_{t-h}, with the correlation of the pairs in the title.
+
+    ``resid`` is a residual array (or a Diagnosis, whose residuals are used).
+    At most ``max_points`` evenly spaced pairs are drawn; the correlation uses all.
+    """
+    data = getattr(resid, "data", None)
+    e = data.resid if data is not None and hasattr(data, "resid") else resid
+    pairs = lag_pairs(e, h)
+    m = pairs.lagged.size
+    keep = _thin_even(m, max_points)
+    x, y = pairs.lagged[keep], pairs.current[keep]
+    r = pairs.correlation
+    with figure_rc():
+        fig = Figure(figsize=(width, width * 0.92))
+        ax = fig.add_axes((0.17, 0.15, 0.78, 0.72))
+        (pts,) = ax.plot(x, y, "o", ms=2.6, alpha=0.55, color=PALETTE["blue"], mec="none", zorder=2)
+        pts.set_gid("lgs-lag-points")
+        if keep.size > RASTER_MARKERS:
+            pts.set_rasterized(True)
+        ax.axhline(0, color=PALETTE["rule"], lw=0.8, zorder=1)
+        ax.axvline(0, color=PALETTE["rule"], lw=0.8, zorder=1)
+        if not math.isnan(r) and np.std(pairs.lagged) > 0:
+            slope = r * np.std(pairs.current) / np.std(pairs.lagged)
+            mx, my = float(np.mean(pairs.lagged)), float(np.mean(pairs.current))
+            xs = np.array([np.min(pairs.lagged), np.max(pairs.lagged)])
+            (fit,) = ax.plot(xs, my + slope * (xs - mx), color=PALETTE["orange"], lw=1.5, zorder=3)
+            fit.set_gid("lgs-lag-fit")
+        r_text = "n/a" if math.isnan(r) else f"{r:.3f}"
+        ax.set_title(f"Lag {h}: correlation r = {r_text}", fontsize=9.5)
+        ax.set_xlabel(f"residual at t \u2212 {h}")
+        ax.set_ylabel("residual at t")
+    cap = f"Each point pairs a residual with the one {h} step{'s' * (h != 1)} earlier; {m:,} pairs."
+    if keep.size < m:
+        cap += (f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}.")
+    return _finish(fig, cap)
+
+
+# ---------------------------------------------------------------------------
+def _thin_series(e: np.ndarray, max_points: int) -> np.ndarray:
+    n = e.size
+    if n <= max_points:
+        return np.arange(n)
+    blocks = max(1, max_points // 2)
+    edges = np.linspace(0, n, blocks + 1).astype(np.intp)
+    starts = edges[:-1]
+    lo = np.minimum.reduceat(e, starts)
+    hi = np.maximum.reduceat(e, starts)
+    # positions of the block minimum and maximum
+    block_id = np.repeat(np.arange(blocks), np.diff(edges))
+    pos = np.arange(n)
+    is_lo = e == lo[block_id]
+    is_hi = e == hi[block_id]
+    first_lo = np.full(blocks, n, np.intp)
+    first_hi = np.full(blocks, n, np.intp)
+    np.minimum.at(first_lo, block_id[is_lo], pos[is_lo])
+    np.minimum.at(first_hi, block_id[is_hi], pos[is_hi])
+    return np.unique(np.concatenate([first_lo, first_hi, [0, n - 1]]))
+
+
+def _x_values(index: pd.Index):
+    """(x values, is time, time stamps) for plotting in test order."""
+    if isinstance(index, pd.PeriodIndex):
+        stamps = index.to_timestamp()
+    elif isinstance(index, pd.DatetimeIndex):
+        stamps = index.tz_localize(None) if index.tz is not None else index
+    else:
+        return np.arange(1, len(index) + 1, dtype=float), False, None
+    if stamps.hasnans or not stamps.is_monotonic_increasing:
+        return np.arange(1, len(index) + 1, dtype=float), False, None
+    return mdates.date2num(stamps.to_numpy()), True, index
+
+
+def _gap_positions(index: pd.Index) -> np.ndarray:
+    """Positions i with a gap between row i and i + 1 (time stamps more than one usual step apart)."""
+    if not index.is_unique or len(index) < 3:
+        return np.empty(0, np.intp)
+    pos, _ = _time_axis(index)
+    steps = np.diff(pos)
+    values, counts = np.unique(steps, return_counts=True)
+    return np.flatnonzero(steps > values[np.argmax(counts)])
+
+
+def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_WIDTH) -> Figure:
+    """Residuals in the order they were tested, time on the x-axis when there is one, gaps shaded."""
+    e = np.asarray(diag.data.resid, float)
+    n = e.size
+    x, is_time, stamps = _x_values(diag.data.index)
+    gaps = np.empty(0, np.intp)
+    if is_time and diag.data.groups is None and diag.order.flags.get("gaps"):
+        gaps = _gap_positions(stamps)
+    keep = _thin_series(e, max_points)
+    xs, ys = x[keep], e[keep]
+    if gaps.size:
+        left = np.searchsorted(gaps, keep[:-1], "left")
+        right = np.searchsorted(gaps, keep[1:], "left")
+        cut = np.flatnonzero(right > left) + 1
+        xs = np.insert(xs, cut, np.nan)
+        ys = np.insert(ys, cut, np.nan)
+    with figure_rc():
+        fig = Figure(figsize=(width, 2.6))
+        ax = fig.add_axes((0.08, 0.2, 0.9, 0.64))
+        shown_gaps = gaps
+        if gaps.size > 200:
+            widths = x[gaps + 1] - x[gaps]
+            shown_gaps = np.sort(gaps[np.argsort(widths)[-200:]])
+        for g in shown_gaps:
+            span = ax.axvspan(x[g], x[g + 1], facecolor=PALETTE["orange_light"], hatch="||",
+                              hatchcolor=PALETTE["orange"], edgecolor="none", lw=0, zorder=0)
+            span.set_gid("lgs-gap")
+        ax.axhline(0, color=PALETTE["muted"], lw=0.7, zorder=1)
+        (line,) = ax.plot(xs, ys, color=PALETTE["blue"], lw=0.8, zorder=2)
+        line.set_gid("lgs-residuals")
+        if diag.data.groups is not None and not is_time:
+            codes = pd.factorize(np.asarray(diag.data.groups))[0]
+            bounds = np.flatnonzero(codes[1:] != codes[:-1])
+            if 0 < bounds.size <= 60:
+                ax.vlines(x[bounds] + 0.5, 0, 1, transform=ax.get_xaxis_transform(), color=PALETTE["rule"],
+                          lw=0.8, zorder=0)
+        if is_time:
+            loc = mdates.AutoDateLocator(minticks=4, maxticks=9)
+            ax.xaxis.set_major_locator(loc)
+            ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(loc))
+            name = diag.data.index.name
+            ax.set_xlabel(_plain(name) if name is not None else "time")
+        else:
+            ax.set_xlabel("position in test order")
+        ax.set_ylabel("residual")
+        ax.set_xlim(x[0], x[-1] if n > 1 else x[0] + 1)
+        fig.text(0.08, 0.93, "Residuals in test order", fontsize=10, fontweight="bold", va="center")
+    cap = f"Residuals in the order tested ({diag.order.order_used}), n = {n:,}."
+    if keep.size < n:
+        cap += (f" For display the line keeps {keep.size:,} of {n:,} points (the lowest and highest of each "
+                "block of neighbours); every test uses all points.")
+    if gaps.size:
+        cap += (f" {gaps.size:,} gap{'s' * (gaps.size != 1)} in the time stamps "
+                f"{'are' if gaps.size != 1 else 'is'} shaded with cross-hatching"
+                + (f" (the {shown_gaps.size} widest drawn)" if shown_gaps.size < gaps.size else "")
+                + "; the line is broken there.")
+        if diag.order.flags.get("largest_gap"):
+            cap += f" Largest gap: {diag.order.flags['largest_gap']}."
+    elif diag.order.flags.get("gaps") and not is_time:
+        cap += f" The time stamps have {diag.order.flags['gaps']} irregular gaps (see the order check)."
+    return _finish(fig, cap)
+
+
+# ---------------------------------------------------------------------------
+def power_figure(curve, *, width: float = 5.6) -> Figure:
+    """Power of the exact Durbin-Watson test along AR(1) coefficients, with a 95% Monte Carlo band."""
+    with figure_rc():
+        fig = Figure(figsize=(width, 3.0))
+        ax = fig.add_axes((0.11, 0.17, 0.85, 0.68))
+        band = ax.fill_between(curve.rhos, np.clip(curve.power - 1.96 * curve.se, 0, 1),
+                               np.clip(curve.power + 1.96 * curve.se, 0, 1), color=PALETTE["blue_light"], lw=0)
+        band.set_gid("lgs-power-band")
+        (line,) = ax.plot(curve.rhos, curve.power, color=PALETTE["blue"], lw=1.6, marker="o", ms=2.5)
+        line.set_gid("lgs-power")
+        ax.axhline(TARGET_POWER, color=PALETTE["ink"], lw=0.8, ls=(0, (1, 2)))
+        ax.axhline(curve.alpha, color=PALETTE["muted"], lw=0.8, ls=(0, (4, 2)))
+        # labels at the end of the grid where the curve is farther from them
+        end = 0 if abs(curve.power[0] - TARGET_POWER) > abs(curve.power[-1] - TARGET_POWER) else -1
+        ha = "left" if end == 0 else "right"
+        ax.text(curve.rhos[end], TARGET_POWER + 0.02, f" power {TARGET_POWER:g} ", fontsize=7.5, va="bottom",
+                ha=ha)
+        ax.text(curve.rhos[end], curve.alpha + 0.02, f" \u03b1 = {curve.alpha:g} ", fontsize=7.5, va="bottom",
+                ha=ha, color=PALETTE["muted"])
+        rho = curve.min_detectable_rho
+        if rho is not None and not math.isnan(rho):
+            ax.axvline(rho, color=PALETTE["orange"], lw=1.2)
+            ax.text(rho, 0.5, f" \u03c1 = {rho:.3f}", color=PALETTE["orange"], fontsize=8, va="center",
+                    ha="left" if rho <= np.median(curve.rhos) else "right")
+        ax.set_ylim(0, 1.02)
+        ax.set_xlabel("AR(1) coefficient \u03c1 of the errors")
+        ax.set_ylabel("probability of detection")
+        fig.text(0.11, 0.93, f"Power of the exact Durbin-Watson test (n = {curve.n:,})", fontsize=10,
+                 fontweight="bold", va="center")
+    cap = (f"Share of {curve.n_sim:,} simulated series per \u03c1 in which the test rejects at \u03b1 = "
+           f"{curve.alpha:g} ({curve.alternative}); shaded: \u00b11.96 Monte Carlo standard errors. {curve.method}.")
+    return _finish(fig, cap)
+
+
+def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) -> Figure:
+    """Per-group Durbin-Watson d: a dot per group (few groups) or a histogram (many)."""
+    table = summary.table
+    with figure_rc():
+        if len(table) == 0 or "dw" not in table:
+            fig = Figure(figsize=(width, 1.2))
+            fig.text(0.05, 0.5, "No group could be tested.", fontsize=9, va="center")
+            return _finish(fig, "No group could be tested.")
+        d = table["dw"].to_numpy(float)
+        found = (~table["finding"].isin(["none", "unknown"]).to_numpy() if "finding" in table
+                 else np.zeros(d.size, bool))
+        few = len(table) <= max_labels
+        height = (max(2.4, 0.5 + 0.18 * len(table)) if few else 2.6) + 0.3
+        fig = Figure(figsize=(width, height))
+        ax = fig.add_axes((0.22 if few else 0.09, 0.85 / height, 0.74 if few else 0.87, 1 - 1.35 / height))
+        if few:
+            y = np.arange(len(table))[::-1]
+            (a,) = ax.plot(d[~found], y[~found], "o", color=PALETTE["blue"], ms=5)
+            (b,) = ax.plot(d[found], y[found], "s", color=PALETTE["orange"], ms=5.5)
+            a.set_gid("lgs-group-none")
+            b.set_gid("lgs-group-evidence")
+            ax.set_yticks(y, [_plain(g) for g in table["group"]])
+            ax.set_ylim(-0.7, len(table) - 0.3)
+        else:
+            ok = d[np.isfinite(d)]
+            ax.hist(ok, bins=int(min(40, max(8, np.sqrt(ok.size)))), color=PALETTE["blue_light"],
+                    edgecolor=PALETTE["blue"], lw=0.5)
+            ax.set_ylabel("groups")
+        if not math.isnan(summary.pooled_dw):
+            ax.axvline(summary.pooled_dw, color=PALETTE["ink"], lw=1.4, label="pooled within-group d")
+        if not math.isnan(summary.naive_dw):
+            ax.axvline(summary.naive_dw, color=PALETTE["orange"], lw=1.0, ls=(0, (4, 2)),
+                       label="d of the groups stacked end to end")
+        ax.axvline(2.0, color=PALETTE["rule"], lw=0.8)
+        ax.set_xlabel("Durbin-Watson d within the group")
+        handles, _ = ax.get_legend_handles_labels()
+        if few:
+            handles += [Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], label="evidence (adjusted)"),
+                        Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], label="no evidence")]
+        fig.legend(handles=handles, loc="lower center", ncol=len(handles), fontsize=7.5,
+                   bbox_to_anchor=(0.5, 0.0), frameon=False)
+        fig.text(0.02, 1 - 0.22 / height, f"Durbin-Watson d by group ({summary.n_groups} groups)", fontsize=10,
+                 fontweight="bold", va="center")
+    cap = ("Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
+           "Benjamini-Hochberg adjustment." if few else
+           f"Distribution of the per-group d over {len(table)} tested groups.")
+    return _finish(fig, cap)

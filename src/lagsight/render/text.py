@@ -1,0 +1,270 @@
+"""Words and numbers: the sentence to paste into a report, formatted tables, plain-text views.
+
+Everything here returns plain (unescaped) strings; the HTML layer escapes them
+where it writes them.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL
+from ..stats.power import TARGET_POWER
+
+__all__ = [
+    "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
+    "key_figures", "primary_test", "report_sentence", "diagnosis_text", "table_text", "k_prime", "power_text",
+]
+
+#: one line on how to read each test
+TEST_GUIDE = {
+    DW: "d near 2 means no lag-1 correlation; d well below 2 means positive, well above 2 negative "
+        "correlation. The exact p-value is for this model's own design.",
+    BG: "Regresses the residuals on their own lags and the regressors: a small p-value means correlation "
+        "at one or more of the first lags. Valid with a lagged response.",
+    LB: "Pools the squared autocorrelations up to the lag shown: a small p-value means the residuals are "
+        "not white noise at some of those lags.",
+    DH: "For models with the lagged response as a regressor: h is approximately standard normal when "
+        "there is no lag-1 correlation.",
+    DALT: "Regresses the residuals on their lag and the regressors: works with a lagged response, and "
+          "when Durbin's h cannot be computed.",
+    SEASONAL: "The Durbin-Watson statistic at the seasonal lag s: d_s well below 2 means this season's "
+              "residual follows last season's.",
+    RUNS: "Counts runs of same-signed residuals: too few runs means positive correlation. Uses signs only, "
+          "so it needs no normality but has less power.",
+}
+
+#: columns of the test table
+TEST_COLUMNS = ("test", "statistic", "p-value", "looks for", "reading", "method")
+
+_LOOKS_FOR = {"positive": "positive correlation", "negative": "negative correlation",
+              "two-sided": "correlation of either sign"}
+_SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", RUNS: "z"}
+
+
+def format_pvalue(p) -> str:
+    """A p-value for display: 3 decimals, or 2 significant digits below 0.001."""
+    if p is None or (isinstance(p, float) and math.isnan(p)):
+        return "n/a"
+    p = float(p)
+    if p <= 0.0:
+        return "< 1e-300"
+    if p < 0.001:
+        return f"{p:.2g}"
+    return f"{p:.3f}"
+
+
+def format_number(x, digits: int = 4) -> str:
+    """A statistic for display (``digits`` significant digits; 'n/a' for NaN)."""
+    if x is None:
+        return "n/a"
+    x = float(x)
+    if math.isnan(x):
+        return "n/a"
+    text = f"{x:.{digits}g}"
+    return text.replace("-", "\u2212") if text.startswith("-") else text
+
+
+def _dw_value(x: float) -> str:
+    return "n/a" if math.isnan(x) else f"{x:.3f}"
+
+
+def statistic_label(name: str, res) -> str:
+    """'d = 0.889', 'LM = 232.2 (df 7)', 'd_7 = 1.868', ..."""
+    stat = res.statistic
+    if name == DW:
+        return f"d = {_dw_value(stat)}"
+    if name == SEASONAL:
+        return f"d_{getattr(res, 'lag', 's')} = {_dw_value(stat)}"
+    text = f"{_SYMBOL.get(name, 'statistic')} = {format_number(stat)}"
+    if name in (BG, LB) and res.df:
+        text += f" (df {res.df[0]:g})"
+    if name == RUNS and hasattr(res, "runs"):
+        text += f" ({res.runs} runs, {res.expected_runs:.0f} expected)"
+    return text
+
+
+def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
+    """One row of formatted strings per test (columns :data:`TEST_COLUMNS`), errors last."""
+    alpha = diag.alpha if alpha is None else alpha
+    rows = []
+    for name, res in diag.tests.items():
+        p = res.pvalue
+        if math.isnan(p):
+            reading = "no p-value"
+            decision = getattr(res, "bounds_decision", None)
+            if decision:
+                reading = f"bounds: {decision}"
+        else:
+            reading = "evidence" if p < alpha else "no evidence"
+        looks = _LOOKS_FOR.get(res.alternative, str(res.alternative))
+        rows.append((name, statistic_label(name, res), format_pvalue(p), looks, reading, str(res.method)))
+    for name, msg in diag.errors.items():
+        rows.append((name, "", "", "", f"not run: {msg}", ""))
+    return rows
+
+
+def k_prime(diag) -> int | None:
+    """Regressors excluding the constant (k' of published bounds tables), or None if unknown."""
+    res = diag.tests.get(DW)
+    bounds = getattr(res, "bounds", None)
+    if bounds is not None:
+        return int(bounds.k)
+    dist = diag.distribution
+    if dist is not None:
+        return int(dist.k - (1 if dist.has_constant else 0))
+    return None
+
+
+def primary_test(diag) -> str | None:
+    """The test the report sentence is about: the one the verdict leads with."""
+    tests = diag.tests
+    if diag.lagged_response is not None and DALT in tests:
+        return DALT
+    if DW in tests and not math.isnan(tests[DW].pvalue):
+        return DW
+    for name in (BG, LB, DW, RUNS):
+        if name in tests:
+            return name
+    return next(iter(tests), None)
+
+
+def key_figures(diag) -> list[tuple[str, str]]:
+    """(label, value) pairs for the headline: statistic, p-value, n, k', rho, bounds, alpha, order."""
+    out = []
+    dw = diag.tests.get(DW)
+    if dw is not None:
+        out.append(("Durbin-Watson d", _dw_value(dw.statistic)))
+        out.append(("p-value", format_pvalue(dw.pvalue)))
+        out.append(("implied rho", format_number(1 - dw.statistic / 2, 3)))
+        bounds = getattr(dw, "bounds", None)
+        if bounds is not None:
+            out.append(("dL / dU", f"{bounds.lower:.3f} / {bounds.upper:.3f}"))
+    else:
+        name = primary_test(diag)
+        if name is not None:
+            res = diag.tests[name]
+            out.append((name, statistic_label(name, res)))
+            out.append(("p-value", format_pvalue(res.pvalue)))
+    out.append(("n", f"{diag.n:,}"))
+    kp = k_prime(diag)
+    if kp is not None:
+        out.append(("k'", str(kp)))
+    out.append(("alpha", f"{diag.alpha:g}"))
+    out.append(("alternative", str(diag.alternative)))
+    out.append(("order", str(diag.order.order_used)))
+    index = diag.data.index
+    if len(index):
+        out.append(("span", f"{_stamp(index[0])} \u2026 {_stamp(index[-1])}"))
+    return out
+
+
+def _stamp(value) -> str:
+    text = str(value)
+    return text[:-9] if text.endswith(" 00:00:00") else text
+
+
+_ALT_WORDS = {"positive": "against positive autocorrelation", "negative": "against negative autocorrelation",
+              "two-sided": "two-sided"}
+
+
+def _method_phrase(method: str) -> tuple[bool, str]:
+    """(is exact, method words for a parenthesis) from a result's method string."""
+    method = method.split(";")[0].strip()
+    if method.startswith("exact (") and method.endswith(")"):
+        return True, method[len("exact ("):-1]
+    exact = method.startswith("exact")
+    if method.endswith(")") and method.count("(") == 1:
+        base, detail = method[:-1].split("(")
+        method = f"{base.strip()}, {detail.strip()}"
+    return exact, method
+
+
+def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> str:
+    """A sentence to paste into a report: statistic, n, k', p-value, method and alternative.
+
+    Parameters
+    ----------
+    diag : Diagnosis
+    fmt : {'markdown', 'text'}
+    test : str, optional
+        Test name (a key of ``diag.tests``); default the test the verdict leads with.
+    """
+    if fmt not in ("markdown", "text"):
+        raise ValueError(f"'fmt' must be 'markdown' or 'text' (got {fmt!r})")
+    name = primary_test(diag) if test is None else test
+    if name is None:
+        return "No serial-correlation test could be run on these residuals."
+    if name not in diag.tests:
+        known = ", ".join(repr(t) for t in diag.tests)
+        raise ValueError(f"'test' must be one of the tests run ({known}) (got {name!r})")
+    res = diag.tests[name]
+    md = fmt == "markdown"
+
+    def it(sym: str) -> str:
+        return f"*{sym}*" if md else sym
+
+    exact, method = _method_phrase(str(res.method))
+    sizes = [f"{it('n')} = {diag.n:,}"]
+    if name in (DW, SEASONAL):
+        kp = k_prime(diag)
+        if kp is not None:
+            sizes.append(f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
+        if name == SEASONAL:
+            sizes.append(f"lag {getattr(res, 'lag', '')}")
+        value = _dw_value(res.statistic)
+        head = f"{name} {it('d')} = {value}" if name == DW else f"{name} {it('d')}_{res.lag} = {value}"
+    else:
+        symbol = _SYMBOL.get(name, "statistic")
+        head = f"{name} {it(symbol)} = {format_number(res.statistic)}"
+        if res.df:
+            sizes.append("df " + ", ".join(f"{d:g}" for d in res.df))
+    alt = _ALT_WORDS.get(str(res.alternative), f"against {res.alternative}")
+    if math.isnan(res.pvalue):
+        bounds = getattr(res, "bounds", None)
+        tail = "no exact p-value (the design is not known)"
+        if bounds is not None:
+            tail += (f"; bounds at alpha {bounds.alpha:g}: dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}, "
+                     f"decision '{res.bounds_decision}'")
+        return f"{head} ({', '.join(sizes)}), {tail}."
+    pword = f"{it('p')}-value"
+    if exact and method:
+        pword = f"exact {pword}"
+    tail = f"{pword} {format_pvalue(res.pvalue)} {alt}"
+    if method:
+        tail += f" ({method})"
+    return f"{head} ({', '.join(sizes)}), {tail}."
+
+
+def table_text(columns, rows, *, max_width: int = 60) -> str:
+    """A fixed-width text table of string cells (long cells are cut with an ellipsis)."""
+    cut = [[c if len(c) <= max_width else c[: max_width - 1] + "\u2026" for c in row] for row in rows]
+    widths = [max([len(str(h))] + [len(r[i]) for r in cut]) for i, h in enumerate(columns)]
+    lines = ["  ".join(str(h).ljust(w) for h, w in zip(columns, widths)).rstrip()]
+    lines += ["  ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip() for r in cut]
+    return "\n".join(lines)
+
+
+def diagnosis_text(diag) -> str:
+    """A plain-text rendering: headline, key figures, warnings, tests, what to do, the sentence."""
+    v = diag.verdict
+    lines = [f"lagsight diagnosis: {diag.data.source}", "", v.headline, ""]
+    lines.append("   ".join(f"{k}: {val}" for k, val in key_figures(diag)))
+    if diag.order.warnings:
+        lines.append("")
+        lines += [f"Order check: {w}" for w in diag.order.warnings]
+    lines += ["", table_text(TEST_COLUMNS[:5], [r[:5] for r in test_rows(diag)])]
+    if v.next_steps:
+        lines += ["", "What to do next:"] + [f"  - {s}" for s in v.next_steps]
+    lines += ["", "To report: " + report_sentence(diag, "text")]
+    return "\n".join(lines)
+
+
+def power_text(curve) -> str:
+    """One line on the power curve: where power reaches the target."""
+    rho = curve.min_detectable_rho
+    if rho is None or np.isnan(rho):
+        return f"On this grid the test does not reach power {TARGET_POWER:g} (n = {curve.n})."
+    return (f"Power reaches {TARGET_POWER:g} at rho = {rho:.3f} "
+            f"(n = {curve.n}, alpha {curve.alpha:g}, {curve.n_sim} draws).")

@@ -1,0 +1,295 @@
+"""The interactive panel, headless: setting widget values changes the panel's state and figures.
+
+Numbers the panel shows are checked against general-purpose references:
+statsmodels' Breusch-Godfrey and Ljung-Box functions, numpy's correlation, and
+the white-noise band z_{1-alpha/2}/sqrt(n) of the sample ACF (Bartlett 1946;
+Box & Jenkins), with z from scipy.
+"""
+from __future__ import annotations
+
+import asyncio
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.formula.api as smf
+from IPython.core.interactiveshell import InteractiveShell
+from IPython.utils.capture import capture_output
+from matplotlib.figure import Figure
+from scipy import stats
+from statsmodels.stats.diagnostic import acorr_breusch_godfrey, acorr_ljungbox
+
+import lagsight
+from lagsight.battery_run import BG, DW, LB, SEASONAL
+from lagsight.panel import DiagnosisPanel
+from lagsight.scenarios import water_demand
+
+InteractiveShell.instance()  # display() needs a shell
+
+
+@pytest.fixture(scope="module")
+def fit():
+    return smf.ols("demand_ml ~ temp_c + rain_mm + weekend", data=water_demand()).fit()
+
+
+@pytest.fixture(scope="module")
+def diag(fit):
+    return lagsight.diagnose(fit)
+
+
+@pytest.fixture
+def panel(diag):
+    return DiagnosisPanel(diag, snapshot_delay=0)
+
+
+def _gid(ax, gid):
+    return [a for a in ax.get_children() if a.get_gid() == gid]
+
+
+def _widgets(widget):
+    yield widget
+    for child in getattr(widget, "children", ()):
+        yield from _widgets(child)
+
+
+def test_initial_state(panel, diag):
+    assert panel.current is diag
+    assert panel.test == DW and panel.band == "white" and panel.lag == 1
+    assert panel.max_lag == len(diag.correlogram.lags)
+    assert panel.alpha == 0.05 and panel.alternative == "positive"
+    assert panel.errors == {}
+    for name in ("scale", "correlogram", "lag", "residuals"):
+        assert isinstance(panel.figures[name], Figure), name
+    assert "<svg" in panel.test_view.value and "<svg" in panel.correlogram_view.value
+
+
+def test_every_widget_has_a_lagsight_class(panel):
+    for widget in _widgets(panel.widget):
+        assert any(c.startswith("lgs-") for c in widget._dom_classes), type(widget).__name__
+    named = {c for w in _widgets(panel.widget) for c in w._dom_classes}
+    for cls in ("lgs-lag-slider", "lgs-test-toggle", "lgs-alpha", "lgs-alternative", "lgs-band",
+                "lgs-lag-picker", "lgs-save", "lgs-save-path", "lgs-panel"):
+        assert cls in named, cls
+    assert panel.lag_slider.continuous_update is False and panel.lag_picker.continuous_update is False
+
+
+def test_lag_slider_redraws_the_correlogram(panel):
+    before = panel.correlogram_view.value
+    panel.lag_slider.value = 10
+    assert panel.max_lag == 10
+    assert panel.correlogram_view.value != before
+    acf_ax = panel.figures["correlogram"].axes[0]
+    marks = _gid(acf_ax, "lgs-acf-inside") + _gid(acf_ax, "lgs-acf-outside")
+    assert sum(len(m.get_xdata()) for m in marks) == 10  # one marker per lag shown
+    assert panel.timings["correlogram"] > 0
+
+
+def test_band_toggle_and_alpha_change_the_band(panel, diag):
+    n = diag.n
+    panel.band_toggle.value = "white"
+    band = _gid(panel.figures["correlogram"].axes[0], "lgs-band-acf")[0]
+    # white-noise band at alpha 0.05: z_0.975 / sqrt(n)
+    assert band.get_y() + band.get_height() == pytest.approx(stats.norm.ppf(0.975) / math.sqrt(n), rel=1e-9)
+    panel.alpha_picker.value = 0.01
+    assert panel.current.alpha == 0.01
+    assert panel._correlogram().white_band == pytest.approx(stats.norm.ppf(0.995) / math.sqrt(n), rel=1e-12)
+    view = panel.correlogram_view.value
+    panel.band_toggle.value = "bartlett"
+    assert panel.band == "bartlett" and panel.correlogram_view.value != view
+    cg = panel._correlogram()
+    # Bartlett: z * sqrt((1 + 2 sum_{j<h} r_j^2) / n), at alpha 0.01
+    r = cg.acf
+    h = 5
+    expected = stats.norm.ppf(0.995) * math.sqrt((1 + 2 * np.sum(r[: h - 1] ** 2)) / n)
+    assert cg.bartlett_band[h - 1] == pytest.approx(expected, rel=1e-10)
+
+
+def test_test_toggles_show_each_statistic(panel, fit):
+    assert set(panel.test_toggle.options) >= {DW, BG, LB, SEASONAL, "Runs test"}
+    panel.test_toggle.value = BG
+    assert panel.test == BG
+    lm = acorr_breusch_godfrey(fit, nlags=7, result_object=False)[0]  # statsmodels reference, same order 7
+    assert f"{lm:.4g}" in panel.test_view.value
+    panel.test_toggle.value = LB
+    q = acorr_ljungbox(fit.resid, lags=[14])["lb_stat"].iloc[0]  # statsmodels reference at lag 14
+    assert f"{q:.4g}" in panel.test_view.value
+    assert "<svg" not in panel.test_view.value  # the scale belongs to Durbin-Watson
+    panel.test_toggle.value = DW
+    assert "<svg" in panel.test_view.value
+
+
+def test_alternative_updates_every_view(panel, fit):
+    head = panel.headline.value
+    positive_scale = panel.figures["scale"]
+    panel.alternative_picker.value = "negative"
+    assert panel.alternative == "negative"
+    fresh = lagsight.diagnose(fit, alternative="negative")
+    assert panel.current.tests[DW].pvalue == pytest.approx(fresh.tests[DW].pvalue, rel=1e-9)
+    assert panel.current.tests[DW].pvalue > 0.99  # d = 0.889 is far in the positive tail
+    assert panel.current.verdict.headline == fresh.verdict.headline
+    assert panel.headline.value != head
+    # a new figure for the new alternative; switching back reuses the one already drawn
+    assert panel.figures["scale"] is not positive_scale
+    panel.alternative_picker.value = "positive"
+    assert panel.figures["scale"] is positive_scale
+    assert panel.headline.value == head
+
+
+def test_lag_picker_redraws_the_scatter(panel, diag):
+    e = diag.data.resid
+    panel.lag_picker.value = 3
+    assert panel.lag == 3
+    r = np.corrcoef(e[:-3], e[3:])[0, 1]  # numpy reference
+    title = panel.figures["lag"].axes[0].get_title(loc="left")
+    assert f"{r:.3f}" in title and "Lag 3" in title
+
+
+def test_a_failing_view_shows_its_message_and_the_rest_works(panel, monkeypatch):
+    import lagsight.render.figures as figures
+
+    def broken(*args, **kwargs):
+        raise ValueError("the drawing broke")
+
+    monkeypatch.setattr(figures, "correlogram_figure", broken)
+    panel.lag_slider.value = 7
+    assert "the drawing broke" in panel.correlogram_view.value
+    assert panel.errors["correlogram"] == "the drawing broke"
+    panel.test_toggle.value = BG
+    assert BG in panel.test_view.value and "test" not in panel.errors
+    monkeypatch.undo()
+    panel.lag_slider.value = 8
+    assert "correlogram" not in panel.errors and "<svg" in panel.correlogram_view.value
+
+
+def test_a_test_that_could_not_run_shows_why():
+    frame = water_demand()
+    fit = smf.ols("demand_ml ~ temp_c + rain_mm + weekend", data=frame).fit()
+    d = lagsight.diagnose(fit.resid)  # residuals without their design
+    assert SEASONAL in d.errors
+    panel = DiagnosisPanel(d, test=SEASONAL, snapshot_delay=0)
+    assert d.errors[SEASONAL] in panel.test_view.value.replace("&#x27;", "'")
+    panel.test_toggle.value = DW
+    assert "bounds" in panel.test_view.value.lower()
+    assert panel.errors == {}
+
+
+def test_remedies_table_follows_alpha(panel, diag):
+    terms = list(diag.remedies.table.index)
+    for term in terms:
+        assert term in panel.remedies_view.value
+    panel.alpha_picker.value = 0.001
+    assert panel.current.remedies.alpha == 0.001
+    assert "\u03b1 = 0.001" in panel.remedies_view.value
+
+
+def test_no_remedies_when_no_evidence():
+    rng = np.random.default_rng(11)
+    x = rng.normal(size=200)
+    frame = pd.DataFrame({"x": x, "y": 1 + x + rng.normal(size=200)})
+    d = lagsight.diagnose(smf.ols("y ~ x", data=frame).fit())
+    assert d.verdict.finding == "no evidence"
+    panel = DiagnosisPanel(d, snapshot_delay=0)
+    assert "No corrected inference" in panel.remedies_view.value
+
+
+def test_groups_view():
+    rng = np.random.default_rng(5)
+    frame = pd.DataFrame({"store": np.repeat(["a<b>", "c&d"], 60), "x": rng.normal(size=120)})
+    frame["y"] = frame["x"] + rng.normal(size=120)
+    d = lagsight.diagnose(smf.ols("y ~ x", data=frame).fit(), groups="store")
+    panel = DiagnosisPanel(d, snapshot_delay=0)
+    assert "a&lt;b&gt;" in panel.groups_view.value and "c&amp;d" in panel.groups_view.value
+    assert "<b>" not in panel.groups_view.value.replace("<b>n</b>", "")
+    assert isinstance(panel.figures["groups"], Figure)
+
+
+def test_hostile_names_are_escaped_in_every_view():
+    rng = np.random.default_rng(2)
+    n = 150
+    u = np.zeros(n)
+    for t in range(1, n):
+        u[t] = 0.7 * u[t - 1] + rng.normal()
+    bad = '<script>alert("x")</script>&'
+    frame = pd.DataFrame({bad: rng.normal(size=n)}, index=pd.date_range("2024-01-01", periods=n, freq="D"))
+    frame["y'q"] = 2 + frame[bad] + u
+    d = lagsight.diagnose(frame, response="y'q", predictors=[bad])
+    assert d.remedies is not None
+    panel = DiagnosisPanel(d, snapshot_delay=0)
+    values = [w.value for w in _widgets(panel.widget) if hasattr(w, "value") and isinstance(w.value, str)]
+    joined = "".join(v for v in values if v is not panel.style.value)
+    assert "<script" not in joined
+    assert "&lt;script&gt;" in panel.remedies_view.value
+
+
+def test_save_button_writes_a_report(panel, tmp_path):
+    target = tmp_path / "report.html"
+    panel.save_path.value = str(target)
+    panel.save_button.click()
+    assert target.exists() and panel.saved_path == target.resolve()
+    assert str(target.resolve()) in panel.save_status.value
+    text = target.read_text(encoding="utf-8")
+    assert "<svg" in text and "http://" not in text and "https://" not in text
+
+
+def test_save_to_a_bad_path_says_why_and_keeps_working(panel, tmp_path):
+    panel.save_path.value = str(tmp_path / "missing-dir" / "report.html")
+    panel.save_button.click()
+    assert "Not saved" in panel.save_status.value and "save" in panel.errors
+    panel.lag_slider.value = 4
+    assert panel.max_lag == 4 and "correlogram" not in panel.errors
+    panel.save_path.value = str(tmp_path / "ok.html")
+    panel.save_button.click()
+    assert "save" not in panel.errors
+
+
+def test_snapshot_follows_the_panel(panel):
+    with capture_output() as cap:
+        panel.show()
+        panel.lag_slider.value = 9
+    first, widget, update = cap.outputs
+    assert first.transient == {"display_id": panel.display_id}
+    assert widget.data["application/vnd.jupyter.widget-view+json"]["model_id"] == panel.widget.model_id
+    assert update.update and update.transient == {"display_id": panel.display_id}
+    assert f"lgs-snapshot-{panel.uid}" in update.data["text/html"]
+    assert update.data["text/html"] != first.data["text/html"]
+    assert panel.snapshot_updates == 1
+
+
+def test_snapshot_refresh_is_deferred_and_merged_in_a_running_loop(diag):
+    panel = DiagnosisPanel(diag, snapshot_delay=0.05)
+
+    async def moves():
+        panel.show()
+        panel.lag_slider.value = 5
+        panel.lag_slider.value = 6
+        panel.band_toggle.value = "bartlett"
+        assert panel.snapshot_updates == 0
+        await asyncio.sleep(0.5)
+
+    with capture_output() as cap:
+        asyncio.run(moves())
+    assert panel.snapshot_updates == 1
+    updates = [o for o in cap.outputs if o.update]
+    assert len(updates) == 1 and updates[0].transient == {"display_id": panel.display_id}
+
+
+def test_state_setters_and_bad_options(diag):
+    panel = DiagnosisPanel(diag, max_lag=12, band="bartlett", lag=2, test=BG, snapshot_delay=0)
+    assert (panel.max_lag, panel.band, panel.lag, panel.test) == (12, "bartlett", 2, BG)
+    panel.alpha = 0.2
+    assert panel.current.alpha == 0.2 and 0.2 in [v for _, v in panel.alpha_picker.options]
+    with pytest.raises(ValueError, match="'alpha' must be in"):
+        panel.alpha = 1.5
+    with pytest.raises(ValueError, match="'band'"):
+        DiagnosisPanel(diag, band="wide")
+    with pytest.raises(ValueError, match="'test'"):
+        DiagnosisPanel(diag, test="Nope")
+    with pytest.raises(ValueError, match="'figures'"):
+        DiagnosisPanel(diag, figures="gif")
+
+
+def test_png_figures(diag):
+    panel = DiagnosisPanel(diag, figures="png", snapshot_delay=0)
+    assert 'src="data:image/png;base64,' in panel.correlogram_view.value
+    assert "<svg" not in panel.correlogram_view.value

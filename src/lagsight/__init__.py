@@ -5,6 +5,7 @@ Start with :func:`diagnose`; in a notebook, ``%load_ext lagsight`` then ``%lagsi
 from .diagnosis import Diagnosis, diagnose
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order
+from .screen import ScreenResult, screen
 from .stats import (
     BoundsResult,
     DurbinWatsonDistribution,
@@ -45,6 +46,7 @@ __all__ = [
     "OrderReport",
     "PowerCurve",
     "ResidualData",
+    "ScreenResult",
     "TestResult",
     "Verdict",
     "as_residual_data",
@@ -65,4 +67,5 @@ __all__ = [
     "newey_west",
     "prais_winsten",
     "runs_test",
+    "screen",
 ]

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 import statsmodels.api as sm
 
-import lagsight.screen as ls
+from lagsight.screen import screen
 
 
 def make_models(count: int, n: int, k: int, seed: int = 0) -> dict:
@@ -64,7 +64,7 @@ def main(count: int, repeat: int) -> None:
           f"{os.cpu_count()} cores, load average {os.getloadavg()[0]:.2f}; best of {repeat}\n")
     rows = []
 
-    res, wall, cpu = _timed(lambda: ls.screen(fits, progress=False), repeat)
+    res, wall, cpu = _timed(lambda: screen(fits, progress=False), repeat)
     reference = res.table
     rows.append(("serial (this process)", 0.0, wall, cpu, 0.0))
 
@@ -73,7 +73,7 @@ def main(count: int, repeat: int) -> None:
         with ProcessPoolExecutor(max_workers=workers) as pool:
             pool.submit(exec, "import lagsight.screen").result()  # the pool is up
             start = time.perf_counter() - t0
-            out, wall, cpu = _timed(lambda: ls.screen(fits, executor=pool, progress=False), repeat)
+            out, wall, cpu = _timed(lambda: screen(fits, executor=pool, progress=False), repeat)
         pd.testing.assert_frame_equal(out.table, reference)
         rows.append((f"process pool, {workers} worker(s)", start, wall, cpu, (_children_cpu() - w0) / repeat))
 
@@ -86,7 +86,7 @@ def main(count: int, repeat: int) -> None:
         executor = client.get_executor()
         client.run(exec, "import lagsight.screen")  # every worker has imported lagsight
         start = time.perf_counter() - t0
-        out, wall, cpu = _timed(lambda: ls.screen(fits, executor=executor, progress=False), repeat)
+        out, wall, cpu = _timed(lambda: screen(fits, executor=executor, progress=False), repeat)
         pd.testing.assert_frame_equal(out.table, reference)
         rows.append(("dask LocalCluster, 2 workers", start, wall, cpu, float("nan")))
     finally:

@@ -52,7 +52,9 @@ NOTEBOOKS = {
                  "from lagsight.scenarios import grid_peak_load\n\n"
                  "load = grid_peak_load()\n"
                  "fit = smf.ols('load_mw ~ load_lag + cdd + hdd', data=load).fit()"),
-        ("code", "%load_ext lagsight\nd = %lagsight fit\nd.to_frame()[['test', 'statistic', 'pvalue', 'reading']]"),
+        ("code", "%load_ext lagsight\n%lagsight fit"),
+        ("md", "The test table, kept as an object:"),
+        ("code", "d = %lagsight fit --quiet\nd.to_frame()[['test', 'statistic', 'pvalue', 'reading']]"),
     ],
     "seasonal": [
         ("md", "# Seasonal correlation that lag 1 misses\n\n"
@@ -62,7 +64,9 @@ NOTEBOOKS = {
                  "from lagsight.scenarios import clinic_visits\n\n"
                  "visits = clinic_visits()\n"
                  "fit = smf.ols('visits ~ population_k + flu_season', data=visits).fit()"),
-        ("code", "%load_ext lagsight\nd = %lagsight fit --season 12\n"
+        ("code", "%load_ext lagsight\n%lagsight fit --season 12"),
+        ("md", "Lag 1 against lag 12, side by side:"),
+        ("code", "d = %lagsight fit --season 12 --quiet\n"
                  "d.to_frame()[['test', 'statistic', 'pvalue', 'reading']]"),
     ],
     "screening": [

@@ -10,6 +10,7 @@ agree with it).  The series below are invented for behaviour tests.
 from __future__ import annotations
 
 import concurrent.futures as cf
+import importlib
 
 import numpy as np
 import pandas as pd
@@ -20,9 +21,11 @@ from statsmodels.stats.multitest import multipletests
 from statsmodels.stats.stattools import durbin_watson as sm_durbin_watson
 
 import lagsight
-import lagsight.screen as screen_module
 from lagsight.battery_run import strength
 from lagsight.screen import ScreenResult, screen
+
+# the package exports the function screen, which hides the module of the same name as an attribute
+screen_module = importlib.import_module("lagsight.screen")
 
 
 def _ar1(n, rho, rng):
@@ -293,6 +296,7 @@ def test_rows_out_of_time_order_are_flagged_and_sorted_on_request():
 
 
 def test_progress_bar_and_views(capsys):
+    assert lagsight.screen is screen and lagsight.ScreenResult is ScreenResult  # public names
     res = screen(_fits(5, n=50, seed=9), progress=True)
     err = capsys.readouterr().err
     assert "5/5" in err and "model" in err

@@ -258,7 +258,7 @@ def headline_html(diag) -> str:
     v = diag.verdict
     finding = v.finding.replace(" ", "-")
     parts = [f'<div class="lgs-headline lgs-{_esc(finding)}">{_esc(v.headline)}</div>', '<ul class="lgs-keys">']
-    parts += [f"<li><b>{_esc(k)}</b>{_esc(val)}</li>" for k, val in key_figures(diag)]
+    parts += [f"<li><b>{_esc(k)}:</b> {_esc(val)}</li>" for k, val in key_figures(diag)]
     parts.append("</ul>")
     parts += [f'<div class="lgs-warning"><strong>Row order:</strong> {_esc(w)}</div>' for w in diag.order.warnings]
     if v.next_steps:
@@ -276,8 +276,8 @@ def test_html(diag, name: str | None) -> str:
         return error_box(f"{name} could not be run:", diag.errors[name])
     row = next(r for r in test_rows(diag) if r[0] == name)
     parts = [f"<h4>{_esc(name)}</h4>", '<ul class="lgs-keys">']
-    parts += [f"<li><b>{_esc(k)}</b>{_esc(v)}</li>" for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v]
-    parts.append(f"<li><b>alpha</b>{diag.alpha:g}</li></ul>")
+    parts += [f"<li><b>{_esc(k)}:</b> {_esc(v)}</li>" for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v]
+    parts.append(f"<li><b>alpha:</b> {diag.alpha:g}</li></ul>")
     parts.append(f'<p class="lgs-caption">{_esc(TEST_GUIDE.get(name, ""))}</p>')
     parts += [f'<p class="lgs-caption">{_esc(n)}</p>' for n in diag.tests[name].notes]
     return "".join(parts)

@@ -144,9 +144,10 @@ class DiagnosisPanel:
         self.alpha_picker = tag(w.Dropdown(options=[(f"{a:g}", a) for a in alphas], value=diag.alpha,
                                            description="alpha", layout=w.Layout(width="160px")), "lgs-alpha")
         self.alternative_picker = tag(w.ToggleButtons(options=list(ALTERNATIVES), value=diag.alternative,
-                                                      description="alternative"), "lgs-alternative")
-        self.test_toggle = tag(w.ToggleButtons(options=names, value=test if names else None), "lgs-test-toggle")
-        self.test_view = view("lgs-test-view", "300px")
+                                                      description="alternative", style={"button_width": "auto"}), "lgs-alternative")
+        self.test_toggle = tag(w.ToggleButtons(options=names, value=test if names else None,
+                                                style={"button_width": "auto"}), "lgs-test-toggle")
+        self.test_view = view("lgs-test-view", "120px")
         self.lag_slider = tag(w.IntSlider(value=min(max_lag, nlags), min=1, max=nlags, continuous_update=False,
                                           description="max lag", disabled=diag.correlogram is None),
                               "lgs-lag-slider")
@@ -162,7 +163,8 @@ class DiagnosisPanel:
         self.power_view = view("lgs-power-view")
         self.save_path = tag(w.Text(value="lagsight-report.html", description="report file",
                                     layout=w.Layout(width="360px")), "lgs-save-path")
-        self.save_button = tag(w.Button(description="Save HTML report", icon="download"), "lgs-save")
+        self.save_button = tag(w.Button(description="Save HTML report", icon="download",
+                                          layout=w.Layout(width="auto")), "lgs-save")
         self.save_status = tag(w.HTML(), "lgs-save-status")
 
         def section(title):

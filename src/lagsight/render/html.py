@@ -256,7 +256,7 @@ def render_html(view: View) -> str:
     out = [f'<div class="lgs-root" data-lgs-finding="{_e(view.finding)}">', f"<style>{CSS}</style>",
            f'<h3 class="lgs-title">{_e(view.title)}</h3>', f'<p class="lgs-source">{_e(view.source)}</p>',
            f'<div class="lgs-headline {finding}">{_e(view.headline)}</div>',
-           '<ul class="lgs-keys">' + "".join(f"<li><b>{_e(k)}</b>{_e(v)}</li>" for k, v in view.key_figures)
+           '<ul class="lgs-keys">' + "".join(f"<li><b>{_e(k)}:</b> {_e(v)}</li>" for k, v in view.key_figures)
            + "</ul>"]
     for w in view.warnings:
         out.append(f'<div class="lgs-warning"><strong>Row order: </strong>{_e(w)}</div>')

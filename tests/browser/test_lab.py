@@ -46,8 +46,10 @@ CELL_OUTPUTS = ".jp-Cell-outputArea > .jp-OutputArea-child > .jp-OutputArea-outp
 
 
 def _live_notebook() -> tuple[Path, list[int]]:
-    """The first notebook (examples first) with a cell that shows the live panel."""
-    for path in nbtools.notebooks_under_test():
+    """The quickstart, else the first notebook (examples first) with a cell that shows the live panel."""
+    paths = nbtools.notebooks_under_test()
+    paths = sorted(paths, key=lambda p: p.name != "quickstart.ipynb")
+    for path in paths:
         nb = nbformat.read(path, as_version=4)
         cells = [i for i in nbtools.shown_panels(nb) if not nbtools.static_only(nb.cells[i])]
         if cells:

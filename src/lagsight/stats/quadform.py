@@ -39,6 +39,7 @@ __all__ = ["SpectralForm", "imhof_cdf", "TailProbability"]
 
 _TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
 _DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
+_EVAL_BLOCK = 20_000        # multipliers per evaluation block (bounds memory)
 _CHEB_MIN_N = 300    # below this the direct path is always used
 _CHEB_MAX_DEGREE = 600
 
@@ -278,12 +279,19 @@ class SpectralForm:
         return float(p1), float(p2)
 
     # -- evaluation of log det and the resolvent trace ----------------------
-    def evaluate(self, z, c: float, trace: bool = False):
+    def evaluate(self, z, c, trace: bool = False):
         """log det(I - z P'(A - cI)P) and, optionally, tr (I - z P'(A-cI)P)^{-1}.
 
-        ``z`` is an array of complex multipliers with Re(1 - z e) > 0.
+        ``z`` is an array of complex multipliers with Re(1 - z e) > 0; ``c`` a
+        scalar or an array of the same shape (one c per multiplier).
         """
         z = np.asarray(z, dtype=complex).ravel()
+        c = np.broadcast_to(np.asarray(c, dtype=float).ravel(), z.shape)
+        if z.size > _EVAL_BLOCK:
+            parts = [self.evaluate(z[s : s + _EVAL_BLOCK], c[s : s + _EVAL_BLOCK], trace)
+                     for s in range(0, z.size, _EVAL_BLOCK)]
+            return (np.concatenate([p[0] for p in parts]),
+                    np.concatenate([p[1] for p in parts]) if trace else None)
         logdet = np.empty(z.shape, complex)
         tr = np.empty(z.shape, complex) if trace else None
         use_cheb = np.zeros(z.shape, bool)
@@ -295,15 +303,13 @@ class SpectralForm:
         elif self.nu.size >= _CHEB_MIN_N:
             degree = self._degree_needed(z, c)
             use_cheb = degree <= min(_CHEB_MAX_DEGREE, self.nu.size // 8)
-        if np.any(use_cheb):
-            idx = np.flatnonzero(use_cheb)
-            ld, t = self._eval_cheb(z[idx], c, int(degree[idx].max()), trace)
-            logdet[idx] = ld
-            if trace:
-                tr[idx] = t
-        if np.any(~use_cheb):
-            idx = np.flatnonzero(~use_cheb)
-            ld, t = self._eval_direct(z[idx], c, trace)
+        for path, idx in ((True, np.flatnonzero(use_cheb)), (False, np.flatnonzero(~use_cheb))):
+            if not idx.size:
+                continue
+            if path:
+                ld, t = self._eval_cheb(z[idx], c[idx], int(degree[idx].max()), trace)
+            else:
+                ld, t = self._eval_direct(z[idx], c[idx], trace)
             logdet[idx] = ld
             if trace:
                 tr[idx] = t
@@ -323,8 +329,8 @@ class SpectralForm:
     def _finish(self, z, L, H, K2, T1, c, trace):
         """Combine scalar sums and k x k matrices into log det and trace."""
         if self.exclude.size:
-            e_ex = self.nu[self.exclude] - c
-            D_ex = 1.0 - z[:, None] * e_ex[None, :]
+            e_ex = self.nu[self.exclude][None, :] - c[:, None]
+            D_ex = 1.0 - z[:, None] * e_ex
             L = L - np.log(D_ex).sum(axis=1)
             if trace:
                 T1 = T1 - (1.0 / D_ex).sum(axis=1)
@@ -340,16 +346,15 @@ class SpectralForm:
         return logdet, T1 - corr
 
     def _eval_direct(self, z, c, trace):
-        e = self.nu - c
-        N = e.size
+        N = self.nu.size
         if self.W is not None and self._ww is None:
             self._ww = (self.W.T[:, :, None] * self.W.T[:, None, :]).reshape(N, -1)
         WW = self._ww
         step = max(1, _DIRECT_BLOCK // max(N, 1))
         out_ld, out_tr = [], []
         for s in range(0, z.size, step):
-            zz = z[s : s + step]
-            D = 1.0 - zz[:, None] * e[None, :]
+            zz, cc = z[s : s + step], c[s : s + step]
+            D = 1.0 - zz[:, None] * (self.nu[None, :] - cc[:, None])
             L = np.log(D).sum(axis=1)
             G = 1.0 / D
             T1 = G.sum(axis=1) if trace else None
@@ -359,7 +364,7 @@ class SpectralForm:
                 if trace:
                     G2 = G * G
                     K2 = G2.real @ WW + 1j * (G2.imag @ WW)
-            ld, tr = self._finish(zz, L, H, K2, T1, c, trace)
+            ld, tr = self._finish(zz, L, H, K2, T1, cc, trace)
             out_ld.append(ld)
             out_tr.append(tr)
         return np.concatenate(out_ld), (np.concatenate(out_tr) if trace else None)
@@ -386,8 +391,8 @@ class SpectralForm:
         return self._finish(z, L, H, K2, T1, c, trace)
 
     # -- distribution -----------------------------------------------------------
-    def log_cf(self, t, c: float) -> np.ndarray:
-        """log E exp(i t Q_c) for real t."""
+    def log_cf(self, t, c) -> np.ndarray:
+        """log E exp(i t Q_c) for real t (c a scalar or one per t)."""
         ld, _ = self.evaluate(2j * np.asarray(t, float), c)
         return -0.5 * ld
 
@@ -396,25 +401,41 @@ class SpectralForm:
 
         Returns (probability, error estimate, density or None).
         """
+        prob, err, dens = self.cdf_many(np.array([float(c)]), density)
+        return float(prob[0]), float(err[0]), (float(dens[0]) if density else None)
+
+    def cdf_many(self, cs, density: bool = False):
+        """P(Q_c <= 0) (and its derivative in c) for many c at once.
+
+        All c share one set of integration nodes, so a whole grid costs about
+        as much as a few single evaluations.  Returns arrays (prob, err, dens).
+        """
         if self.m <= 0:
             raise ValueError("the quadratic form has no degrees of freedom left")
-        if c <= self.nu_min:
-            return 0.0, 0.0, (0.0 if density else None)
-        if c >= self.nu_max:
-            return 1.0, 0.0, (0.0 if density else None)
-        p1, p2 = self.power_sums(c)
-        sd = math.sqrt(2.0 * p2)
-        t_lo = 1e-5 / math.sqrt(2.0 * p2 + p1 * p1)
+        cs = np.atleast_1d(np.asarray(cs, dtype=float))
+        prob = np.where(cs >= self.nu_max, 1.0, 0.0)
+        err = np.zeros(cs.shape)
+        dens = np.zeros(cs.shape)
+        live = np.flatnonzero((cs > self.nu_min) & (cs < self.nu_max))
+        if live.size == 0:
+            return prob, err, (dens if density else None)
+        c = cs[live]
+        sums = np.array([self.power_sums(ci) for ci in c])
+        p1, p2 = sums[:, 0], sums[:, 1]
+        t_lo = float(np.min(1e-5 / np.sqrt(2.0 * p2 + p1 * p1)))
         # first guess from log|phi(t)| ~ -t^2 p2 (small t); doubled until the bound holds
-        t_hi = self._upper_limit(c, max(1.0 / sd, 1.15 * math.sqrt(36.0 / p2)))
+        t_hi = float(np.max(self._upper_limits(c, np.maximum(1.0 / np.sqrt(2.0 * p2),
+                                                              1.15 * np.sqrt(36.0 / p2)))))
         v_lo, v_hi = math.log(t_lo), math.log(t_hi)
 
         def f(v):
             t = np.exp(v)
-            ld, tr = self.evaluate(2j * t, c, trace=density)
-            phi = np.exp(-0.5 * ld)
-            dens = (phi * tr).real * t if density else None
-            return phi.imag, dens
+            z = np.broadcast_to(2j * t[None, :], (c.size, t.size))
+            cc = np.broadcast_to(c[:, None], z.shape)
+            ld, tr = self.evaluate(z, cc, trace=density)
+            phi = np.exp(-0.5 * ld).reshape(z.shape)
+            d = (phi * tr.reshape(z.shape)).real * t[None, :] if density else None
+            return phi.imag, d
 
         # Bi-infinite trapezoid rule in v = log t.  Below v_lo the integrands are
         # p1 * t and m * t to relative order t^2, so the nodes there sum in
@@ -427,45 +448,51 @@ class SpectralForm:
         n_int = 32
         h = (v_hi - v_lo) / n_int
         fi, di = f(v_lo + h * np.arange(n_int + 1))
-        S = float(fi.sum())
-        Sd = float(di.sum()) if density else 0.0
+        S = fi.sum(axis=1)
+        Sd = di.sum(axis=1) if density else np.zeros(c.size)
         I_old = h * (S + p1 * lower_sum(h))
         Id_old = h * (Sd + self.m * lower_sum(h))
-        err = np.inf
+        e = np.full(c.size, np.inf)
         for _ in range(12):
             fm, dm = f(v_lo + h * (np.arange(n_int) + 0.5))
-            S += float(fm.sum())
+            S = S + fm.sum(axis=1)
             if density:
-                Sd += float(dm.sum())
+                Sd = Sd + dm.sum(axis=1)
             h *= 0.5
             n_int *= 2
             I_new = h * (S + p1 * lower_sum(h))
             Id_new = h * (Sd + self.m * lower_sum(h))
-            err = abs(I_new - I_old)
-            derr = abs(Id_new - Id_old)
+            e = np.abs(I_new - I_old)
+            derr = np.abs(Id_new - Id_old)
             I_old, Id_old = I_new, Id_new
-            if err < _TOL and (not density or derr < 1e-10 * max(1.0, abs(Id_new))):
+            if np.all(e < _TOL) and (not density or np.all(derr < 1e-10 * np.maximum(1.0, np.abs(Id_new)))):
                 break
-        prob = min(1.0, max(0.0, 0.5 - I_old / math.pi))
-        dens = None
+        prob[live] = np.clip(0.5 - I_old / math.pi, 0.0, 1.0)
+        err[live] = e / math.pi
         if density:
-            dens = max(0.0, Id_old / math.pi)
-        return prob, err / math.pi, dens
+            dens[live] = np.maximum(0.0, Id_old / math.pi)
+        return prob, err, (dens if density else None)
 
-    def _upper_limit(self, c, t0):
-        """A t beyond which the remaining integral is below 1e-15.
+    def _upper_limits(self, c, t0):
+        """For each c, a t beyond which the remaining integral is below 1e-15.
 
         log|phi| is concave in v = log t with slope -g(t), g increasing, so
         the tail integral beyond t is at most |phi(t)| / g(t).
         """
-        t = t0
+        t = np.array(t0, dtype=float)
+        todo = np.ones(c.size, bool)
         dv = 0.05
         for _ in range(400):
-            lp = self.log_cf(np.array([t, t * math.exp(-dv)]), c).real
-            g = -(lp[0] - lp[1]) / dv
-            if g > 0 and lp[0] - math.log(g) < math.log(1e-15):
-                return t
-            t *= 2.0
+            idx = np.flatnonzero(todo)
+            if not idx.size:
+                break
+            tt = np.concatenate([t[idx], t[idx] * math.exp(-dv)])
+            lp = self.log_cf(tt, np.concatenate([c[idx], c[idx]])).real
+            g = -(lp[: idx.size] - lp[idx.size :]) / dv
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ok = (g > 0) & (lp[: idx.size] - np.log(np.where(g > 0, g, 1.0)) < math.log(1e-15))
+            todo[idx[ok]] = False
+            t[idx[~ok]] *= 2.0
         return t
 
     # -- saddlepoint ------------------------------------------------------------

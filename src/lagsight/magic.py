@@ -211,7 +211,15 @@ class LagsightMagics(Magics):
 
 
 def load_ipython_extension(ipython) -> None:
-    """Register the lagsight magics (called by ``%load_ext lagsight``)."""
+    """Register the lagsight magics (called by ``%load_ext lagsight``).
+
+    The figure and panel modules (matplotlib, ipywidgets) are imported here,
+    once, so the first ``%lagsight`` does not pay for those imports.
+    """
+    import importlib
+
+    for name in ("lagsight.render.figures", "lagsight.panel"):
+        importlib.import_module(name)
     ipython.register_magics(LagsightMagics)
 
 

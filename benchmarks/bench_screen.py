@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 import statsmodels.api as sm
 
-from lagsight.screen import screen
+from lagsight.screening import screen
 
 
 def make_models(count: int, n: int, k: int, seed: int = 0) -> dict:
@@ -71,7 +71,7 @@ def main(count: int, repeat: int) -> None:
     for workers in (1, 2):
         t0, w0 = time.perf_counter(), _children_cpu()
         with ProcessPoolExecutor(max_workers=workers) as pool:
-            pool.submit(exec, "import lagsight.screen").result()  # the pool is up
+            pool.submit(exec, "import lagsight.screening").result()  # the pool is up
             start = time.perf_counter() - t0
             out, wall, cpu = _timed(lambda: screen(fits, executor=pool, progress=False), repeat)
         pd.testing.assert_frame_equal(out.table, reference)
@@ -84,7 +84,7 @@ def main(count: int, repeat: int) -> None:
     client = Client(cluster)
     try:
         executor = client.get_executor()
-        client.run(exec, "import lagsight.screen")  # every worker has imported lagsight
+        client.run(exec, "import lagsight.screening")  # every worker has imported lagsight
         start = time.perf_counter() - t0
         out, wall, cpu = _timed(lambda: screen(fits, executor=executor, progress=False), repeat)
         pd.testing.assert_frame_equal(out.table, reference)

@@ -5,7 +5,7 @@ Start with :func:`diagnose`; in a notebook, ``%load_ext lagsight`` then ``%lagsi
 from .diagnosis import Diagnosis, diagnose
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order
-from .screen import ScreenResult, screen
+from .screening import ScreenResult, screen
 from .stats import (
     BoundsResult,
     DurbinWatsonDistribution,

@@ -22,10 +22,10 @@ from statsmodels.stats.stattools import durbin_watson as sm_durbin_watson
 
 import lagsight
 from lagsight.battery_run import strength
-from lagsight.screen import ScreenResult, screen
+from lagsight.screening import ScreenResult, screen
 
 # the package exports the function screen, which hides the module of the same name as an attribute
-screen_module = importlib.import_module("lagsight.screen")
+screen_module = importlib.import_module("lagsight.screening")
 
 
 def _ar1(n, rho, rng):

@@ -25,18 +25,13 @@ from IPython.core.interactiveshell import InteractiveShell
 from IPython.utils.capture import capture_output
 
 import lagsight.display as glue
+from bench_diagnose import single
 from lagsight.battery_run import BG, DW, LB, RUNS, SEASONAL
 
 
 def model(n: int, k: int = 5, seed: int = 0):
-    rng = np.random.default_rng(seed)
-    X = sm.add_constant(rng.normal(size=(n, k - 1)))
-    u = np.zeros(n)
-    eps = rng.normal(size=n)
-    for t in range(1, n):
-        u[t] = 0.3 * u[t - 1] + eps[t]
-    idx = pd.date_range("2000-01-01", periods=n, freq="h")
-    return sm.OLS(pd.Series(X @ np.ones(k) + u, index=idx), pd.DataFrame(X, index=idx)).fit()
+    """The same hourly AR(1) regression that bench_diagnose.py times."""
+    return single(n, k, np.random.default_rng(seed))
 
 
 def timed(fn):

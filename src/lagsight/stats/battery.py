@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy import special, stats
+from scipy import linalg, special, stats
 from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.stattools import acf
 
@@ -46,6 +46,27 @@ class BreuschGodfreyResult(TestResult):
     order: int = 0
 
 
+def _bg_by_qr(e, aux, order):
+    """LM and F of the auxiliary regression from one Householder QR (full rank only).
+
+    The lag columns come last, so the first columns of Q span the base design and
+    RSS_restricted - RSS_full = ||Q_lags' e||^2 exactly.  Same numbers as
+    statsmodels' OLS + f_test, several times faster at large n.
+    """
+    n, k_aux = aux.shape
+    coef, R = linalg.qr_multiply(aux, e, mode="right")  # Q'e without forming Q
+    diag = np.abs(np.diag(R))
+    if diag.min() <= 1e-10 * diag.max():
+        return None
+    rss = float(e @ e - coef @ coef)
+    dev = e - e.mean()
+    lm = float(n * (1.0 - rss / float(dev @ dev)))
+    df_denom = float(n - k_aux)
+    gain = float(coef[k_aux - order:] @ coef[k_aux - order:])
+    f_stat = (gain / order) / (rss / df_denom)
+    return lm, float(f_stat), float(stats.f.sf(f_stat, order, df_denom)), df_denom
+
+
 def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
     """Breusch-Godfrey test for autocorrelation up to lag ``order``.
 
@@ -57,7 +78,7 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
     e = as_vector(resid, "resid", min_len=3)
     n = e.shape[0]
     order = check_int(order, "order", minimum=1)
-    X = as_design(exog, n)
+    X = as_design(exog, n, full_rank=False)  # a deficient design falls back to pinv below
     lagged = np.zeros((n, order))
     for j in range(1, order + 1):
         lagged[j:, j - 1] = e[:-j]
@@ -74,10 +95,15 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
             f"'order' is too large for n={n}: need n > {k_aux - order} regressors + order "
             f"(got order={order})"
         )
-    fit = OLS(e, aux).fit()
-    lm = float(n * fit.rsquared)
-    ftest = fit.f_test(np.eye(order, k_aux, k_aux - order))
-    df_denom = float(ftest.df_denom)
+    fast = _bg_by_qr(e, aux, order)
+    if fast is not None:
+        lm, f_stat, f_p, df_denom = fast
+    else:  # rank-deficient auxiliary design: statsmodels' pseudo-inverse handles it
+        fit = OLS(e, aux).fit()
+        lm = float(n * fit.rsquared)
+        ftest = fit.f_test(np.eye(order, k_aux, k_aux - order))
+        df_denom = float(ftest.df_denom)
+        f_stat, f_p = float(np.squeeze(ftest.fvalue)), float(np.squeeze(ftest.pvalue))
     return BreuschGodfreyResult(
         statistic=lm,
         pvalue=float(stats.chi2.sf(lm, order)),
@@ -86,8 +112,8 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
         method="LM = n*R^2 of the auxiliary regression, chi-square",
         name="Breusch-Godfrey",
         notes=tuple(notes),
-        f_statistic=float(np.squeeze(ftest.fvalue)),
-        f_pvalue=float(np.squeeze(ftest.pvalue)),
+        f_statistic=f_stat,
+        f_pvalue=f_p,
         f_df=(float(order), df_denom),
         order=order,
     )

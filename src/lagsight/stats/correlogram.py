@@ -64,6 +64,29 @@ class Correlogram:
         return "\n".join(lines)
 
 
+def _pacf_yw_adjusted(e: np.ndarray, nlags: int) -> np.ndarray:
+    """statsmodels' 'ywadjusted' PACF, by Levinson-Durbin on FFT autocovariances.
+
+    Yule-Walker with denominators n - j solves one Toeplitz system per order
+    from the same autocovariances; the Levinson-Durbin recursion gives the same
+    last coefficients in O(nlags^2) after one O(n log n) FFT.
+    """
+    x = e - e.mean()
+    n = x.size
+    size = 1 << int(np.ceil(np.log2(2 * n - 1)))
+    spec = np.fft.rfft(x, size)
+    acov = np.fft.irfft(spec * np.conj(spec), size)[: nlags + 1] / (n - np.arange(nlags + 1))
+    out = np.empty(nlags)
+    phi = np.zeros(0)
+    v = acov[0]
+    for k in range(1, nlags + 1):
+        kappa = (acov[k] - phi @ acov[1:k][::-1]) / v
+        phi = np.concatenate([phi - kappa * phi[::-1], [kappa]])
+        v *= 1.0 - kappa * kappa
+        out[k - 1] = kappa
+    return out
+
+
 def correlogram(resid, *, nlags, alpha=0.05) -> Correlogram:
     """ACF, PACF and the white-noise and Bartlett bands of ``resid``.
 
@@ -84,7 +107,7 @@ def correlogram(resid, *, nlags, alpha=0.05) -> Correlogram:
     if np.ptp(e) == 0:
         raise ValueError(f"'resid' must not be constant (got all values equal to {e[0]})")
     r = _sm_acf(e, nlags=nlags, fft=n >= FFT_MIN_N)[1:]
-    p = _sm_pacf(e, nlags=nlags, method=PACF_METHOD)[1:]
+    p = _pacf_yw_adjusted(e, nlags) if n >= FFT_MIN_N else _sm_pacf(e, nlags=nlags, method=PACF_METHOD)[1:]
     z = float(stats.norm.ppf(1.0 - alpha / 2.0))
     cum = np.concatenate(([0.0], np.cumsum(r[:-1] ** 2)))  # sum_{j=1}^{h-1} r_j^2
     bartlett = z * np.sqrt((1.0 + 2.0 * cum) / n)

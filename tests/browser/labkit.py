@@ -203,8 +203,8 @@ BLANK_AREAS_JS = """(selector) => {
         const r = out.getBoundingClientRect();
         if (r.height <= 8) continue;
         const text = (out.innerText || '').trim();
-        const media = [...out.querySelectorAll('svg, img, canvas, video')].some(visible);
-        if (!text && !media) blank.push({height: Math.round(r.height), html: out.outerHTML.slice(0, 300)});
+        const graphic = [...out.querySelectorAll('svg, img, canvas')].some(visible);
+        if (!text && !graphic) blank.push({height: Math.round(r.height), html: out.outerHTML.slice(0, 300)});
     }
     return blank;
 }"""

@@ -20,14 +20,19 @@ def _describe(value) -> str:
     return text if len(text) <= 60 else text[:57] + "..."
 
 
+def _float_array(x, name: str, expected: str) -> np.ndarray:
+    """``x`` as a float ndarray, or a TypeError naming the argument and what was expected."""
+    if x is None:
+        raise TypeError(f"'{name}' must be {expected} (got None)")
+    try:
+        return np.asarray(x, dtype=float)
+    except (TypeError, ValueError):
+        raise TypeError(f"'{name}' must be {expected} (got {_describe(x)})") from None
+
+
 def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
     """Return ``x`` as a finite 1-D float array of at least ``min_len`` items."""
-    if x is None:
-        raise TypeError(f"'{name}' must be a 1-D array of floats (got None)")
-    try:
-        arr = np.asarray(x, dtype=float)
-    except (TypeError, ValueError):
-        raise TypeError(f"'{name}' must be a 1-D array of floats (got {_describe(x)})") from None
+    arr = _float_array(x, name, "a 1-D array of floats")
     if arr.ndim == 2 and 1 in arr.shape:
         arr = arr.reshape(-1)
     if arr.ndim != 1:
@@ -46,12 +51,7 @@ def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
 
 def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np.ndarray:
     """Return ``exog`` as a finite 2-D float array with ``n`` rows (and full column rank)."""
-    if exog is None:
-        raise TypeError(f"'{name}' must be a 2-D array of floats (got None)")
-    try:
-        arr = np.asarray(exog, dtype=float)
-    except (TypeError, ValueError):
-        raise TypeError(f"'{name}' must be a 2-D array of floats (got {_describe(exog)})") from None
+    arr = _float_array(exog, name, "a 2-D array of floats")
     if arr.ndim == 1:
         arr = arr[:, None]
     if arr.ndim != 2:

@@ -254,13 +254,10 @@ def error_box(title: str, message: str) -> str:
 
 def headline_html(diag) -> str:
     """Verdict, key figures, order-guard warnings, next steps and the sentence to paste."""
+    from .render.html import headline_html as verdict_html, keys_html, warnings_html
     from .render.text import key_figures, report_sentence
     v = diag.verdict
-    finding = v.finding.replace(" ", "-")
-    parts = [f'<div class="lgs-headline lgs-{_esc(finding)}">{_esc(v.headline)}</div>', '<ul class="lgs-keys">']
-    parts += [f"<li><b>{_esc(k)}:</b> {_esc(val)}</li>" for k, val in key_figures(diag)]
-    parts.append("</ul>")
-    parts += [f'<div class="lgs-warning"><strong>Row order:</strong> {_esc(w)}</div>' for w in diag.order.warnings]
+    parts = [verdict_html(v.finding, v.headline), keys_html(key_figures(diag)), warnings_html(diag.order.warnings)]
     if v.next_steps:
         parts.append('<ul class="lgs-list">' + "".join(f"<li>{_esc(s)}</li>" for s in v.next_steps) + "</ul>")
     parts.append(f'<div class="lgs-sentence">{_esc(report_sentence(diag, "text"))}</div>')
@@ -269,15 +266,15 @@ def headline_html(diag) -> str:
 
 def test_html(diag, name: str | None) -> str:
     """One test: statistic, p-value, what it looks for, the reading, how to read it; or why it did not run."""
+    from .render.html import keys_html
     from .render.text import TEST_COLUMNS, TEST_GUIDE, test_rows
     if name is None:
         return error_box("No test could be run.", "")
     if name in diag.errors:
         return error_box(f"{name} could not be run:", diag.errors[name])
     row = next(r for r in test_rows(diag) if r[0] == name)
-    parts = [f"<h4>{_esc(name)}</h4>", '<ul class="lgs-keys">']
-    parts += [f"<li><b>{_esc(k)}:</b> {_esc(v)}</li>" for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v]
-    parts.append(f"<li><b>alpha:</b> {diag.alpha:g}</li></ul>")
+    pairs = [(k, v) for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v] + [("alpha", f"{diag.alpha:g}")]
+    parts = [f"<h4>{_esc(name)}</h4>", keys_html(pairs)]
     parts.append(f'<p class="lgs-caption">{_esc(TEST_GUIDE.get(name, ""))}</p>')
     parts += [f'<p class="lgs-caption">{_esc(n)}</p>' for n in diag.tests[name].notes]
     return "".join(parts)
@@ -285,18 +282,18 @@ def test_html(diag, name: str | None) -> str:
 
 def remedies_html(diag) -> str:
     """The OLS / HAC / FGLS table, or why there is none."""
-    from .render.html import _remedies_table, _table_html
+    from .render.html import remedies_table, table_html
     if diag.remedies is None:
         why = ("no correlation was found at this alpha" if diag.verdict.finding != "evidence"
                else "it needs the response and the design of a fitted regression")
         return f'<p class="lgs-caption">No corrected inference: {_esc(why)}.</p>'
-    return _table_html(_remedies_table(diag.remedies), "lgs-remedies")
+    return table_html(remedies_table(diag.remedies), "lgs-remedies")
 
 
 def groups_html(diag) -> str:
     """The per-group table (strongest evidence first)."""
-    from .render.html import _groups_table, _table_html
-    return _table_html(_groups_table(diag.groups), "lgs-groups")
+    from .render.html import groups_table, table_html
+    return table_html(groups_table(diag.groups), "lgs-groups")
 
 
 def figure_html(markup: str, caption: str = "") -> str:

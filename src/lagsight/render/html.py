@@ -114,7 +114,7 @@ def _check_options(diag, max_lag, band, lag, test, figures) -> None:
         raise ValueError(f"'test' must be one of the tests ({known}) (got {test!r})")
 
 
-def _remedies_table(rem) -> Table:
+def remedies_table(rem) -> Table:
     t = rem.table
     cols = ("term", "OLS coef", "OLS SE", "OLS p", "HAC SE", "HAC p", "FGLS coef", "FGLS SE", "FGLS p",
             "changes")
@@ -130,7 +130,7 @@ def _remedies_table(rem) -> Table:
     return Table(cols, tuple(rows), numeric=(False,) + (True,) * 8 + (False,), caption=cap)
 
 
-def _groups_table(summary) -> Table:
+def groups_table(summary) -> Table:
     t = summary.table
     cols = ("group", "n", "d", "implied \u03c1", "p (DW)", "p adjusted", "finding")
     rows = []
@@ -207,8 +207,8 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         focus_guide=TEST_GUIDE.get(focus, "") if focus else "",
         sentence_markdown=report_sentence(diag, "markdown"), sentence_text=report_sentence(diag, "text"),
         tests=tests, figures=tuple(figs),
-        remedies=_remedies_table(diag.remedies) if diag.remedies is not None else None,
-        groups=_groups_table(diag.groups) if diag.groups is not None else None,
+        remedies=remedies_table(diag.remedies) if diag.remedies is not None else None,
+        groups=groups_table(diag.groups) if diag.groups is not None else None,
         details=tuple(v.details), next_steps=tuple(v.next_steps), cautions=tuple(v.cautions),
         notes=tuple(n for n in notes if n not in diag.order.warnings), text=diagnosis_text(diag),
         options={"max_lag": max_lag, "band": band, "lag": lag, "test": test, "figures": figures},
@@ -220,7 +220,7 @@ def _e(text) -> str:
     return escape(str(text), quote=True)
 
 
-def _table_html(t: Table, cls: str) -> str:
+def table_html(t: Table, cls: str) -> str:
     out = [f'<table class="lgs-table {cls}"><thead><tr>']
     out += [f"<th>{_e(c)}</th>" for c in t.columns]
     out.append("</tr></thead><tbody>")
@@ -234,6 +234,22 @@ def _table_html(t: Table, cls: str) -> str:
     if t.caption:
         out.append(f'<p class="lgs-caption">{_e(t.caption)}</p>')
     return "".join(out)
+
+
+def headline_html(finding: str, headline: str) -> str:
+    """The verdict sentence, coloured by its finding."""
+    cls = {"evidence": "lgs-evidence", "no evidence": "lgs-no-evidence"}.get(finding, "lgs-not-meaningful")
+    return f'<div class="lgs-headline {cls}">{_e(headline)}</div>'
+
+
+def keys_html(pairs) -> str:
+    """Label: value chips (key figures, a test's figures)."""
+    return '<ul class="lgs-keys">' + "".join(f"<li><b>{_e(k)}:</b> {_e(v)}</li>" for k, v in pairs) + "</ul>"
+
+
+def warnings_html(warnings) -> str:
+    """The row-order warnings, one box each."""
+    return "".join(f'<div class="lgs-warning"><strong>Row order: </strong>{_e(w)}</div>' for w in warnings)
 
 
 def _list(items, cls: str = "lgs-list") -> str:
@@ -251,20 +267,16 @@ def render_html(view: View) -> str:
     """HTML for a :class:`View`: one ``<div class="lgs-root">`` with its own stylesheet."""
     if not isinstance(view, View):
         raise TypeError(f"'view' must be a View from build_view (got {type(view).__name__})")
-    finding = {"evidence": "lgs-evidence", "no evidence": "lgs-no-evidence"}.get(view.finding,
-                                                                                  "lgs-not-meaningful")
     out = [f'<div class="lgs-root" data-lgs-finding="{_e(view.finding)}">', f"<style>{CSS}</style>",
            f'<h3 class="lgs-title">{_e(view.title)}</h3>', f'<p class="lgs-source">{_e(view.source)}</p>',
-           f'<div class="lgs-headline {finding}">{_e(view.headline)}</div>',
-           '<ul class="lgs-keys">' + "".join(f"<li><b>{_e(k)}:</b> {_e(v)}</li>" for k, v in view.key_figures)
-           + "</ul>"]
-    for w in view.warnings:
-        out.append(f'<div class="lgs-warning"><strong>Row order: </strong>{_e(w)}</div>')
+           headline_html(view.finding, view.headline), keys_html(view.key_figures)]
+    if view.warnings:
+        out.append(warnings_html(view.warnings))
     figs = {f.key: f for f in view.figures}
     if "scale" in figs:
         out.append(_figure_html(figs["scale"]))
     out.append("<h4>Tests</h4>")
-    out.append(_table_html(view.tests, "lgs-tests"))
+    out.append(table_html(view.tests, "lgs-tests"))
     if view.focus_test and view.focus_guide:
         out.append(f'<p class="lgs-caption"><b>How to read {_e(view.focus_test)}:</b> {_e(view.focus_guide)}</p>')
     rest = [f for f in view.figures if f.key != "scale"]
@@ -273,10 +285,10 @@ def render_html(view: View) -> str:
         out += [_figure_html(f) for f in rest]
     if view.remedies is not None:
         out.append("<h4>Corrected inference: OLS, HAC and FGLS</h4>")
-        out.append(_table_html(view.remedies, "lgs-remedies"))
+        out.append(table_html(view.remedies, "lgs-remedies"))
     if view.groups is not None:
         out.append("<h4>By group</h4>")
-        out.append(_table_html(view.groups, "lgs-groups"))
+        out.append(table_html(view.groups, "lgs-groups"))
     if view.next_steps:
         out.append("<h4>What to do next</h4>" + _list(view.next_steps))
     out.append("<h4>To report</h4>")

@@ -14,13 +14,10 @@ from __future__ import annotations
 
 import asyncio
 import json
-import statistics
 import sys
 import time
 
 import numpy as np
-import pandas as pd
-import statsmodels.api as sm
 from IPython.core.interactiveshell import InteractiveShell
 from IPython.utils.capture import capture_output
 

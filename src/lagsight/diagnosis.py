@@ -239,5 +239,5 @@ def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None
             notes.append("The power curve needs the design matrix.")
         else:
             curve = dw_power(data.exog, alpha=alpha,
-                             alternative=alternative if alternative != "two-sided" else "two-sided")
+                             alternative=alternative)
     return dataclasses.replace(d, verdict=verdict, remedies=fixes, power=curve, notes=tuple(notes))

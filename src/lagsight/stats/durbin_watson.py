@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from functools import lru_cache
 
 import numpy as np
-from scipy import fft, optimize
+from scipy import fft
 from scipy.special import ndtri
 
 from .quadform import SpectralForm

@@ -14,7 +14,6 @@ import numbers
 
 import numpy as np
 import pandas as pd
-from scipy import stats
 from statsmodels.regression.linear_model import OLS
 
 from ._arrays import (as_design, as_vector, check_alpha, check_choice, check_int,

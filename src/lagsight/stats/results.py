@@ -6,7 +6,7 @@ the one place that maps it to a tail.  Results print as readable text.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, fields
+from dataclasses import dataclass, fields
 from typing import Any
 
 import math

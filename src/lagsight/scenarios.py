@@ -24,11 +24,11 @@ def water_demand(n_days: int = 730, *, rho: float = 0.6, seed: int = 20240101) -
     """
     rng = np.random.default_rng(seed)
     dates = pd.date_range("2023-01-01", periods=n_days, freq="D")
-    doy = dates.dayofyear.to_numpy()
+    doy = dates.day_of_year.to_numpy()
     temp = 16 + 9 * np.sin(2 * np.pi * (doy - 105) / 365.25) + rng.normal(0, 2.5, n_days)
     wet = rng.random(n_days) < 0.3
     rain = np.where(wet, rng.gamma(1.4, 6.0, n_days), 0.0)
-    weekend = (dates.dayofweek >= 5).astype(int)
+    weekend = (dates.day_of_week >= 5).astype(int)
     noise = np.empty(n_days)
     shocks = rng.normal(0, 4.0, n_days)
     noise[0] = shocks[0] / np.sqrt(1 - rho**2)
@@ -63,7 +63,7 @@ def grid_peak_load(n_days: int = 540, *, rho: float = 0.45, seed: int = 7) -> pd
     rng = np.random.default_rng(seed)
     n = n_days + 1
     dates = pd.date_range("2022-03-01", periods=n, freq="D")
-    temp = 14 + 11 * np.sin(2 * np.pi * (dates.dayofyear.to_numpy() - 110) / 365.25) + rng.normal(0, 3, n)
+    temp = 14 + 11 * np.sin(2 * np.pi * (dates.day_of_year.to_numpy() - 110) / 365.25) + rng.normal(0, 3, n)
     cdd = np.clip(temp - 18, 0, None)
     hdd = np.clip(15 - temp, 0, None)
     u = _ar_noise(rng, n, {1: rho}, 25.0)

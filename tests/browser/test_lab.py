@@ -194,6 +194,12 @@ def test_live_test_toggle_switches_the_view(live):
     assert label and label != active
     assert label in re.sub(r"<[^>]+>", " ", after), f"the test view does not name {label}"
     live["chosen test"] = label
+    # the snapshot is refreshed a moment after the change (panel.SNAPSHOT_DELAY): wait until it leads with
+    # the chosen test, so the notebook saved next holds the current state
+    page.wait_for_function(
+        """([cell, label]) => { const row = cell.querySelector('.lgs-snapshot tr.lgs-focus');
+            return !!row && row.textContent.includes(label); }""",
+        arg=[cell.element_handle(), label], timeout=CHANGE_TIMEOUT)
     wait_kernel_idle(page)
     _shot(cell, "lab-live-3-after-test-toggle")
 

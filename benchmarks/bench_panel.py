@@ -5,6 +5,8 @@ Prints
   panel with every figure, and the static snapshot), with its parts;
 - the time of each widget callback (slider, toggles, selectors), first visit and
   revisit; the snapshot refresh is timed apart (a live kernel defers it);
+- the alpha/alternative callbacks again on a panel that had idle time to draw
+  those views ahead, with the idle work it did;
 - the size of one panel's saved output: the snapshot output, the widget output
   and the widget state (the HTML values the notebook stores).
 
@@ -80,9 +82,7 @@ def main(quick: bool = False) -> None:
         ("lag picker", lambda v: setattr(panel.lag_picker, "value", v), [2, 3, 4, 2]),
         ("test toggle", lambda v: setattr(panel.test_toggle, "value", v),
          [t for t in (BG, LB, SEASONAL, RUNS, DW) if t in panel.test_toggle.options]),
-        ("alternative", lambda v: setattr(panel.alternative_picker, "value", v),
-         ["two-sided", "negative", "positive", "two-sided"]),
-        ("alpha", lambda v: setattr(panel.alpha_picker, "value", v), [0.01, 0.1, 0.05, 0.01]),
+        *_level_moves(panel),
     ]
     print("\ncallback time (ms) per move, as in a live kernel: the snapshot refresh runs "
           f"{panel.snapshot_delay:g} s later, timed apart")
@@ -103,12 +103,43 @@ def main(quick: bool = False) -> None:
         asyncio.run(run_moves())
     print("\n".join(lines))
 
+    # the same alpha/alternative moves on a new panel, after it had idle time to draw them ahead
+    ahead = DiagnosisPanel(diag)
+    steps = []
+
+    async def idle_then_moves():
+        ahead.show()
+        await asyncio.sleep(ahead.prefetch_delay)
+        while True:
+            t0 = time.perf_counter()
+            more = ahead.prefetch_step()
+            steps.append(time.perf_counter() - t0)
+            if not more:
+                break
+            await asyncio.sleep(0)
+        return [[timed(lambda v=v: move(v)) * 1e3 for v in values] for name, move, values in
+                [(n_, m, v) for n_, m, v in _level_moves(ahead)]]
+
+    with capture_output():
+        level_times = asyncio.run(idle_then_moves())
+    print(f"\nafter {ahead.prefetch_delay:g} s of quiet a shown panel draws the alpha/alternative views ahead, "
+          f"one figure per loop step:\n  {len(steps) - 1} figures in {sum(steps):.2f} s of idle time, "
+          f"longest step {max(steps) * 1e3:.0f} ms (the longest a front-end message waits)")
+    for (name, _, _), times in zip(_level_moves(ahead), level_times):
+        print(f"{name:<16} {' '.join(f'{t:6.0f}' for t in times):<40} {max(times):6.0f}")
+
     snap, widget = cap.outputs[0], cap.outputs[1]
     out_bytes = len(json.dumps({"data": snap.data}).encode()) + len(json.dumps({"data": widget.data}).encode())
     state = sum(len(json.dumps(w.get_state()).encode()) for w in _widgets(panel.widget))
     print(f"\n{'saved output of one panel (snapshot + widget)':<44} {out_bytes / 1024:8.1f} KB   (target <= 300 KB)")
     print(f"{'widget state stored with it':<44} {state / 1024:8.1f} KB")
     print(f"{'  total':<44} {(out_bytes + state) / 1024:8.1f} KB")
+
+
+def _level_moves(panel):
+    return [("alternative", lambda v: setattr(panel.alternative_picker, "value", v),
+             ["two-sided", "negative", "positive", "two-sided"]),
+            ("alpha", lambda v: setattr(panel.alpha_picker, "value", v), [0.01, 0.1, 0.05, 0.01])]
 
 
 def _widgets(widget):

@@ -274,6 +274,61 @@ def test_snapshot_refresh_is_deferred_and_merged_in_a_running_loop(diag):
     assert len(updates) == 1 and updates[0].transient == {"display_id": panel.display_id}
 
 
+def test_idle_prefetch_draws_every_level_choice_so_picking_one_draws_nothing(diag):
+    panel = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=0.01)
+    choices = panel._level_choices()
+    assert len(choices) == len(panel.alpha_picker.options) * 3
+
+    async def idle():
+        panel.show()
+        for _ in range(400):  # each step draws one figure
+            await asyncio.sleep(0.02)
+            if panel._prefetch_handle is None:
+                break
+
+    with capture_output():
+        asyncio.run(idle())
+    assert panel._prefetch_handle is None and not panel.prefetch_step(), "prefetch did not finish"
+    drawn = panel.renders
+    shown_scale = panel.figures["scale"]
+    for alpha, alternative in choices:
+        panel.alpha_picker.value = alpha
+        panel.alternative_picker.value = alternative
+        assert panel.current.alpha == alpha and panel.current.alternative == alternative
+        assert not panel.errors, panel.errors
+    assert panel.renders == drawn, "a level choice drew a figure the prefetch should have drawn"
+    assert panel.figures["scale"] is not shown_scale  # the views did switch to the prefetched figures
+    # the prefetched scale is the one a cold panel draws at that level (same bounds text in the SVG)
+    cold = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=None)
+    cold.alpha_picker.value, cold.alternative_picker.value = panel.alpha, panel.alternative
+    assert cold.test_view.value.count("dL ") == panel.test_view.value.count("dL ")
+    assert _figure_texts(cold.figures["scale"]) == _figure_texts(panel.figures["scale"])
+
+
+def _figure_texts(fig) -> list[str]:
+    return sorted(t.get_text() for t in fig.findobj(lambda a: hasattr(a, "get_text") and a.get_text()))
+
+
+def test_no_prefetch_without_a_running_loop_or_when_off(diag):
+    panel = DiagnosisPanel(diag, snapshot_delay=0)
+    with capture_output():
+        panel.show()
+    assert panel._prefetch_handle is None
+    drawn = panel.renders
+    panel.alpha_picker.value = 0.01
+    assert panel.renders > drawn  # drawn on demand
+
+    off = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=None)
+
+    async def idle():
+        off.show()
+        await asyncio.sleep(0.1)
+
+    with capture_output():
+        asyncio.run(idle())
+    assert off._prefetch_handle is None and off.prefetch_step()  # work was left for later
+
+
 def test_state_setters_and_bad_options(diag):
     panel = DiagnosisPanel(diag, max_lag=12, band="bartlett", lag=2, test=BG, snapshot_delay=0)
     assert (panel.max_lag, panel.band, panel.lag, panel.test) == (12, "bartlett", 2, BG)

@@ -39,6 +39,11 @@ SNAPSHOT_FIGURES = ("scale", "correlogram")
 SNAPSHOT_DPI = 96
 #: seconds between a change and the snapshot refresh while an event loop runs (a live kernel)
 SNAPSHOT_DELAY = 0.25
+#: seconds of quiet after the panel is shown (or changed) before it draws, in idle time and one figure per
+#: step, the views for the other alpha and alternative choices, so that picking one later only swaps markup
+PREFETCH_DELAY = 1.0
+#: seconds between two prefetch steps (messages from the front end are served in between)
+_PREFETCH_STEP = 0.02
 
 _CACHE_SIZE = 32
 _PANEL_CSS = """
@@ -80,6 +85,11 @@ class DiagnosisPanel:
         Seconds from a change to the snapshot refresh while an event loop runs (a
         live kernel): changes in between are merged and callbacks return at once.
         0, or no running loop, refreshes within the callback.
+    prefetch_delay : float or None
+        Seconds of quiet, once the panel is shown in a running event loop, before
+        it draws the views for the other alpha and alternative choices in idle
+        time, one figure per loop step; None turns this off.  Without a running
+        loop nothing is drawn ahead.
 
     Attributes
     ----------
@@ -92,12 +102,14 @@ class DiagnosisPanel:
         View name -> message of the view that could not be drawn.
     timings : dict
         Callback name -> seconds its last redraw took.
+    renders : int
+        Figures drawn so far (each state of each figure is drawn once, then cached).
     widget : ipywidgets.VBox
         The panel itself (class ``lgs-panel``).
     """
 
     def __init__(self, diag, *, max_lag=None, band="white", test=None, lag=1, figures="svg",
-                 snapshot_delay=SNAPSHOT_DELAY):
+                 snapshot_delay=SNAPSHOT_DELAY, prefetch_delay=PREFETCH_DELAY):
         import ipywidgets as w
         from .render.text import primary_test
 
@@ -118,6 +130,8 @@ class DiagnosisPanel:
         self.base = self.current = diag
         self.figure_format = figures
         self.snapshot_delay = float(snapshot_delay)
+        self.prefetch_delay = None if prefetch_delay is None else float(prefetch_delay)
+        self.renders = 0
         self.figures: dict = {}
         self.errors: dict = {}
         self.timings: dict = {}
@@ -127,6 +141,8 @@ class DiagnosisPanel:
         self.snapshot_updates = 0
         self._shown = False
         self._pending = None
+        self._prefetch_handle = None
+        self._not_ahead: set = set()
         self._diagnoses = {(diag.alpha, diag.alternative): diag}
         self._cache: OrderedDict = OrderedDict()
 
@@ -227,19 +243,23 @@ class DiagnosisPanel:
         return opts
 
     # -- figures -------------------------------------------------------------------
-    def _correlogram(self):
-        """The correlogram with its bands at the selected alpha (the bands scale with z_{1-alpha/2})."""
+    def _correlogram(self, alpha: float | None = None):
+        """The correlogram with its bands at ``alpha`` (default: the selected alpha; the bands scale with
+        z_{1-alpha/2})."""
+        alpha = self.alpha if alpha is None else alpha
         cg = self.base.correlogram
-        if cg is None or self.alpha == cg.alpha:
+        if cg is None or alpha == cg.alpha:
             return cg
-        factor = stats.norm.ppf(1 - self.alpha / 2) / stats.norm.ppf(1 - cg.alpha / 2)
+        factor = stats.norm.ppf(1 - alpha / 2) / stats.norm.ppf(1 - cg.alpha / 2)
         return dataclasses.replace(cg, white_band=cg.white_band * factor,
-                                   bartlett_band=cg.bartlett_band * factor, alpha=self.alpha)
+                                   bartlett_band=cg.bartlett_band * factor, alpha=alpha)
 
-    def _specs(self) -> dict:
-        """Figure name -> (cache key, maker, title) for the current state, in report order."""
+    def _specs(self, diag=None) -> dict:
+        """Figure name -> (cache key, maker, title) for the current state (or for the panel's other
+        controls at ``diag``'s alpha and alternative), in report order."""
         from .render import figures as F
-        d, h, cg = self.current, self.lag, self._correlogram()
+        d = self.current if diag is None else diag
+        h, cg = self.lag, self._correlogram(d.alpha)
         specs = {}
         if DW in d.tests:
             specs["scale"] = (("scale", d.alpha, d.alternative), lambda: F.scale_figure(d, alpha=d.alpha),
@@ -259,13 +279,17 @@ class DiagnosisPanel:
             specs["power"] = (("power",), lambda: F.power_figure(d.power), "Power of the exact Durbin-Watson test")
         return specs
 
-    def _figure(self, name: str, fmt: str | None = None) -> tuple[str, str]:
-        """(markup, caption) of figure ``name`` as 'svg' or 'png'; each state is drawn and converted once."""
+    def _figure(self, name: str, fmt: str | None = None, diag=None) -> tuple[str, str]:
+        """(markup, caption) of figure ``name`` as 'svg' or 'png'; each state is drawn and converted once.
+
+        ``diag`` draws it for another alpha/alternative (prefetch) without showing it.
+        """
         from .render import export
-        key, make, title = self._specs()[name]
+        key, make, title = self._specs(diag)[name]
         fmt = fmt or self.figure_format
         if key not in self._cache:
             fig = make()
+            self.renders += 1
             self._cache[key] = (fig, {}, getattr(fig, "lagsight_caption", ""))
             if len(self._cache) > _CACHE_SIZE:
                 self._cache.popitem(last=False)
@@ -277,8 +301,15 @@ class DiagnosisPanel:
                 markups[fmt] = f'<img src="{uri}" alt="{_esc(title)}">'
             else:
                 markups[fmt] = export.figure_to_svg(fig, title=title)
-        self.figures[name] = fig
+        if diag is None:
+            self.figures[name] = fig
         return markups[fmt], caption
+
+    def _cached(self, name: str, diag) -> bool:
+        """Figure ``name`` at ``diag``'s level is cached (or absent, or failed when drawn ahead)."""
+        spec = self._specs(diag).get(name)
+        return (spec is None or spec[0] in self._not_ahead
+                or self.figure_format in self._cache.get(spec[0], (None, {}))[1])
 
     # -- drawing -------------------------------------------------------------------
     def refresh(self) -> None:
@@ -341,19 +372,25 @@ class DiagnosisPanel:
         redraw()
         self.timings[name] = time.perf_counter() - start
         self._snapshot_changed()
+        self._schedule_prefetch(self.prefetch_delay)
+
+    def _at_level(self, alpha: float, alternative: str):
+        """The diagnosis at ``alpha`` and ``alternative`` (re-assessed once, then kept)."""
+        key = (alpha, alternative)
+        if key not in self._diagnoses:
+            self._diagnoses[key] = self.base.reassess(alpha=alpha, alternative=alternative)
+        return self._diagnoses[key]
 
     def _on_level(self, change=None) -> None:
         def redraw():
-            key = (self.alpha, self.alternative)
             try:
-                if key not in self._diagnoses:
-                    self._diagnoses[key] = self.base.reassess(alpha=self.alpha, alternative=self.alternative)
+                current = self._at_level(self.alpha, self.alternative)
             except Exception as err:  # keep the previous diagnosis and say why
                 self.errors["reassess"] = _message(err)
                 self.headline.value = error_box("Could not re-assess:", self.errors["reassess"])
                 return
             self.errors.pop("reassess", None)
-            self.current = self._diagnoses[key]
+            self.current = current
             for draw in (self._draw_headline, self._draw_test, self._draw_correlogram, self._draw_remedies,
                          self._draw_groups):
                 draw()
@@ -409,6 +446,7 @@ class DiagnosisPanel:
         display(self.snapshot(), raw=True, display_id=self.display_id)
         display(widget_bundle(self.widget), raw=True)
         self._shown = True
+        self._schedule_prefetch(self.prefetch_delay)
 
     def _ipython_display_(self) -> None:
         self.show()
@@ -433,3 +471,49 @@ class DiagnosisPanel:
         update_display(self.snapshot(), raw=True, display_id=self.display_id)
         self.snapshot_updates += 1
         self.timings["snapshot"] = time.perf_counter() - start
+
+    # -- drawing ahead in idle time --------------------------------------------------
+    def _level_choices(self):
+        """(alpha, alternative) pairs a user may pick next: the current alpha first, then the others."""
+        alphas = [self.alpha] + [a for _, a in self.alpha_picker.options if a != self.alpha]
+        alternatives = [self.alternative] + [a for a in ALTERNATIVES if a != self.alternative]
+        return [(a, alt) for a in alphas for alt in alternatives]
+
+    def prefetch_step(self) -> bool:
+        """Draw one figure that a level choice would need and is not cached; False when none is left.
+
+        Only the views that change with alpha and alternative (the scale and the
+        correlogram bands) are drawn ahead; tables and text are cheap to redo.
+        """
+        for alpha, alternative in self._level_choices():
+            if (alpha, alternative) not in self._diagnoses:
+                try:  # one step of its own: re-assessing may fit the remedies
+                    self._at_level(alpha, alternative)
+                    return True
+                except Exception:  # the callback will say why when the user picks it
+                    continue
+            diag = self._diagnoses[(alpha, alternative)]
+            for name in ("scale", "correlogram"):
+                if not self._cached(name, diag):
+                    try:
+                        self._figure(name, diag=diag)
+                    except Exception:  # not retried ahead; the view shows the error if it is picked
+                        self._not_ahead.add(self._specs(diag)[name][0])
+                    return True
+        return False
+
+    def _schedule_prefetch(self, delay) -> None:
+        if delay is None or not self._shown:
+            return
+        try:
+            loop = asyncio.get_running_loop()
+        except RuntimeError:
+            return
+        if self._prefetch_handle is not None:
+            self._prefetch_handle.cancel()
+        self._prefetch_handle = loop.call_later(delay, self._prefetch_tick)
+
+    def _prefetch_tick(self) -> None:
+        self._prefetch_handle = None
+        if self.prefetch_step():
+            self._schedule_prefetch(_PREFETCH_STEP)

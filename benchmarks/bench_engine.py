@@ -17,7 +17,7 @@ import numpy as np
 
 import lagsight
 from lagsight.stats import imhof_cdf
-from lagsight.stats.durbin_watson import _bounds_cached
+from lagsight.stats.bounds import _bounds_cached
 
 
 def design(n, k, rng):

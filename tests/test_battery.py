@@ -13,8 +13,8 @@ from statsmodels.stats.diagnostic import acorr_breusch_godfrey
 
 from lagsight.stats.battery import (
     breusch_godfrey, detect_lagged_response, durbin_alternative, durbin_h, ljung_box,
-    runs_distribution, runs_test,
 )
+from lagsight.stats.runs import runs_distribution, runs_test
 
 
 @pytest.fixture(scope="module")
@@ -189,7 +189,6 @@ def test_durbin_h_rejects_wrong_residuals(macro_consumption):
 def test_durbin_alternative_agrees_with_hand_computation(macro_consumption):
     y, X, res = macro_consumption
     e = np.asarray(res.resid)
-    n = e.shape[0]
     # Durbin (1970) alternative: regress e_t on x_t and e_{t-1} (t = 2..n); t-ratio of e_{t-1}
     Z = np.column_stack([X[1:], e[:-1]])
     g = np.linalg.solve(Z.T @ Z, Z.T @ e[1:])

@@ -155,7 +155,7 @@ def test_save_html_and_panel_methods(diag, tmp_path):
 
 
 def test_bounds_view_text(diag):
-    from lagsight.stats.durbin_watson import dw_bounds
+    from lagsight.stats.bounds import dw_bounds
     view = glue.BoundsView(dw_bounds(20, 1))
     # Savin & White (1977) table, n = 20, k' = 1, 5 %: dL = 1.201, dU = 1.411 (from memory)
     assert "1.201" in str(view) and "1.411" in str(view)

@@ -35,7 +35,7 @@ from lagsight.render import html as H
 from lagsight.render import text as T
 from lagsight.render.scale import density_grid
 from lagsight.scenarios import water_demand
-from lagsight.stats.durbin_watson import BOUNDS_MAX_N
+from lagsight.stats.bounds import BOUNDS_MAX_N
 
 
 @pytest.fixture(scope="module")

@@ -15,7 +15,8 @@ from .stats import (
     dw_bounds,
     dw_distribution,
 )
-from .stats.battery import breusch_godfrey, durbin_alternative, durbin_h, ljung_box, runs_test
+from .stats.battery import breusch_godfrey, durbin_alternative, durbin_h, ljung_box
+from .stats.runs import runs_test
 from .stats.correlogram import correlogram
 from .stats.power import PowerCurve, dw_power
 from .stats.remedies import cochrane_orcutt, compare_inference, newey_west, prais_winsten

@@ -14,7 +14,7 @@ import numpy as np
 
 from .inputs import ResidualData
 from .order import infer_bg_order
-from .stats import battery
+from .stats import battery, runs
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
 from .stats.results import TestResult
@@ -141,7 +141,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
                                                     alpha=settings.alpha))
 
     # runs test on signs
-    attempt(RUNS, lambda: battery.runs_test(e, alternative=alt))
+    attempt(RUNS, lambda: runs.runs_test(e, alternative=alt))
 
     # correlogram
     cg = None

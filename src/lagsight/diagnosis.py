@@ -17,7 +17,7 @@ from .battery_run import DW, RUNS, BatterySettings, run_battery
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
-from .stats import battery
+from .stats import runs
 from .stats.correlogram import Correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
 from .stats.power import PowerCurve, dw_power
@@ -103,7 +103,7 @@ class Diagnosis:
                     bounds_decision=None if bounds is None else bounds.decision(res.statistic, alternative),
                 )
         if RUNS in tests:
-            tests[RUNS] = battery.runs_test(self.data.resid, alternative=alternative)
+            tests[RUNS] = runs.runs_test(self.data.resid, alternative=alternative)
         remedies = self.remedies
         new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative)
         verdict = _verdict(new, remedies)

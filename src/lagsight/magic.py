@@ -202,7 +202,7 @@ class LagsightMagics(Magics):
         if not 0 < args.alpha < 1:
             raise UsageError(f"--alpha must be in (0, 1) (got {args.alpha:g})")
         from .display import BoundsView
-        from .stats.durbin_watson import dw_bounds
+        from .stats.bounds import dw_bounds
         try:
             bounds = dw_bounds(args.n, args.k, alpha=args.alpha, intercept=not args.no_constant)
         except (TypeError, ValueError) as err:

@@ -18,7 +18,7 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch, Rectangle
 
 from ..battery_run import DW
-from ..stats.durbin_watson import BOUNDS_MAX_N, dw_bounds
+from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
 from .density import density_grid, exact_point, grid_entry
 from .style import FIG_WIDTH, PALETTE, REGION_STYLE, figure_rc
 from .text import format_pvalue

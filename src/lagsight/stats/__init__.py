@@ -1,14 +1,14 @@
 """Pure computation: no IPython, no plotting.  Import from here or from ``lagsight``."""
+from .bounds import BoundsResult, dw_bounds
 from .durbin_watson import (
-    BoundsResult,
     DurbinWatsonDistribution,
     DurbinWatsonResult,
     durbin_watson,
-    dw_bounds,
     dw_distribution,
     dw_statistic,
 )
-from .quadform import SpectralForm, imhof_cdf
+from .imhof import imhof_cdf
+from .quadform import SpectralForm
 from .results import TestResult
 
 __all__ = sorted(

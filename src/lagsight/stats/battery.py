@@ -1,4 +1,4 @@
-"""A battery of serial-correlation tests on OLS residuals.
+"""A battery of serial-correlation tests on OLS residuals (the runs test is in :mod:`.runs`).
 
 All functions take plain numpy arrays: ``resid`` (1-D), ``exog`` (n x k design
 including any constant column) and, where needed, ``endog``.  Each returns a
@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 import pandas as pd
-from scipy import linalg, special, stats
+from scipy import linalg, stats
 from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.stattools import acf
 
@@ -20,9 +20,9 @@ from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
 from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
-    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "RunsResult",
+    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult",
     "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative",
-    "detect_lagged_response", "runs_test", "runs_distribution",
+    "detect_lagged_response",
 ]
 
 
@@ -355,91 +355,4 @@ def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> Test
         alternative="two-sided", df=(float(order), float(ft.df_denom)),
         method=f"F-test of the {order} lagged-residual coefficients",
         name="Durbin's alternative", notes=notes,
-    )
-
-
-# ---------------------------------------------------------------- runs test
-@dataclass(frozen=True)
-class RunsResult(TestResult):
-    """Runs test on residual signs; ``statistic`` is z = (runs - E[runs]) / sd."""
-
-    runs: int = 0
-    expected_runs: float = math.nan
-    n_positive: int = 0
-    n_negative: int = 0
-    zeros_dropped: int = 0
-
-
-def _log_comb(a, b):
-    a = np.asarray(a, float)
-    b = np.asarray(b, float)
-    out = np.full(np.broadcast(a, b).shape, -np.inf)
-    ok = (b >= 0) & (b <= a)
-    a, b = np.broadcast_arrays(a, b)
-    out[ok] = special.gammaln(a[ok] + 1) - special.gammaln(b[ok] + 1) - special.gammaln(a[ok] - b[ok] + 1)
-    return out
-
-
-def runs_distribution(n1: int, n2: int):
-    """Exact null pmf of the number of runs for n1 of one sign and n2 of the other.
-
-    Returns (r, pmf) with r = 2..n1+n2.  P(R=2k) = 2 C(n1-1,k-1) C(n2-1,k-1) / C(n,n1);
-    P(R=2k+1) = [C(n1-1,k) C(n2-1,k-1) + C(n1-1,k-1) C(n2-1,k)] / C(n,n1).
-    """
-    n1 = check_int(n1, "n1", minimum=1)
-    n2 = check_int(n2, "n2", minimum=1)
-    r = np.arange(2, n1 + n2 + 1)
-    k = r // 2
-    even = r % 2 == 0
-    log_total = _log_comb(n1 + n2, n1)
-    with np.errstate(invalid="ignore"):
-        ev = np.log(2.0) + _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k - 1)
-        od = np.logaddexp(_log_comb(n1 - 1, k) + _log_comb(n2 - 1, k - 1),
-                          _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k))
-    pmf = np.exp(np.where(even, ev, od) - log_total)
-    return r, pmf
-
-
-def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
-    """Wald-Wolfowitz runs test on the signs of the residuals.
-
-    Too FEW runs signals positive autocorrelation, so 'positive' uses the lower
-    tail.  ``method='auto'`` uses the exact runs distribution unless both sign
-    counts exceed 20, then the normal approximation (no continuity correction).
-    Zero residuals carry no sign and are dropped (with a note).
-    """
-    check_alternative(alternative)
-    if method not in ("auto", "exact", "normal"):
-        raise ValueError(f"'method' must be one of 'auto', 'exact', 'normal' (got {method!r})")
-    e = as_vector(resid, "resid", min_len=2)
-    signs = e[e != 0] > 0
-    dropped = e.shape[0] - signs.shape[0]
-    n1 = int(signs.sum())
-    n2 = int(signs.shape[0] - n1)
-    if n1 == 0 or n2 == 0:
-        raise ValueError(
-            f"'resid' must have both positive and negative values (got {n1} positive, {n2} negative)"
-        )
-    runs = int(1 + np.count_nonzero(signs[1:] != signs[:-1]))
-    N = n1 + n2
-    mean = 2.0 * n1 * n2 / N + 1.0
-    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - N) / (N ** 2 * (N - 1.0))
-    z = (runs - mean) / math.sqrt(var) if var > 0 else math.nan
-    use_exact = method == "exact" or (method == "auto" and min(n1, n2) <= 20) or var <= 0
-    if use_exact:
-        r, pmf = runs_distribution(n1, n2)
-        lower = min(1.0, float(pmf[r <= runs].sum()))
-        upper = min(1.0, float(pmf[r >= runs].sum()))
-        how = "exact runs distribution"
-    else:
-        lower, upper = float(stats.norm.cdf(z)), float(stats.norm.sf(z))
-        how = "normal approximation, no continuity correction"
-    notes = []
-    if dropped:
-        notes.append(f"{dropped} zero residual(s) dropped: they have no sign.")
-    return RunsResult(
-        statistic=float(z), pvalue=tail_pvalue(lower, upper, alternative),
-        alternative=alternative, df=None, method=how, name="Runs test",
-        notes=tuple(notes), runs=runs, expected_runs=mean,
-        n_positive=n1, n_negative=n2, zeros_dropped=dropped,
     )

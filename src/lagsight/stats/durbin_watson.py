@@ -10,31 +10,27 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
 
 import numpy as np
 from scipy import fft
-from scipy.special import ndtri
 
-from .quadform import SpectralForm
 from ._arrays import as_design, as_vector, check_alpha
+from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
+from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
+from .spectrum import difference_spectrum, solve_quantile
 
 __all__ = [
     "DurbinWatsonDistribution",
     "DurbinWatsonResult",
-    "BoundsResult",
     "durbin_watson",
     "durbin_watson_exact",
-    "dw_bounds",
     "dw_distribution",
     "dw_statistic",
 ]
 
 #: below this an Imhof tail is replaced by its saddlepoint approximation
 SADDLEPOINT_THRESHOLD = 1e-8
-#: bounds are computed alongside an exact p-value up to this n
-BOUNDS_MAX_N = 200_000
 
 
 # ----------------------------------------------------------------------------
@@ -72,33 +68,6 @@ def dw_statistic(resid, lag: int = 1) -> tuple[float, float, float]:
     if den <= 0.0:
         raise ValueError("'resid' has zero variance (all residuals are 0)")
     return num / den, num, den
-
-
-def difference_spectrum(n: int, lag: int = 1, blocks=None):
-    """Eigenvalues of the order-``lag`` difference matrix and its chain layout.
-
-    The matrix of sum (e_t - e_{t-lag})^2 splits into independent
-    first-difference chains: rows r, r+lag, r+2 lag, ... for r = 0..lag-1, and,
-    with ``blocks`` (a list of row-position arrays, e.g. the groups of a panel),
-    no difference is taken across block boundaries.  Each chain of length m is
-    diagonalised by the DCT-II with eigenvalues 2 - 2 cos(pi j / m).
-
-    Returns (nu, chains): the chains' row positions, whose DCT coefficients
-    occupy consecutive slices of ``nu`` in that order.
-    """
-    if blocks is None:
-        blocks = [np.arange(n)]
-    nus, chains = [], []
-    for block in blocks:
-        block = np.asarray(block)
-        for r in range(lag):
-            rows = block[r::lag]
-            m = rows.size
-            if m == 0:
-                continue
-            nus.append(2.0 - 2.0 * np.cos(np.pi * np.arange(m) / m))
-            chains.append(rows)
-    return np.concatenate(nus), chains
 
 
 def _orthonormal_basis(X: np.ndarray):
@@ -232,7 +201,7 @@ class DurbinWatsonDistribution:
         q = float(q)
         if not 0.0 < q < 1.0:
             raise ValueError(f"'q' must be in (0, 1) (got {q!r})")
-        return _solve_quantile(self.form, q, self.mean, math.sqrt(self.var))
+        return solve_quantile(self.form, q, self.mean, math.sqrt(self.var))
 
     def tails(self, d: float):
         """(lower, upper, method) for an observed d: P(d <= d_obs), P(d >= d_obs)."""
@@ -250,29 +219,6 @@ class DurbinWatsonDistribution:
         return lower, upper, method
 
 
-def _solve_quantile(form: SpectralForm, q: float, mean: float, sd: float) -> float:
-    """Root of P(Q_c <= 0) = q in c: safeguarded Newton steps with the exact density."""
-    lo, hi = form.nu_min, form.nu_max
-    c = float(np.clip(mean + ndtri(q) * sd, lo + 1e-9 * (hi - lo), hi - 1e-9 * (hi - lo)))
-    for _ in range(60):
-        p, _, dens = form.cdf_at_zero(c, density=True)
-        if p < q:
-            lo = c
-        else:
-            hi = c
-        if dens and dens > 0:
-            step = (q - p) / dens
-            new = c + step
-        else:
-            new = 0.5 * (lo + hi)
-        if not lo < new < hi:
-            new = 0.5 * (lo + hi)
-        if abs(new - c) < 1e-11 or hi - lo < 1e-12:
-            return float(new)
-        c = new
-    raise RuntimeError("quantile search did not converge")  # pragma: no cover
-
-
 def dw_distribution(exog, *, lag: int = 1, blocks=None) -> DurbinWatsonDistribution:
     """The exact null distribution of the Durbin-Watson statistic for design ``exog``.
 
@@ -280,109 +226,6 @@ def dw_distribution(exog, *, lag: int = 1, blocks=None) -> DurbinWatsonDistribut
     panels: differences are never taken across block boundaries.
     """
     return DurbinWatsonDistribution(exog, lag, blocks=blocks)
-
-
-# ----------------------------------------------------------------------------
-# bounds
-# ----------------------------------------------------------------------------
-@dataclass(frozen=True)
-class BoundsResult:
-    """Durbin-Watson bounds dL, dU at level ``alpha`` for n observations.
-
-    ``k`` counts the regressors excluding the constant, as published tables do.
-    """
-
-    lower: float
-    upper: float
-    n: int
-    k: int
-    alpha: float
-    intercept: bool = True
-    method: str = "exact bounding distributions (Imhof inversion)"
-
-    def decision(self, d: float, alternative: str = "positive") -> str:
-        """The classical bounds decision for an observed d: 'reject', 'inconclusive' or 'no evidence'."""
-        check_alternative(alternative)
-        lo, up = self.lower, self.upper
-        if alternative == "positive":
-            return "reject" if d < lo else ("inconclusive" if d <= up else "no evidence")
-        if alternative == "negative":
-            return "reject" if d > 4 - lo else ("inconclusive" if d >= 4 - up else "no evidence")
-        if d < lo or d > 4 - lo:
-            return "reject"
-        return "inconclusive" if (d <= up or d >= 4 - up) else "no evidence"
-
-    def __str__(self) -> str:
-        const = "with" if self.intercept else "without"
-        return (
-            f"Durbin-Watson bounds (n={self.n}, k'={self.k}, alpha={self.alpha:g}, {const} constant)\n"
-            f"  dL {self.lower:.4f}   dU {self.upper:.4f}\n"
-            f"  method: {self.method}"
-        )
-
-
-def bounding_forms(n: int, k: int, intercept: bool = True):
-    """The SpectralForms of the lower and upper bounding statistics.
-
-    With a constant and k' = k regressors (k+1 columns) dL uses nu_1..nu_{n-k-1}
-    and dU uses nu_{k+1}..nu_{n-1} (Durbin & Watson 1950, 1951); without a
-    constant (k columns) the lower bound uses nu_0..nu_{n-k-1} and the upper
-    nu_k..nu_{n-1} (Farebrother 1980).
-    """
-    nu = 2.0 - 2.0 * np.cos(np.pi * np.arange(n) / n)
-    cols = k + 1 if intercept else k
-    idx = np.arange(n)
-    if intercept:
-        keep_lo = (idx >= 1) & (idx <= n - cols)
-    else:
-        keep_lo = idx <= n - cols - 1
-    keep_hi = idx >= cols
-    return (
-        SpectralForm(nu, exclude=np.flatnonzero(~keep_lo)),
-        SpectralForm(nu, exclude=np.flatnonzero(~keep_hi)),
-    )
-
-
-def _form_moments(form: SpectralForm) -> tuple[float, float]:
-    p1, p2 = form.power_sums(0.0)
-    m = form.m
-    return p1 / m, math.sqrt(2.0 * (m * p2 - p1 * p1) / (m * m * (m + 2.0)))
-
-
-@lru_cache(maxsize=512)
-def _bounds_cached(n: int, k: int, alpha: float, intercept: bool) -> tuple[float, float]:
-    lo_form, hi_form = bounding_forms(n, k, intercept)
-    out = []
-    for form in (lo_form, hi_form):
-        mean, sd = _form_moments(form)
-        out.append(_solve_quantile(form, alpha, mean, sd))
-    return out[0], out[1]
-
-
-def dw_bounds(n: int, k: int, *, alpha: float = 0.05, intercept: bool = True) -> BoundsResult:
-    """Exact Durbin-Watson bounds dL and dU for any n, k' and alpha.
-
-    Parameters
-    ----------
-    n : int
-        Number of observations.
-    k : int
-        Number of regressors excluding the constant (k' in published tables).
-    alpha : float
-        Level of the one-sided test against positive autocorrelation.
-    intercept : bool
-        Whether the regression has a constant.
-    """
-    if not isinstance(k, (int, np.integer)) or isinstance(k, bool) or k < 1:
-        raise ValueError(f"'k' must be an integer >= 1 (got {k!r})")
-    if not isinstance(n, (int, np.integer)) or isinstance(n, bool):
-        raise ValueError(f"'n' must be an integer (got {n!r})")
-    cols = k + 1 if intercept else k
-    if n <= cols + 1:
-        raise ValueError(f"'n' must exceed the number of columns + 1 = {cols + 1} (got {n})")
-    alpha = _check_alpha(alpha)
-    lower, upper = _bounds_cached(int(n), int(k), alpha, bool(intercept))
-    return BoundsResult(lower, upper, int(n), int(k), alpha, bool(intercept))
 
 
 # ----------------------------------------------------------------------------

@@ -1,25 +1,19 @@
 """Distribution of quadratic forms in normal variables.
 
-Two engines live here.
-
-* :func:`imhof_cdf` evaluates P(sum_j w_j chi2_{h_j}(delta_j) <= x) for a short
-  explicit list of weights, with Imhof's (1961) inversion integral.  The tail
-  of the integral is a Fourier integral with a smooth amplitude, handed to
-  QUADPACK's QAWF rule, so slowly decaying cases (three terms, say) stay exact.
-
-* :class:`SpectralForm` is the Durbin-Watson engine.  It represents
-  Q_c = z' P'(A - cI) P z, where A = V diag(nu) V' has a known orthonormal
-  eigenbasis V (the DCT-II basis for first differences) and P spans the
-  orthogonal complement of an n x k design.  With W = V'Q (Q an orthonormal
-  basis of the design's column space) Jacobi's complementary-minor identity gives
+:class:`SpectralForm` is the Durbin-Watson engine (Imhof's integral for a
+short explicit list of weights is :func:`lagsight.stats.imhof.imhof_cdf`).  It represents
+Q_c = z' P'(A - cI) P z, where A = V diag(nu) V' has a known orthonormal
+eigenbasis V (the DCT-II basis for first differences) and P spans the
+orthogonal complement of an n x k design.  With W = V'Q (Q an orthonormal
+basis of the design's column space) Jacobi's complementary-minor identity gives
 
       det(I - z P'(A - cI)P) = prod_j (1 - z e_j) * det(W' diag(1/(1 - z e_j)) W),
 
-  e_j = nu_j - c, so every evaluation is n scalar factors and a k x k
-  determinant; no n x n matrix is ever formed.  For large n the sums over j are
-  replaced by Chebyshev expansions in x_j = (nu_j - 2)/2, whose moments
-  sum_j T_m(x_j) and W' diag(T_m(x)) W are computed once, so each integration
-  point costs O(M k^2) independent of n.
+e_j = nu_j - c, so every evaluation is n scalar factors and a k x k
+determinant; no n x n matrix is ever formed.  For large n the sums over j are
+replaced by Chebyshev expansions in x_j = (nu_j - 2)/2, whose moments
+sum_j T_m(x_j) and W' diag(T_m(x)) W are computed once, so each integration
+point costs O(M k^2) independent of n.
 
 The CDF is obtained by Gil-Pelaez inversion, integrated with the trapezoidal
 rule in log t (the integrand decays exponentially at both ends in that
@@ -33,78 +27,15 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import fft, integrate, optimize, special
+from scipy import fft, optimize, special
 
-__all__ = ["SpectralForm", "imhof_cdf", "TailProbability"]
+__all__ = ["SpectralForm", "TailProbability"]
 
 _TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
 _DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
 _EVAL_BLOCK = 20_000        # multipliers per evaluation block (bounds memory)
 _CHEB_MIN_N = 300    # below this the direct path is always used
 _CHEB_MAX_DEGREE = 600
-
-
-# ----------------------------------------------------------------------------
-# explicit weights: Imhof's integral
-# ----------------------------------------------------------------------------
-def imhof_cdf(weights, x: float = 0.0, df=1, nc=0.0) -> float:
-    """P(Q <= x) for Q = sum_j w_j * chi2(df_j, nc_j), by Imhof's (1961) formula.
-
-    Meant for short lists of weights (up to a few thousand).  Accuracy is about
-    1e-11 absolute.
-    """
-    lam = np.atleast_1d(np.asarray(weights, dtype=float))
-    h = np.broadcast_to(np.asarray(df, dtype=float), lam.shape)
-    delta = np.broadcast_to(np.asarray(nc, dtype=float), lam.shape)
-    if lam.size == 0 or not np.all(np.isfinite(lam)):
-        raise ValueError(f"'weights' must be a non-empty array of finite numbers (got {weights!r})")
-    if np.any(h <= 0) or np.any(delta < 0):
-        raise ValueError("'df' must be positive and 'nc' non-negative")
-    keep = lam != 0
-    lam, h, delta = lam[keep], h[keep], delta[keep]
-    if lam.size == 0:
-        return 1.0 if x >= 0 else 0.0
-
-    def beta_rho(u):
-        lu = lam * u
-        beta = 0.5 * np.sum(h * np.arctan(lu) + delta * lu / (1 + lu * lu))
-        log_rho = np.sum(0.25 * h * np.log1p(lu * lu) + 0.5 * delta * lu * lu / (1 + lu * lu))
-        return beta, log_rho
-
-    def integrand(u):
-        if u == 0.0:
-            return 0.5 * (np.sum(lam * (h + delta)) - x)
-        beta, log_rho = beta_rho(u)
-        if log_rho > 700.0:
-            return 0.0
-        return math.sin(beta - 0.5 * x * u) / (u * math.exp(log_rho))
-
-    # the head of the integral in geometric panels between the scales 1/|w_j|
-    u_small = 0.05 / np.max(np.abs(lam))
-    split = 50.0 / np.min(np.abs(lam))
-    edges = np.concatenate([[0.0], np.geomspace(u_small, split, max(2, int(np.log(split / u_small) / np.log(4.0)) + 2))])
-    head = 0.0
-    for a, b in zip(edges[:-1], edges[1:]):
-        head += integrate.quad(integrand, a, b, limit=200, epsabs=1e-14, epsrel=1e-12)[0]
-    if x == 0.0:
-        tail, _ = integrate.quad(integrand, split, np.inf, limit=2000, epsabs=1e-13, epsrel=1e-13)
-    else:
-        def amp_sin(u):
-            beta, log_rho = beta_rho(u)
-            return 0.0 if log_rho > 700.0 else math.sin(beta) / (u * math.exp(log_rho))
-
-        def amp_cos(u):
-            beta, log_rho = beta_rho(u)
-            return 0.0 if log_rho > 700.0 else math.cos(beta) / (u * math.exp(log_rho))
-
-        w = 0.5 * abs(x)
-        sign = 1.0 if x > 0 else -1.0
-        # sin(beta - x u / 2) = sin(beta) cos(|x| u/2) - sign * cos(beta) sin(|x| u/2)
-        t1, _ = integrate.quad(amp_sin, split, np.inf, weight="cos", wvar=w, limlst=200)
-        t2, _ = integrate.quad(amp_cos, split, np.inf, weight="sin", wvar=w, limlst=200)
-        tail = t1 - sign * t2
-    upper = 0.5 + (head + tail) / math.pi
-    return float(min(1.0, max(0.0, 1.0 - upper)))
 
 
 # ----------------------------------------------------------------------------

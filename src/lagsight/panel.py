@@ -97,7 +97,7 @@ class DiagnosisPanel:
         The diagnosis given, and the one at the selected alpha and alternative.
     figures : dict
         Figure name ('scale', 'correlogram', 'lag', 'residuals', 'groups', 'power')
-        -> the ``matplotlib.figure.Figure`` last shown.
+        -> the ``matplotlib.figure.Figure`` on show.
     errors : dict
         View name -> message of the view that could not be drawn.
     timings : dict
@@ -132,7 +132,6 @@ class DiagnosisPanel:
         self.snapshot_delay = float(snapshot_delay)
         self.prefetch_delay = None if prefetch_delay is None else float(prefetch_delay)
         self.renders = 0
-        self.figures: dict = {}
         self.errors: dict = {}
         self.timings: dict = {}
         self.saved_path: Path | None = None
@@ -144,7 +143,10 @@ class DiagnosisPanel:
         self._prefetch_handle = None
         self._not_ahead: set = set()
         self._diagnoses = {(diag.alpha, diag.alternative): diag}
+        # cache key -> [Figure or None, {format: markup}, caption]; only the states on show keep their Figure
+        # (a few thousand Python objects each, which every full garbage collection walks), the rest their markup
         self._cache: OrderedDict = OrderedDict()
+        self._shown_keys: dict = {}
 
         def tag(widget, *classes):
             for c in classes:
@@ -287,23 +289,52 @@ class DiagnosisPanel:
         from .render import export
         key, make, title = self._specs(diag)[name]
         fmt = fmt or self.figure_format
-        if key not in self._cache:
-            fig = make()
-            self.renders += 1
-            self._cache[key] = (fig, {}, getattr(fig, "lagsight_caption", ""))
-            if len(self._cache) > _CACHE_SIZE:
-                self._cache.popitem(last=False)
-        self._cache.move_to_end(key)
-        fig, markups, caption = self._cache[key]
+        entry = self._entry(key)
+        markups = entry[1]
         if fmt not in markups:
+            fig = entry[0] if entry[0] is not None else self._draw_figure(make, entry)
             if fmt == "png":
                 uri = export.figure_to_png_data_uri(fig, dpi=SNAPSHOT_DPI)
                 markups[fmt] = f'<img src="{uri}" alt="{_esc(title)}">'
             else:
                 markups[fmt] = export.figure_to_svg(fig, title=title)
         if diag is None:
-            self.figures[name] = fig
-        return markups[fmt], caption
+            old = self._shown_keys.get(name)
+            if old != key and old in self._cache:
+                self._cache[old][0] = None  # no longer on show: keep its markup only
+            self._shown_keys[name] = key
+        elif self._shown_keys.get(name) != key:
+            entry[0] = None  # drawn ahead: keep the markup only
+        return markups[fmt], entry[2]
+
+    def _entry(self, key) -> list:
+        if key not in self._cache:
+            self._cache[key] = [None, {}, ""]
+            while len(self._cache) > _CACHE_SIZE:
+                self._cache.popitem(last=False)
+        self._cache.move_to_end(key)
+        return self._cache[key]
+
+    def _draw_figure(self, make, entry: list):
+        fig = make()
+        self.renders += 1
+        entry[0], entry[2] = fig, getattr(fig, "lagsight_caption", "")
+        return fig
+
+    @property
+    def figures(self) -> dict:
+        """Figure name ('scale', 'correlogram', 'lag', 'residuals', 'groups', 'power') -> the
+        ``matplotlib.figure.Figure`` on show (drawn again if only its markup was kept)."""
+        specs = self._specs()
+        out = {}
+        for name, key in self._shown_keys.items():
+            entry = self._cache.get(key)
+            if (entry is None or entry[0] is None) and name in specs and specs[name][0] == key:
+                entry = self._entry(key)
+                self._draw_figure(specs[name][1], entry)
+            if entry is not None and entry[0] is not None:
+                out[name] = entry[0]
+        return out
 
     def _cached(self, name: str, diag) -> bool:
         """Figure ``name`` at ``diag``'s level is cached (or absent, or failed when drawn ahead)."""

@@ -8,8 +8,8 @@ Box & Jenkins), with z from scipy.
 from __future__ import annotations
 
 import asyncio
-import re
 import math
+import re
 
 import numpy as np
 import pandas as pd
@@ -318,6 +318,27 @@ def _svg_texts(markup: str) -> list[str]:
     texts = re.findall(r"<text\b[^>]*>(.*?)</text>", markup, flags=re.S)
     assert texts, "no SVG text in the view"
     return texts
+
+
+def test_a_figure_that_fails_ahead_is_skipped_and_shows_its_error_when_picked(diag, monkeypatch):
+    from lagsight.render import figures
+    real = figures.scale_figure
+
+    def broken(d, **kw):
+        if d.alpha == 0.001:
+            raise RuntimeError("scale broken at 0.001")
+        return real(d, **kw)
+
+    monkeypatch.setattr(figures, "scale_figure", broken)
+    panel = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=None)
+    steps = 0
+    while panel.prefetch_step():
+        steps += 1
+        assert steps < 100, "prefetch keeps retrying"
+    assert ("scale", 0.001, panel.alternative) in panel._not_ahead
+    panel.alpha_picker.value = 0.001
+    assert "scale broken at 0.001" in panel.test_view.value and "test" in panel.errors
+    assert "<svg" in panel.correlogram_view.value  # the other views still work
 
 
 def test_no_prefetch_without_a_running_loop_or_when_off(diag):

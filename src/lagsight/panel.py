@@ -517,12 +517,14 @@ class DiagnosisPanel:
         correlogram bands) are drawn ahead; tables and text are cheap to redo.
         """
         for alpha, alternative in self._level_choices():
+            if (alpha, alternative) in self._not_ahead:
+                continue
             if (alpha, alternative) not in self._diagnoses:
                 try:  # one step of its own: re-assessing may fit the remedies
                     self._at_level(alpha, alternative)
-                    return True
-                except Exception:  # the callback will say why when the user picks it
-                    continue
+                except Exception:  # not retried ahead; the callback says why if the user picks it
+                    self._not_ahead.add((alpha, alternative))
+                return True
             diag = self._diagnoses[(alpha, alternative)]
             for name in ("scale", "correlogram"):
                 if not self._cached(name, diag):

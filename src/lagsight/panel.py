@@ -50,6 +50,7 @@ _PANEL_CSS = """
 .lgs-panel.lgs-root{max-width:820px}
 .lgs-panel .lgs-section{font-weight:600;font-size:13px;margin:10px 0 2px 0;color:var(--lgs-fg)}
 .lgs-panel .lgs-view{overflow:auto}
+.lgs-panel .lgs-controls{align-items:center;flex-wrap:wrap}
 .lgs-panel .lgs-error{border:1px solid var(--lgs-orange);border-radius:6px;padding:6px 10px;
   background:var(--lgs-warn-bg)}
 """
@@ -161,15 +162,18 @@ class DiagnosisPanel:
         self.headline = view("lgs-headline-view")
         self.alpha_picker = tag(w.Dropdown(options=[(f"{a:g}", a) for a in alphas], value=diag.alpha,
                                            description="alpha", layout=w.Layout(width="160px")), "lgs-alpha")
+        # toggle buttons get their label beside them (a description would wrap the buttons onto a second line)
+        inline = dict(layout=w.Layout(width="auto"), style={"button_width": "auto"})
         self.alternative_picker = tag(w.ToggleButtons(options=list(ALTERNATIVES), value=diag.alternative,
-                                                      description="alternative", style={"button_width": "auto"}), "lgs-alternative")
+                                                      tooltips=["alternative: " + a for a in ALTERNATIVES],
+                                                      **inline), "lgs-alternative")
         self.test_toggle = tag(w.ToggleButtons(options=names, value=test if names else None,
                                                 style={"button_width": "auto"}), "lgs-test-toggle")
         self.test_view = view("lgs-test-view", "120px")
         self.lag_slider = tag(w.IntSlider(value=min(max_lag, nlags), min=1, max=nlags, continuous_update=False,
                                           description="max lag", disabled=diag.correlogram is None),
                               "lgs-lag-slider")
-        self.band_toggle = tag(w.ToggleButtons(options=list(BANDS), value=band, description="band"), "lgs-band")
+        self.band_toggle = tag(w.ToggleButtons(options=list(BANDS), value=band, **inline), "lgs-band")
         self.correlogram_view = view("lgs-correlogram-view", "280px")
         top = max(1, min(nlags, diag.n - 2))
         self.lag_picker = tag(w.IntSlider(value=min(lag, top), min=1, max=top, continuous_update=False,
@@ -185,14 +189,18 @@ class DiagnosisPanel:
                                           layout=w.Layout(width="auto")), "lgs-save")
         self.save_status = tag(w.HTML(), "lgs-save-status")
 
+        def label(text):
+            return tag(w.Label(text, layout=w.Layout(margin="0 4px 0 12px")), "lgs-control-label")
+
         def section(title):
             return tag(w.HTML(f'<div class="lgs-section">{_esc(title)}</div>'), "lgs-section-title")
 
         children = [
-            self.style, self.headline, tag(w.HBox([self.alpha_picker, self.alternative_picker]), "lgs-controls"),
+            self.style, self.headline,
+            tag(w.HBox([self.alpha_picker, label("alternative"), self.alternative_picker]), "lgs-controls"),
             section("Tests"), self.test_toggle, self.test_view,
             section("Correlogram of the residuals"),
-            tag(w.HBox([self.lag_slider, self.band_toggle]), "lgs-controls"), self.correlogram_view,
+            tag(w.HBox([self.lag_slider, label("band"), self.band_toggle]), "lgs-controls"), self.correlogram_view,
             section("Residual against its own past"), self.lag_picker, self.scatter_view,
             section("Residuals in test order"), self.residuals_view,
             section("Corrected inference"), self.remedies_view,

@@ -513,10 +513,12 @@ class DiagnosisPanel:
 
     # -- drawing ahead in idle time --------------------------------------------------
     def _level_choices(self):
-        """(alpha, alternative) pairs a user may pick next: the current alpha first, then the others."""
+        """(alpha, alternative) pairs a user may pick next, most costly to draw on demand first: every alpha at
+        the current alternative (a new alpha redraws the scale and the correlogram), then the other pairs (a new
+        alternative redraws the scale only)."""
         alphas = [self.alpha] + [a for _, a in self.alpha_picker.options if a != self.alpha]
         alternatives = [self.alternative] + [a for a in ALTERNATIVES if a != self.alternative]
-        return [(a, alt) for a in alphas for alt in alternatives]
+        return [(a, alt) for alt in alternatives for a in alphas]
 
     def prefetch_step(self) -> bool:
         """Draw one figure that a level choice would need and is not cached; False when none is left.

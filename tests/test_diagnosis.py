@@ -82,6 +82,26 @@ def test_evidence_brings_remedies_and_reassess_is_cheap():
     assert neg.tests["Durbin-Watson"].alternative == "negative"
 
 
+@pytest.mark.parametrize("design", [True, False], ids=["fitted model", "residuals only"])
+@pytest.mark.parametrize("alpha,alternative", [(0.01, "positive"), (0.001, "two-sided"), (0.1, "negative")])
+def test_reassess_equals_diagnosing_again(design, alpha, alternative):
+    # weak correlation (rho 0.12, n 120) so the bounds decision and the verdict can change with the level
+    frame = _ar1_frame(n=120, rho=0.12, seed=3)
+    fit = smf.ols("y ~ x", data=frame).fit()
+    model = fit if design else fit.resid
+    again = diagnose(model, alpha=alpha, alternative=alternative)
+    moved = diagnose(model).reassess(alpha=alpha, alternative=alternative)
+    for name, res in again.tests.items():
+        got = moved.tests[name]
+        assert got.alternative == res.alternative, name
+        np.testing.assert_allclose(got.pvalue, res.pvalue, rtol=1e-9, atol=1e-15, err_msg=name)
+        if getattr(res, "bounds", None) is not None:
+            assert got.bounds == res.bounds, name  # dL, dU at the new level, not the old one
+            assert got.bounds_decision == res.bounds_decision, name
+    assert moved.verdict.headline == again.verdict.headline
+    assert moved.to_frame()[["test", "reading"]].equals(again.to_frame()[["test", "reading"]])
+
+
 def test_lagged_response_switches_to_durbin_tests():
     # consumption function on statsmodels' macrodata with lagged consumption
     d = sm.datasets.macrodata.load_pandas().data

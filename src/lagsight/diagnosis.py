@@ -19,6 +19,7 @@ from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
 from .stats import runs
 from .stats.correlogram import Correlogram
+from .stats.bounds import dw_bounds
 from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
 from .stats.power import PowerCurve, dw_power
 from .stats.remedies import InferenceComparison, compare_inference
@@ -95,13 +96,18 @@ class Diagnosis:
         alternative = self.alternative if alternative is None else check_alternative(alternative)
         tests = dict(self.tests)
         for name, res in self.tests.items():
+            changes = {}
             if hasattr(res, "lower_tail") and not math.isnan(res.pvalue):
-                p = tail_pvalue(res.lower_tail, res.upper_tail, alternative)
-                bounds = getattr(res, "bounds", None)
-                tests[name] = dataclasses.replace(
-                    res, pvalue=p, alternative=alternative,
-                    bounds_decision=None if bounds is None else bounds.decision(res.statistic, alternative),
-                )
+                changes.update(pvalue=tail_pvalue(res.lower_tail, res.upper_tail, alternative),
+                               alternative=alternative)
+            bounds = getattr(res, "bounds", None)
+            if bounds is not None:  # the bounds are for one level: draw them again at this one
+                if bounds.alpha != alpha:
+                    bounds = dw_bounds(bounds.n, bounds.k, alpha=alpha, intercept=bounds.intercept)
+                changes.update(bounds=bounds, bounds_decision=bounds.decision(res.statistic, alternative),
+                               alternative=alternative)
+            if changes:
+                tests[name] = dataclasses.replace(res, **changes)
         if RUNS in tests:
             tests[RUNS] = runs.runs_test(self.data.resid, alternative=alternative)
         remedies = self.remedies

@@ -204,6 +204,26 @@ def test_live_test_toggle_switches_the_view(live):
     _shot(cell, "lab-live-3-after-test-toggle")
 
 
+def test_live_alpha_selector_updates_the_views_and_snapshot(live):
+    page, cell, panel = live["page"], live["cell"], live["panel"]
+    picker = panel.locator(".lgs-alpha select").first
+    before = picker.input_value()
+    options = [o.strip() for o in picker.locator("option").all_inner_texts()]
+    label = next(o for o in options if o != before)  # the menu offers other levels
+    views = panel.evaluate(_VIEWS_JS)
+    picker.select_option(label=label)
+    after = _wait_changed(panel, views, f"the panel's views after choosing alpha {label}", _VIEWS_JS)
+    assert f"alpha:</b> {label}" in after, f"the views do not say alpha {label}"
+    # the stored copy follows a moment later (panel.SNAPSHOT_DELAY); the notebook saved next must hold it
+    page.wait_for_function(
+        """([cell, label]) => { const s = cell.querySelector('.lgs-snapshot');
+            return !!s && s.innerHTML.includes('alpha:</b> ' + label); }""",
+        arg=[cell.element_handle(), label], timeout=CHANGE_TIMEOUT)
+    live["chosen alpha"] = label
+    wait_kernel_idle(page)
+    _shot(cell, "lab-live-4-after-alpha")
+
+
 def test_lab_saved_notebook_keeps_the_snapshot(lab_saved, live):
     nb = nbformat.read(lab_saved, as_version=4)
     for i in live["cells"]:
@@ -218,6 +238,9 @@ def test_lab_saved_notebook_keeps_the_snapshot(lab_saved, live):
             focus = _soup(_html(snaps[0])).select_one(f"{nbtools.MARKERS['test table']} tr.lgs-focus")
             assert focus is not None and live["chosen test"] in focus.get_text(" "), \
                 f"the saved snapshot does not lead with {live['chosen test']}, the test chosen in the panel"
+        if i == live["cells"][0] and "chosen alpha" in live:
+            assert f"alpha:</b> {live['chosen alpha']}" in _html(snaps[0]), \
+                f"the saved snapshot is not at alpha {live['chosen alpha']}, the level chosen in the panel"
         size = len(json.dumps(outs))
         assert size <= PANEL_OUTPUT_BUDGET, f"cell {i}: {size:,} bytes saved for one panel"
 

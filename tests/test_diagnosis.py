@@ -116,17 +116,20 @@ def test_lagged_response_switches_to_durbin_tests():
     assert any("biased towards 2" in n for n in diag.notes)
 
 
-def test_panel_within_group_results():
-    rng = np.random.default_rng(9)
+def _stores(rhos=(0.85, 0.0, 0.6), n=120, seed=9):
+    rng = np.random.default_rng(seed)
     parts = []
-    for g, rho in zip("ABC", (0.85, 0.0, 0.6)):
-        n = 120
+    for g, rho in zip("ABCDEFGH", rhos):
         x = rng.normal(size=n)
         u = np.zeros(n)
         for t in range(1, n):
             u[t] = rho * u[t - 1] + rng.normal()
         parts.append(pd.DataFrame({"store": g, "t": np.arange(n), "x": x, "y": 3 + x + u}))
-    frame = pd.concat(parts, ignore_index=True)
+    return pd.concat(parts, ignore_index=True)
+
+
+def test_panel_within_group_results():
+    frame = _stores()
     diag = diagnose(frame, response="y", predictors=["x"], groups="store")
     table = diag.groups.table.set_index("group")
     # per-group statistic is the group's own lag-1 statistic on its residuals
@@ -139,6 +142,19 @@ def test_panel_within_group_results():
     # the pooled within-group d never differences across boundaries, the stacked one does
     assert abs(diag.groups.pooled_dw - diag.groups.naive_dw) > 1e-3
     assert diag.groups.pooled_pvalue < 1e-6
+
+
+@pytest.mark.parametrize("alpha,alternative", [(0.01, "negative"), (0.2, "two-sided")])
+def test_reassess_judges_the_groups_again(alpha, alternative):
+    # one negatively correlated store, so the alternative changes which stores show evidence
+    frame = _stores(rhos=(0.5, 0.0, -0.5, 0.25, 0.1), n=80, seed=4)
+    options = dict(response="y", predictors=["x"], groups="store")
+    again = diagnose(frame, alpha=alpha, alternative=alternative, **options).groups
+    moved = diagnose(frame, **options).reassess(alpha=alpha, alternative=alternative).groups
+    cols = ["group", "dw_pvalue", "runs_pvalue", "dw_p_adjusted", "finding"]
+    pd.testing.assert_frame_equal(moved.table[cols], again.table[cols], rtol=1e-9)
+    assert moved.pooled_pvalue == pytest.approx(again.pooled_pvalue, rel=1e-9)
+    assert (moved.alpha, moved.alternative) == (alpha, alternative)
 
 
 def test_small_groups_are_skipped_and_listed():

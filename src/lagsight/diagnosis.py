@@ -13,11 +13,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .battery_run import DW, RUNS, BatterySettings, run_battery
+from .battery_run import DW, BatterySettings, run_battery
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
-from .stats import runs
 from .stats.correlogram import Correlogram
 from .stats.bounds import dw_bounds
 from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
@@ -108,10 +107,9 @@ class Diagnosis:
                                alternative=alternative)
             if changes:
                 tests[name] = dataclasses.replace(res, **changes)
-        if RUNS in tests:
-            tests[RUNS] = runs.runs_test(self.data.resid, alternative=alternative)
         remedies = self.remedies
-        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative)
+        groups = None if self.groups is None else self.groups.at_level(alpha, alternative)
+        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative, groups=groups)
         verdict = _verdict(new, remedies)
         if verdict.finding == "evidence" and remedies is None:
             remedies = _remedies(self.data, alpha)

@@ -5,6 +5,7 @@ its own time order (the order guard sorts groups into blocks first).
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
@@ -41,6 +42,23 @@ class GroupSummary:
     skipped: dict = field(default_factory=dict)
     method: str = ""
     notes: tuple = ()
+    alpha: float = 0.05
+    alternative: str = "positive"
+    #: P(d <= pooled d) under the null, for the pooled p-value at another alternative
+    pooled_lower_tail: float = math.nan
+    #: group label -> one-sided probabilities (DW lower, DW upper, runs lower, runs upper)
+    tails: dict = field(default_factory=dict, repr=False)
+
+    def at_level(self, alpha: float, alternative: str) -> "GroupSummary":
+        """The same groups judged at another alpha and alternative (no test is run again)."""
+        table = self.table.copy()
+        if len(table):
+            tails = np.array([self.tails.get(g, (math.nan,) * 4) for g in table["group"]], dtype=float)
+            table["dw_pvalue"] = [_p(lo, up, alternative) for lo, up in tails[:, :2]]
+            table["runs_pvalue"] = [_p(lo, up, alternative) for lo, up in tails[:, 2:]]
+            table = _adjust(table, alpha)
+        pooled = _p(self.pooled_lower_tail, 1 - self.pooled_lower_tail, alternative)
+        return dataclasses.replace(self, table=table, pooled_pvalue=pooled, alpha=alpha, alternative=alternative)
 
     def __str__(self) -> str:
         head = (
@@ -51,6 +69,26 @@ class GroupSummary:
         if self.skipped:
             lines.append(f"skipped: {', '.join(f'{k} ({v})' for k, v in self.skipped.items())}")
         return "\n".join(lines)
+
+
+def _p(lower: float, upper: float, alternative: str) -> float:
+    return math.nan if math.isnan(lower) or math.isnan(upper) else tail_pvalue(lower, upper, alternative)
+
+
+def _tails(res) -> tuple[float, float]:
+    return (getattr(res, "lower_tail", math.nan), getattr(res, "upper_tail", math.nan)) if res else (math.nan,) * 2
+
+
+def _adjust(table: pd.DataFrame, alpha: float) -> pd.DataFrame:
+    """Benjamini-Hochberg adjusted DW p-values, the finding at ``alpha``, strongest evidence first."""
+    p = table["dw_pvalue"].to_numpy(float)
+    ok = ~np.isnan(p)
+    adj = np.full(p.shape, np.nan)
+    if ok.any():
+        adj[ok] = multipletests(p[ok], method="fdr_bh")[1]
+    table["dw_p_adjusted"] = adj
+    table["finding"] = [strength(q, alpha) for q in adj]
+    return table.sort_values(["dw_p_adjusted", "dw_pvalue"], na_position="last").reset_index(drop=True)
 
 
 def _row(label, part: ResidualData, settings: BatterySettings) -> dict:
@@ -67,6 +105,7 @@ def _row(label, part: ResidualData, settings: BatterySettings) -> dict:
     runs = run.tests.get(RUNS)
     row["runs_pvalue"] = runs.pvalue if runs is not None else math.nan
     row["errors"] = "; ".join(f"{k}: {v}" for k, v in run.errors.items() if k != "Correlogram")
+    row["tails"] = (*_tails(dw), *_tails(runs))
     return row
 
 
@@ -114,23 +153,17 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
             rows.append(_row(label, part, light))
         except (ValueError, TypeError) as err:
             skipped[label] = str(err).splitlines()[0]
+    tails = {row["group"]: row.pop("tails") for row in rows}
     table = pd.DataFrame(rows)
     notes = []
     if len(table):
-        p = table["dw_pvalue"].to_numpy(float)
-        ok = ~np.isnan(p)
-        adj = np.full(p.shape, np.nan)
-        if ok.any():
-            adj[ok] = multipletests(p[ok], method="fdr_bh")[1]
-        table["dw_p_adjusted"] = adj
-        table["finding"] = [strength(q, settings.alpha) for q in adj]
-        table = table.sort_values(["dw_p_adjusted", "dw_pvalue"], na_position="last").reset_index(drop=True)
+        table = _adjust(table, settings.alpha)
         notes.append(
             "Adjusted p-values control the false discovery rate across groups (Benjamini-Hochberg)."
         )
     # pooled within-group statistic, exact for the pooled design
     tested = [b for b in blocks if b.size >= MIN_GROUP_SIZE]
-    pooled_dw = pooled_p = math.nan
+    pooled_dw = pooled_p = pooled_lower = math.nan
     e = data.resid
     num = sum(float(np.sum(np.diff(e[b]) ** 2)) for b in tested)
     den = float(sum(np.dot(e[b], e[b]) for b in tested))
@@ -147,8 +180,8 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
             start += b.size
         try:
             dist = DurbinWatsonDistribution(X, blocks=local)
-            lower = dist.cdf(pooled_dw)
-            pooled_p = tail_pvalue(lower, 1 - lower, settings.alternative)
+            pooled_lower = dist.cdf(pooled_dw)
+            pooled_p = tail_pvalue(pooled_lower, 1 - pooled_lower, settings.alternative)
             method = "pooled within-group d, exact p-value for the pooled design (Imhof inversion)"
         except ValueError as err:
             notes.append(f"No exact p-value for the pooled statistic: {err}")
@@ -161,4 +194,5 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     return GroupSummary(
         table=table, pooled_dw=pooled_dw, pooled_pvalue=pooled_p, naive_dw=naive,
         n_groups=len(blocks), skipped=skipped, method=method, notes=tuple(notes),
+        alpha=settings.alpha, alternative=settings.alternative, pooled_lower_tail=pooled_lower, tails=tails,
     )

@@ -26,6 +26,9 @@ class RunsResult(TestResult):
     n_positive: int = 0
     n_negative: int = 0
     zeros_dropped: int = 0
+    #: P(R <= runs) and P(R >= runs): any alternative's p-value follows from these
+    lower_tail: float = math.nan
+    upper_tail: float = math.nan
 
 
 def _log_comb(a, b):
@@ -99,5 +102,5 @@ def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
         statistic=float(z), pvalue=tail_pvalue(lower, upper, alternative),
         alternative=alternative, df=None, method=how, name="Runs test",
         notes=tuple(notes), runs=runs, expected_runs=mean,
-        n_positive=n1, n_negative=n2, zeros_dropped=dropped,
+        n_positive=n1, n_negative=n2, zeros_dropped=dropped, lower_tail=lower, upper_tail=upper,
     )

@@ -82,13 +82,22 @@ def test_evidence_brings_remedies_and_reassess_is_cheap():
     assert neg.tests["Durbin-Watson"].alternative == "negative"
 
 
-@pytest.mark.parametrize("design", [True, False], ids=["fitted model", "residuals only"])
+def _consumption_with_lag():
+    """Consumption function with lagged consumption on statsmodels' macrodata (a lagged response)."""
+    d = sm.datasets.macrodata.load_pandas().data
+    c = np.log(d["realcons"].to_numpy())
+    inc = np.log(d["realdpi"].to_numpy())
+    frame = pd.DataFrame({"c": c[1:], "inc": inc[1:], "c_lag": c[:-1]})
+    return smf.ols("c ~ inc + c_lag", data=frame).fit()
+
+
+@pytest.mark.parametrize("kind", ["fitted model", "residuals only", "lagged response"])
 @pytest.mark.parametrize("alpha,alternative", [(0.01, "positive"), (0.001, "two-sided"), (0.1, "negative")])
-def test_reassess_equals_diagnosing_again(design, alpha, alternative):
+def test_reassess_equals_diagnosing_again(kind, alpha, alternative):
     # weak correlation (rho 0.12, n 120) so the bounds decision and the verdict can change with the level
-    frame = _ar1_frame(n=120, rho=0.12, seed=3)
-    fit = smf.ols("y ~ x", data=frame).fit()
-    model = fit if design else fit.resid
+    fit = smf.ols("y ~ x", data=_ar1_frame(n=120, rho=0.12, seed=3)).fit()
+    model = {"fitted model": fit, "residuals only": fit.resid}[kind] if kind != "lagged response" \
+        else _consumption_with_lag()
     again = diagnose(model, alpha=alpha, alternative=alternative)
     moved = diagnose(model).reassess(alpha=alpha, alternative=alternative)
     for name, res in again.tests.items():
@@ -100,16 +109,14 @@ def test_reassess_equals_diagnosing_again(design, alpha, alternative):
             assert got.bounds_decision == res.bounds_decision, name
     assert moved.verdict.headline == again.verdict.headline
     assert moved.to_frame()[["test", "reading"]].equals(again.to_frame()[["test", "reading"]])
+    # the correlogram's bands are drawn at the new level too
+    assert moved.correlogram.alpha == alpha
+    assert moved.correlogram.white_band == pytest.approx(again.correlogram.white_band, rel=1e-12)
+    np.testing.assert_allclose(moved.correlogram.bartlett_band, again.correlogram.bartlett_band, rtol=1e-12)
 
 
 def test_lagged_response_switches_to_durbin_tests():
-    # consumption function on statsmodels' macrodata with lagged consumption
-    d = sm.datasets.macrodata.load_pandas().data
-    c = np.log(d["realcons"].to_numpy())
-    inc = np.log(d["realdpi"].to_numpy())
-    frame = pd.DataFrame({"c": c[1:], "inc": inc[1:], "c_lag": c[:-1]})
-    fit = smf.ols("c ~ inc + c_lag", data=frame).fit()
-    diag = diagnose(fit)
+    diag = diagnose(_consumption_with_lag())
     assert diag.lagged_response == "c_lag"
     assert "Durbin's alternative" in diag.tests
     assert "Durbin's h" in diag.tests

@@ -97,7 +97,10 @@ class Diagnosis:
         for name, res in self.tests.items():
             changes = {}
             if hasattr(res, "lower_tail") and not math.isnan(res.pvalue):
-                changes.update(pvalue=tail_pvalue(res.lower_tail, res.upper_tail, alternative),
+                toward_positive, toward_negative = res.lower_tail, res.upper_tail
+                if getattr(res, "large_means_positive", False):
+                    toward_positive, toward_negative = toward_negative, toward_positive
+                changes.update(pvalue=tail_pvalue(toward_positive, toward_negative, alternative),
                                alternative=alternative)
             bounds = getattr(res, "bounds", None)
             if bounds is not None:  # the bounds are for one level: draw them again at this one
@@ -109,7 +112,9 @@ class Diagnosis:
                 tests[name] = dataclasses.replace(res, **changes)
         remedies = self.remedies
         groups = None if self.groups is None else self.groups.at_level(alpha, alternative)
-        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative, groups=groups)
+        correlogram = None if self.correlogram is None else self.correlogram.at_alpha(alpha)
+        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative, groups=groups,
+                                  correlogram=correlogram)
         verdict = _verdict(new, remedies)
         if verdict.finding == "evidence" and remedies is None:
             remedies = _remedies(self.data, alpha)

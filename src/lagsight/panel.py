@@ -17,7 +17,6 @@ from collections import OrderedDict
 from html import escape
 from pathlib import Path
 
-from scipy import stats
 
 from . import display as views
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL
@@ -256,13 +255,8 @@ class DiagnosisPanel:
     def _correlogram(self, alpha: float | None = None):
         """The correlogram with its bands at ``alpha`` (default: the selected alpha; the bands scale with
         z_{1-alpha/2})."""
-        alpha = self.alpha if alpha is None else alpha
         cg = self.base.correlogram
-        if cg is None or alpha == cg.alpha:
-            return cg
-        factor = stats.norm.ppf(1 - alpha / 2) / stats.norm.ppf(1 - cg.alpha / 2)
-        return dataclasses.replace(cg, white_band=cg.white_band * factor,
-                                   bartlett_band=cg.bartlett_band * factor, alpha=alpha)
+        return None if cg is None else cg.at_alpha(self.alpha if alpha is None else alpha)
 
     def _specs(self, diag=None) -> dict:
         """Figure name -> (cache key, maker, title) for the current state (or for the panel's other

@@ -6,8 +6,9 @@ frozen result dataclass built on :class:`lagsight.stats.results.TestResult`.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
 import math
+from dataclasses import dataclass, field
+from typing import ClassVar
 
 import numpy as np
 import pandas as pd
@@ -238,6 +239,11 @@ class DurbinHResult(TestResult):
     var_lag: float = math.nan
     lag_column: int = -1
     nobs: int = 0
+    #: P(H <= h) and P(H >= h) under the null (standard normal)
+    lower_tail: float = math.nan
+    upper_tail: float = math.nan
+    #: large h signals positive autocorrelation (the upper tail), unlike d
+    large_means_positive: ClassVar[bool] = True
 
 
 def _ols_checked(y, X, e):
@@ -296,15 +302,16 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
         notes.append(
             f"h is undefined because n*Var(b_lag) = {nv:.4g} >= 1; use durbin_alternative() instead."
         )
-        h = pval = math.nan
+        h = pval = lower = upper = math.nan
     else:
         h = rho * math.sqrt(n / (1.0 - nv))
-        pval = _upper_means_positive(stats.norm.cdf(h), stats.norm.sf(h), alternative)
+        lower, upper = float(stats.norm.cdf(h)), float(stats.norm.sf(h))
+        pval = _upper_means_positive(lower, upper, alternative)
     notes.append("Large-sample test: the normal reference is asymptotic.")
     return DurbinHResult(
         statistic=float(h), pvalue=float(pval), alternative=alternative, df=None,
         method=method, name="Durbin's h", notes=tuple(notes),
-        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, nobs=n,
+        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, nobs=n, lower_tail=lower, upper_tail=upper,
     )
 
 

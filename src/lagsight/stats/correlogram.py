@@ -6,6 +6,7 @@ lagged products.
 """
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -50,6 +51,15 @@ class Correlogram:
     n: int
     alpha: float
     pacf_method: str = PACF_METHOD
+
+    def at_alpha(self, alpha: float) -> "Correlogram":
+        """The same correlogram with both bands at level ``alpha`` (they scale with z_{1-alpha/2})."""
+        alpha = check_alpha(alpha)
+        if alpha == self.alpha:
+            return self
+        factor = stats.norm.ppf(1 - alpha / 2) / stats.norm.ppf(1 - self.alpha / 2)
+        return dataclasses.replace(self, white_band=self.white_band * factor,
+                                   bartlett_band=readonly(self.bartlett_band * factor), alpha=alpha)
 
     def outside_white_band(self) -> np.ndarray:
         """Lags whose autocorrelation lies outside +/- ``white_band``."""

@@ -206,6 +206,32 @@ def test_groups_view():
     assert isinstance(panel.figures["groups"], Figure)
 
 
+def test_groups_view_follows_the_alternative():
+    # store "up" has positive AR(1) errors, store "down" negative ones: the alternative decides which shows evidence
+    rng = np.random.default_rng(8)
+    parts = []
+    for name, rho in (("up", 0.7), ("down", -0.7)):
+        u = np.zeros(150)
+        for t in range(1, 150):
+            u[t] = rho * u[t - 1] + rng.normal()
+        x = rng.normal(size=150)
+        parts.append(pd.DataFrame({"store": name, "x": x, "y": x + u}))
+    d = lagsight.diagnose(smf.ols("y ~ x", data=pd.concat(parts, ignore_index=True)).fit(), groups="store")
+    panel = DiagnosisPanel(d, snapshot_delay=0)
+
+    def finding(store):
+        table = panel.current.groups.table.set_index("group")
+        return table.loc[store, "finding"]
+
+    assert finding("up") != "none" and finding("down") == "none"
+    positive_view = panel.groups_view.value
+    panel.alternative_picker.value = "negative"
+    assert finding("up") == "none" and finding("down") != "none"
+    figure = re.compile(r"<svg\b.*?</svg>", re.S)
+    assert figure.search(panel.groups_view.value).group(0) != figure.search(positive_view).group(0), \
+        "the groups figure was not drawn again for the new alternative"
+
+
 def test_hostile_names_are_escaped_in_every_view():
     rng = np.random.default_rng(2)
     n = 150

@@ -278,7 +278,8 @@ class DiagnosisPanel:
                         f"Residuals against their lag {h}")
         specs["residuals"] = (("residuals",), lambda: F.residuals_figure(self.base), "Residuals in test order")
         if d.groups is not None:
-            specs["groups"] = (("groups", d.alpha), lambda: F.groups_figure(d.groups), "Durbin-Watson d by group")
+            specs["groups"] = (("groups", d.alpha, d.alternative), lambda: F.groups_figure(d.groups),
+                               "Durbin-Watson d by group")
         if d.power is not None:
             specs["power"] = (("power",), lambda: F.power_figure(d.power), "Power of the exact Durbin-Watson test")
         return specs

@@ -17,8 +17,8 @@ from .battery_run import DW, BatterySettings, run_battery
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
-from .stats.correlogram import Correlogram
 from .stats.bounds import dw_bounds
+from .stats.correlogram import Correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
 from .stats.power import PowerCurve, dw_power
 from .stats.remedies import InferenceComparison, compare_inference

@@ -24,16 +24,29 @@ def difference_matrix(n: int, lag: int = 1) -> np.ndarray:
     return D.T @ D
 
 
+def block_difference_matrix(sizes) -> np.ndarray:
+    """A for first differences taken within consecutive blocks of the given sizes, never across them."""
+    n = int(sum(sizes))
+    A = np.zeros((n, n))
+    start = 0
+    for m in sizes:
+        A[start:start + m, start:start + m] = difference_matrix(m, 1)
+        start += m
+    return A
+
+
 def residual_maker(X: np.ndarray) -> np.ndarray:
     n = X.shape[0]
     return np.eye(n) - X @ np.linalg.pinv(X)
 
 
-def mam_eigenvalues(X: np.ndarray, lag: int = 1) -> np.ndarray:
-    """The n - rank(X) eigenvalues of M A M that belong to the residual space."""
+def mam_eigenvalues(X: np.ndarray, lag: int = 1, A: np.ndarray | None = None) -> np.ndarray:
+    """The n - rank(X) eigenvalues of M A M that belong to the residual space (A: the lag-``lag``
+    difference matrix unless given)."""
     n = X.shape[0]
     M = residual_maker(X)
-    ev = np.sort(np.linalg.eigvalsh(M @ difference_matrix(n, lag) @ M))
+    A = difference_matrix(n, lag) if A is None else A
+    ev = np.sort(np.linalg.eigvalsh(M @ A @ M))
     rank = np.linalg.matrix_rank(X)
     # M A M has rank(X) zero eigenvalues from the column space of X; the
     # eigenvalues of the residual space are all others.  Remove the zeros that
@@ -66,7 +79,7 @@ def imhof_prob_nonpositive(weights: np.ndarray) -> float:
     return 1.0 - (0.5 + total / np.pi)
 
 
-def dense_cdf(X: np.ndarray, c: float, lag: int = 1) -> float:
-    """P(d <= c) for the order-``lag`` Durbin-Watson statistic of design X."""
-    lam = mam_eigenvalues(X, lag)
+def dense_cdf(X: np.ndarray, c: float, lag: int = 1, A: np.ndarray | None = None) -> float:
+    """P(d <= c) for the order-``lag`` Durbin-Watson statistic of design X (or the ratio with matrix A)."""
+    lam = mam_eigenvalues(X, lag, A)
     return imhof_prob_nonpositive(lam - c)

@@ -19,7 +19,7 @@ import lagsight
 from lagsight.stats import quadform
 from lagsight.stats.durbin_watson import DurbinWatsonDistribution
 
-from dense_reference import dense_cdf, mam_eigenvalues
+from dense_reference import block_difference_matrix, dense_cdf, mam_eigenvalues
 
 
 def _ols_resid(y, X):
@@ -178,6 +178,23 @@ def test_order_s_statistic_agrees_with_dense_reference(lag):
     dist = lagsight.dw_distribution(X, lag=lag)
     for c in (1.5, 1.9, 2.3):
         assert abs(dist.cdf(c) - dense_cdf(X, c, lag=lag)) < 1e-8
+
+
+@pytest.mark.parametrize("sizes", [(30, 45, 25), (12, 60), (20, 20, 20, 20)])
+def test_within_block_statistic_agrees_with_dense_reference(sizes):
+    # the pooled within-group statistic of panels: differences never cross a block boundary
+    rng = np.random.default_rng(len(sizes))
+    n = sum(sizes)
+    groups = np.repeat(np.arange(len(sizes)), sizes)
+    X = np.column_stack([np.ones(n), rng.normal(size=n), (groups == 1).astype(float)])
+    starts = np.cumsum((0, *sizes[:-1]))
+    blocks = [np.arange(a, a + m) for a, m in zip(starts, sizes)]
+    dist = DurbinWatsonDistribution(X, blocks=blocks)
+    A = block_difference_matrix(sizes)
+    for c in (1.6, 1.95, 2.2):
+        assert abs(dist.cdf(c) - dense_cdf(X, c, A=A)) < 1e-8
+    lam = mam_eigenvalues(X, A=A)
+    assert dist.mean == pytest.approx(lam.mean(), abs=1e-12)
 
 
 def test_moments_match_dense_eigenvalues():

@@ -17,7 +17,6 @@ from collections import OrderedDict
 from html import escape
 from pathlib import Path
 
-
 from . import display as views
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL
 from .display import SNAPSHOT_CLASS, _message, error_box, snapshot_bundle, widget_bundle
@@ -57,6 +56,14 @@ _PANEL_CSS = """
 
 def _esc(value) -> str:
     return escape(str(value), quote=True)
+
+
+def _running_loop():
+    """The asyncio loop running this code (a live kernel's), or None (a script, a headless test)."""
+    try:
+        return asyncio.get_running_loop()
+    except RuntimeError:
+        return None
 
 
 def _bound(widget: str, doc: str) -> property:
@@ -488,10 +495,7 @@ class DiagnosisPanel:
     def _snapshot_changed(self) -> None:
         if not self._shown:
             return
-        try:
-            loop = asyncio.get_running_loop()
-        except RuntimeError:
-            loop = None
+        loop = _running_loop()
         if self.snapshot_delay <= 0 or loop is None:
             self.flush_snapshot()
         elif self._pending is None:
@@ -541,11 +545,8 @@ class DiagnosisPanel:
         return False
 
     def _schedule_prefetch(self, delay) -> None:
-        if delay is None or not self._shown:
-            return
-        try:
-            loop = asyncio.get_running_loop()
-        except RuntimeError:
+        loop = _running_loop()
+        if delay is None or not self._shown or loop is None:
             return
         if self._prefetch_handle is not None:
             self._prefetch_handle.cancel()

@@ -138,6 +138,14 @@ def _wait_changed(locator, before: str, what: str, js: str = "el => el.innerHTML
         locator.page.wait_for_timeout(100)
 
 
+def _wait_snapshot(cell, selector: str, text: str, *, html: bool = False) -> None:
+    """Wait until the element ``selector`` in the cell holds ``text`` (in its markup with ``html``)."""
+    cell.page.wait_for_function(
+        """([cell, selector, text, html]) => { const el = cell.querySelector(selector);
+            return !!el && (html ? el.innerHTML : el.textContent).includes(text); }""",
+        arg=[cell.element_handle(), selector, text, html], timeout=CHANGE_TIMEOUT)
+
+
 # -- (live) the panel in JupyterLab ------------------------------------------------------------------------
 
 def test_live_panel_shows_once_with_its_views(live):
@@ -196,10 +204,7 @@ def test_live_test_toggle_switches_the_view(live):
     live["chosen test"] = label
     # the snapshot is refreshed a moment after the change (panel.SNAPSHOT_DELAY): wait until it leads with
     # the chosen test, so the notebook saved next holds the current state
-    page.wait_for_function(
-        """([cell, label]) => { const row = cell.querySelector('.lgs-snapshot tr.lgs-focus');
-            return !!row && row.textContent.includes(label); }""",
-        arg=[cell.element_handle(), label], timeout=CHANGE_TIMEOUT)
+    _wait_snapshot(cell, ".lgs-snapshot tr.lgs-focus", label)
     wait_kernel_idle(page)
     _shot(cell, "lab-live-3-after-test-toggle")
 
@@ -215,10 +220,7 @@ def test_live_alpha_selector_updates_the_views_and_snapshot(live):
     after = _wait_changed(panel, views, f"the panel's views after choosing alpha {label}", _VIEWS_JS)
     assert f"alpha:</b> {label}" in after, f"the views do not say alpha {label}"
     # the stored copy follows a moment later (panel.SNAPSHOT_DELAY); the notebook saved next must hold it
-    page.wait_for_function(
-        """([cell, label]) => { const s = cell.querySelector('.lgs-snapshot');
-            return !!s && s.innerHTML.includes('alpha:</b> ' + label); }""",
-        arg=[cell.element_handle(), label], timeout=CHANGE_TIMEOUT)
+    _wait_snapshot(cell, ".lgs-snapshot", f"alpha:</b> {label}", html=True)
     live["chosen alpha"] = label
     wait_kernel_idle(page)
     _shot(cell, "lab-live-4-after-alpha")

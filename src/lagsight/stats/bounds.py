@@ -6,6 +6,7 @@ matrix, so their quantiles come from the same spectral engine as the exact test.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -14,7 +15,7 @@ import numpy as np
 from ._arrays import check_alpha
 from .quadform import SpectralForm
 from .results import check_alternative
-from .spectrum import form_moments, solve_quantile
+from .spectrum import difference_spectrum, form_moments, solve_quantile
 
 __all__ = ["BOUNDS_MAX_N", "BoundsResult", "bounding_forms", "dw_bounds"]
 
@@ -66,7 +67,7 @@ def bounding_forms(n: int, k: int, intercept: bool = True):
     constant (k columns) the lower bound uses nu_0..nu_{n-k-1} and the upper
     nu_k..nu_{n-1} (Farebrother 1980).
     """
-    nu = 2.0 - 2.0 * np.cos(np.pi * np.arange(n) / n)
+    nu = difference_spectrum(n)[0]
     cols = k + 1 if intercept else k
     idx = np.arange(n)
     if intercept:
@@ -85,8 +86,8 @@ def _bounds_cached(n: int, k: int, alpha: float, intercept: bool) -> tuple[float
     lo_form, hi_form = bounding_forms(n, k, intercept)
     out = []
     for form in (lo_form, hi_form):
-        mean, sd = form_moments(form)
-        out.append(solve_quantile(form, alpha, mean, sd))
+        mean, var = form_moments(form)
+        out.append(solve_quantile(form, alpha, mean, math.sqrt(var)))
     return out[0], out[1]
 
 

@@ -18,7 +18,7 @@ from ._arrays import as_design, as_vector, check_alpha
 from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
 from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
-from .spectrum import difference_spectrum, solve_quantile
+from .spectrum import difference_spectrum, form_moments, solve_quantile
 
 __all__ = [
     "DurbinWatsonDistribution",
@@ -165,14 +165,11 @@ class DurbinWatsonDistribution:
     # moments (Durbin & Watson 1950) ------------------------------------------------
     @property
     def mean(self) -> float:
-        p1, _ = self.form.power_sums(0.0)
-        return p1 / self.df
+        return form_moments(self.form)[0]
 
     @property
     def var(self) -> float:
-        p1, p2 = self.form.power_sums(0.0)
-        m = self.df
-        return 2.0 * (m * p2 - p1 * p1) / (m * m * (m + 2.0))
+        return form_moments(self.form)[1]
 
     # distribution -----------------------------------------------------------------
     def cdf(self, c):

@@ -6,8 +6,6 @@ of length m is diagonalised by the DCT-II with eigenvalues 2 - 2 cos(pi j / m).
 """
 from __future__ import annotations
 
-import math
-
 import numpy as np
 from scipy.special import ndtri
 
@@ -44,11 +42,11 @@ def difference_spectrum(n: int, lag: int = 1, blocks=None):
 
 
 def form_moments(form: SpectralForm) -> tuple[float, float]:
-    """Null mean and standard deviation of the ratio whose numerator spectrum is ``form``
+    """Null mean and variance of the ratio whose numerator spectrum is ``form``
     (Durbin & Watson 1950 moments)."""
     p1, p2 = form.power_sums(0.0)
     m = form.m
-    return p1 / m, math.sqrt(2.0 * (m * p2 - p1 * p1) / (m * m * (m + 2.0)))
+    return p1 / m, 2.0 * (m * p2 - p1 * p1) / (m * m * (m + 2.0))
 
 
 def solve_quantile(form: SpectralForm, q: float, mean: float, sd: float) -> float:

@@ -477,7 +477,10 @@ def test_report_sentence_against_statsmodels_reference_values():
     # statsmodels test-suite reference: DW 2.213805 on n = 202 observations, 2 regressors
     assert text.startswith("Durbin-Watson d = 2.214 (n = 202, k' = 2), exact p-value ")
     assert T.format_pvalue(d.tests[DW].pvalue) in text
-    assert "against positive autocorrelation (Imhof inversion)." in text
+    assert "against positive autocorrelation (Imhof inversion);" in text
+    # quarterly index: the verdict's family is Durbin-Watson and its order-4 twin, Holm-adjusted
+    assert text.endswith(f"; Holm over Durbin-Watson and the order-4 test at alpha 0.05: adjusted p = "
+                         f"{T.format_pvalue(d.verdict.adjusted_pvalue(DW))}.")
     assert md.startswith("Durbin-Watson *d* = 2.214 (*n* = 202, *k*\u2032 = 2), exact *p*-value ")
     # statsmodels test-suite reference: Breusch-Godfrey(4) LM 4.771042651230007, p 0.3116067133066697
     bg = T.report_sentence(d, "text", test=BG)

@@ -280,7 +280,7 @@ def test_rows_out_of_time_order_are_flagged_and_sorted_on_request():
     fit = sm.OLS(y.iloc[perm], X.iloc[perm]).fit()  # a random split: rows not in time order
 
     as_given = screen({"split": fit}, progress=False)
-    assert as_given.table.loc[0, "finding"].startswith("The rows are not in time order")
+    assert as_given.table.loc[0, "finding"].startswith("Not meaningful: the rows are not in time order")
     assert any("not in time order" in note for note in as_given.notes)
 
     res = screen({"split": fit}, order="index", progress=False)

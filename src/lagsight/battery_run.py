@@ -7,6 +7,7 @@ error message instead of stopping the others.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass, field
 
@@ -17,9 +18,11 @@ from .order import infer_bg_order
 from .stats import battery, runs
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
+from .stats._arrays import unit_columns, unit_scale
 from .stats.results import TestResult
 
-__all__ = ["BatterySettings", "BatteryRun", "run_battery", "ljung_box_lag"]
+__all__ = ["BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
+           "ljung_box_lag", "MIN_PORTMANTEAU_N"]
 
 # test names, used as keys of Diagnosis.tests and as labels in every view
 DW = "Durbin-Watson"
@@ -29,6 +32,25 @@ DH = "Durbin's h"
 DALT = "Durbin's alternative"
 SEASONAL = "Seasonal Durbin-Watson"
 RUNS = "Runs test"
+
+#: fewest observations for a verdict led by the large-sample Ljung-Box test (our own threshold)
+MIN_PORTMANTEAU_N = 10
+
+
+@dataclass(frozen=True)
+class LeadPlan:
+    """Which test leads the verdict, decided from the model's kind before any p-value is read.
+
+    ``kind`` is 'regression' (OLS-type residuals with their design), 'lagged response', 'arma'
+    (ARIMA-type residuals) or 'residuals' (no design).  ``family`` holds the tests the finding is
+    decided over (the leading test first; Holm's adjustment when there are two).  ``problem`` says
+    why no verdict can be given (degenerate input, too few rows), else None.
+    """
+
+    kind: str
+    leading: str
+    family: tuple
+    problem: str | None = None
 
 
 @dataclass(frozen=True)
@@ -54,6 +76,7 @@ class BatteryRun:
     seasonal_period: int | None
     bg_order: int | None
     notes: tuple = field(default_factory=tuple)
+    plan: LeadPlan | None = None
 
 
 def ljung_box_lag(n: int, period: int | None) -> int:
@@ -65,11 +88,63 @@ def ljung_box_lag(n: int, period: int | None) -> int:
     return int(max(1, min(lag, n // 5)))
 
 
-def _design(data: ResidualData) -> np.ndarray:
-    """The design for auxiliary regressions: the model's, or a constant alone."""
-    if data.exog is not None:
-        return data.exog
-    return np.ones((data.n, 1))
+def _relative_spread(v: np.ndarray) -> float:
+    """(max - min) / max |v|, computed without overflow (0 for a constant or all-zero v)."""
+    return float(np.ptp(unit_scale(v)))
+
+
+def input_problem(data: ResidualData) -> str | None:
+    """Why the residuals cannot be tested at all, or None.
+
+    Non-finite values, a constant response, residuals that are zero relative to the response (an exact
+    fit) and constant residuals.  The tolerances are our own: residuals count as zero when
+    ||e|| <= 1e-8 ||y - mean y|| (1 - R^2 below 1e-16) or ||e|| <= 1e-12 ||y|| (rounding of a fit to a
+    response with a large mean); values count as constant when their range is below 1e-12 of their size.
+    """
+    e = data.resid
+    if not np.all(np.isfinite(e)):
+        return "the residuals contain values that are not finite (they overflow double precision)"
+    y = data.endog
+    if y is not None and data.exog is not None:
+        if not np.all(np.isfinite(y)):
+            return "the response contains values that are not finite (they overflow double precision)"
+        top = float(np.max(np.abs(y)))
+        if top == 0 or _relative_spread(y) <= 1e-12:
+            return "the response is constant, so there is no variation for the model to leave in its residuals"
+        yu, eu = y / top, e / top  # the residuals in the response's units
+        size = float(np.linalg.norm(eu))
+        if size <= max(1e-8 * float(np.linalg.norm(yu - yu.mean())), 1e-12 * float(np.linalg.norm(yu))):
+            return ("the residuals are numerically zero relative to the response: the model fits the data "
+                    "exactly, so there is no error left to test")
+    if _relative_spread(e) <= 1e-12:
+        what = "all zero" if not np.any(e) else "constant"
+        return f"the residuals are {what}, so their serial correlation is undefined"
+    return None
+
+
+def lead_plan(data: ResidualData, *, lagged_response: str | None, seasonal_period: int | None) -> LeadPlan:
+    """The one rule for which test leads the verdict; it reads the model's kind, never a p-value."""
+    n = data.n
+    if data.exog is not None and data.dw_applicable:
+        k = data.exog.shape[1]
+        if lagged_response is not None:
+            plan = LeadPlan("lagged response", DALT, (DALT,))
+        else:
+            family = (DW,)
+            if seasonal_period and n > 2 * seasonal_period + k:
+                family = (DW, SEASONAL)
+            plan = LeadPlan("regression", DW, family)
+    else:
+        k = max(1, data.arma_df) if not data.dw_applicable else 1
+        plan = LeadPlan("arma" if not data.dw_applicable else "residuals", LB, (LB,))
+    problem = input_problem(data)
+    if problem is None and n <= k + 1:
+        problem = (f"n = {n} observations for k = {k} coefficients: the residuals have at most one degree of "
+                   f"freedom, and the tests need n > k + 1")
+    if problem is None and plan.leading == LB and n < MIN_PORTMANTEAU_N:
+        problem = (f"n = {n} observations are too few for the large-sample Ljung-Box test that leads without "
+                   f"a design (at least {MIN_PORTMANTEAU_N})")
+    return dataclasses.replace(plan, problem=problem) if problem else plan
 
 
 def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
@@ -79,12 +154,13 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     errors: dict[str, str] = {}
     notes: list[str] = []
     alt = settings.alternative
+    period = settings.seasonal_period if settings.seasonal_period and settings.seasonal_period > 1 else None
 
     def attempt(name, fn):
         try:
             tests[name] = fn()
-        except (ValueError, TypeError, np.linalg.LinAlgError) as err:
-            errors[name] = str(err).splitlines()[0]
+        except (ValueError, TypeError, ZeroDivisionError, np.linalg.LinAlgError) as err:
+            errors[name] = str(err).splitlines()[0] or type(err).__name__
 
     # which regressor is the lagged response, if any
     lag_col = None
@@ -93,14 +169,28 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         lag_col = battery.detect_lagged_response(data.exog, data.endog, data.exog_names)
         if lag_col is not None:
             lagged_name = data.exog_names[lag_col] if data.exog_names else f"column {lag_col}"
+    plan = lead_plan(data, lagged_response=lagged_name, seasonal_period=period)
+    bg_order = settings.bg_order or infer_bg_order(data.index)
+    bg_order = int(max(1, min(bg_order, max(1, n // 4))))
+    if plan.problem is not None:
+        for name in (DW, BG, LB, RUNS):
+            errors[name] = "not run: the input is degenerate (see the verdict)"
+        return BatteryRun(tests=tests, errors=errors, correlogram=None, distribution=None,
+                          lagged_response=lagged_name, seasonal_period=period, bg_order=bg_order,
+                          notes=(f"No test was run: {plan.problem}.",), plan=plan)
+
+    # every statistic is scale-free: residuals and design columns of unit size keep sums of squares finite
+    raw = e
+    e = unit_scale(e)
+    exog = None if data.exog is None else unit_columns(data.exog)
 
     # Durbin-Watson, exact when the design is known
     dist = None
     if data.dw_applicable:
-        if data.exog is not None:
+        if exog is not None:
             def dw():
                 nonlocal dist
-                res, dist = durbin_watson_exact(e, data.exog, alternative=alt, alpha=settings.alpha)
+                res, dist = durbin_watson_exact(e, exog, alternative=alt, alpha=settings.alpha)
                 return res
             attempt(DW, dw)
         else:
@@ -110,34 +200,31 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
             "not applicable: the exact Durbin-Watson distribution assumes fixed regressors "
             "and OLS residuals, which an ARIMA-type model does not have"
         )
-    if lagged_name is not None and DW in tests:
+    if lagged_name is not None:
         notes.append(
             f"The regressors include the lagged response ({lagged_name}): Durbin-Watson is biased "
-            "towards 2 there, so Durbin's h and the alternative test are the ones to read."
+            "towards 2 there, so Durbin's alternative test leads and h is shown beside it."
         )
-        attempt(DH, lambda: battery.durbin_h(e, data.exog, data.endog, lag_column=lag_col, alternative=alt))
-        attempt(DALT, lambda: battery.durbin_alternative(e, data.exog, order=1, alternative="two-sided"))
+        attempt(DH, lambda: battery.durbin_h(raw, data.exog, data.endog, lag_column=lag_col, alternative=alt))
+        attempt(DALT, lambda: battery.durbin_alternative(e, exog, order=1, alternative=alt))
 
     # Breusch-Godfrey
-    bg_order = settings.bg_order or infer_bg_order(data.index)
-    bg_order = int(max(1, min(bg_order, max(1, n // 4))))
-    attempt(BG, lambda: battery.breusch_godfrey(e, _design(data), order=bg_order))
+    attempt(BG, lambda: battery.breusch_godfrey(e, np.ones((n, 1)) if exog is None else exog, order=bg_order))
 
     # Ljung-Box and Box-Pierce
-    period = settings.seasonal_period
     lb_lag = settings.lb_lag or ljung_box_lag(n, period)
     if data.arma_df and lb_lag <= data.arma_df:
         lb_lag = data.arma_df + max(1, lb_lag)
     attempt(LB, lambda: battery.ljung_box(e, lags=int(lb_lag), model_df=data.arma_df))
 
-    # seasonal order-s Durbin-Watson
-    if period and period > 1:
+    # seasonal order-s Durbin-Watson: only when the period is known (index frequency or given)
+    if period:
         if data.exog is None or not data.dw_applicable:
             errors[SEASONAL] = "needs the model's design matrix (pass exog) for an exact p-value"
-        elif n <= 2 * period + (data.exog.shape[1] if data.exog is not None else 0):
+        elif SEASONAL not in plan.family:
             errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"
         else:
-            attempt(SEASONAL, lambda: durbin_watson(e, data.exog, alternative=alt, lag=period,
+            attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period,
                                                     alpha=settings.alpha))
 
     # runs test on signs
@@ -154,8 +241,8 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
             errors["Correlogram"] = str(err)
     return BatteryRun(
         tests=tests, errors=errors, correlogram=cg, distribution=dist,
-        lagged_response=lagged_name, seasonal_period=period if period and period > 1 else None,
-        bg_order=bg_order, notes=tuple(notes),
+        lagged_response=lagged_name, seasonal_period=period,
+        bg_order=bg_order, notes=tuple(notes), plan=plan,
     )
 
 

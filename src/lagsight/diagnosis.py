@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .battery_run import DW, BatterySettings, run_battery
+from .battery_run import DW, BatterySettings, LeadPlan, run_battery
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
@@ -59,6 +59,8 @@ class Diagnosis:
     seasonal_period: int | None = None
     lagged_response: str | None = None
     notes: tuple = ()
+    #: which test leads the verdict, fixed from the model's kind (see lagsight.battery_run.lead_plan)
+    plan: LeadPlan | None = None
 
     # -- views ---------------------------------------------------------------
     @property
@@ -82,7 +84,7 @@ class Diagnosis:
                 "alternative": res.alternative,
                 "df": ", ".join(f"{d:g}" for d in res.df) if res.df else "",
                 "method": res.method,
-                "reading": "" if math.isnan(p) else ("evidence" if p < self.alpha else "no evidence"),
+                "reading": self.verdict.reading(name, p),
             })
         for name, msg in self.errors.items():
             rows.append({"test": name, "statistic": math.nan, "pvalue": math.nan, "alternative": "",
@@ -163,15 +165,15 @@ def _remedies(data: ResidualData, alpha: float):
     try:
         return compare_inference(data.endog, data.exog, list(data.exog_names) if data.exog_names else None,
                                  alpha=alpha)
-    except (ValueError, np.linalg.LinAlgError):
+    except (ValueError, ZeroDivisionError, FloatingPointError, np.linalg.LinAlgError):
         return None
 
 
 def _verdict(d: Diagnosis, remedies) -> Verdict:
     return write_verdict(
-        d.tests, alpha=d.alpha, alternative=d.alternative, order_warnings=d.order.warnings,
-        shuffled=d.shuffled, lagged_response=d.lagged_response, remedies=remedies,
-        seasonal_period=d.seasonal_period, groups=d.groups,
+        d.tests, d.plan, alpha=d.alpha, alternative=d.alternative, errors=d.errors,
+        order_warnings=d.order.warnings, shuffled=d.shuffled, lagged_response=d.lagged_response,
+        remedies=remedies, seasonal_period=d.seasonal_period, groups=d.groups,
     )
 
 
@@ -233,17 +235,21 @@ def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None
         data=data, order=report, tests=tests, errors=dict(run.errors), verdict=None, alpha=alpha,
         alternative=alternative, correlogram=run.correlogram, distribution=run.distribution,
         groups=group_summary, seasonal_period=run.seasonal_period, lagged_response=run.lagged_response,
-        notes=tuple(notes),
+        notes=tuple(notes), plan=run.plan,
     )
     verdict = _verdict(d, None)
     fixes = None
-    if remedies is True or (remedies == "auto" and verdict.finding == "evidence"):
+    if remedies is True and verdict.finding == "cannot judge":
+        notes.append("No corrected inference: the input is degenerate (see the verdict).")
+    elif remedies is True or (remedies == "auto" and verdict.finding == "evidence"):
         fixes = _remedies(data, alpha)
         if fixes is None and remedies is True:
             notes.append("Corrected inference needs the response and the design (a fitted regression).")
         verdict = _verdict(d, fixes)
     curve = None
-    if power:
+    if power and verdict.finding == "cannot judge":
+        notes.append("No power curve: the input is degenerate (see the verdict).")
+    elif power:
         if data.exog is None:
             notes.append("The power curve needs the design matrix.")
         else:

@@ -283,11 +283,15 @@ def test_html(diag, name: str | None) -> str:
 def remedies_html(diag) -> str:
     """The OLS / HAC / FGLS table, or why there is none."""
     from .render.html import remedies_table, table_html
+    from .render.text import order_caveat
+    finding = diag.verdict.finding
     if diag.remedies is None:
-        why = ("no correlation was found at this alpha" if diag.verdict.finding != "evidence"
-               else "it needs the response and the design of a fitted regression")
+        why = {"evidence": "it needs the response and the design of a fitted regression",
+               "no evidence": "no correlation was found at this alpha",
+               "not meaningful": "not meaningful, because the rows are not in time order",
+               }.get(finding, f"cannot judge ({diag.verdict.reason})")
         return f'<p class="lgs-caption">No corrected inference: {_esc(why)}.</p>'
-    return table_html(remedies_table(diag.remedies), "lgs-remedies")
+    return table_html(remedies_table(diag.remedies, order_caveat(diag)), "lgs-remedies")
 
 
 def groups_html(diag) -> str:

@@ -269,8 +269,10 @@ class DiagnosisPanel:
         """Figure name -> (cache key, maker, title) for the current state (or for the panel's other
         controls at ``diag``'s alpha and alternative), in report order."""
         from .render import figures as F
+        from .render.text import order_caveat
         d = self.current if diag is None else diag
         h, cg = self.lag, self._correlogram(d.alpha)
+        caveat = order_caveat(self.base)  # rows out of time order: the same at every alpha and alternative
         specs = {}
         if DW in d.tests:
             specs["scale"] = (("scale", d.alpha, d.alternative), lambda: F.scale_figure(d, alpha=d.alpha),
@@ -279,9 +281,9 @@ class DiagnosisPanel:
             specs["correlogram"] = (
                 ("correlogram", self.max_lag, self.band, cg.alpha),
                 lambda: F.correlogram_figure(cg, max_lag=self.max_lag, band=self.band,
-                                             period=self.base.seasonal_period),
+                                             period=self.base.seasonal_period, caveat=caveat),
                 "ACF and PACF of the residuals")
-        specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, h),
+        specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, h, caveat=caveat),
                         f"Residuals against their lag {h}")
         specs["residuals"] = (("residuals",), lambda: F.residuals_figure(self.base), "Residuals in test order")
         if d.groups is not None:

@@ -105,8 +105,8 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
     settings = BatterySettings(alpha=alpha, alternative=alternative, bg_order=item["bg_order"],
                                lb_lag=item["lb_lag"], seasonal_period=None, correlogram=False)
     run = run_battery(data, settings)
-    verdict = write_verdict(run.tests, alpha=alpha, alternative=alternative, shuffled=item["shuffled"],
-                            lagged_response=run.lagged_response)
+    verdict = write_verdict(run.tests, run.plan, alpha=alpha, alternative=alternative, errors=run.errors,
+                            shuffled=item["shuffled"], lagged_response=run.lagged_response)
     dw, bg, lb = (run.tests.get(name) for name in (DW, BG, LB))
     k = dw.k if dw is not None and dw.k is not None else (None if data.exog is None else data.exog.shape[1])
     return {

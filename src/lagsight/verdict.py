@@ -1,15 +1,26 @@
 """The verdict: what was found, how strong, what it means for this model, what to do next.
 
-Pure text built from test results; no computation beyond reading p-values.
+:func:`write_verdict` is the one place that decides the finding.  The leading test (or the
+family of two, Durbin-Watson and its order-s twin) is fixed beforehand by
+:func:`lagsight.battery_run.lead_plan` from the model's kind; the finding reads only that
+family's p-values, adjusted by Holm's step-down method when there are two, so that on
+white-noise errors "evidence" appears at most alpha of the time.  Every other test is shown as
+support and never changes the finding.  Every view (key figures, the sentence to paste, the
+test table's readings, the figures' marks, the panel's default test) reads the Verdict.
 """
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
 
-from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, strength
+from statsmodels.stats.multitest import multipletests
 
-__all__ = ["Verdict", "write_verdict", "CAUTIONS"]
+from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, LeadPlan, strength
+
+__all__ = ["Verdict", "write_verdict", "CAUTIONS", "FINDINGS", "format_p"]
+
+#: the four findings
+FINDINGS = ("evidence", "no evidence", "not meaningful", "cannot judge")
 
 #: assumptions of each test, shown with every verdict
 CAUTIONS = (
@@ -19,21 +30,54 @@ CAUTIONS = (
     "lag s.",
     "The exact Durbin-Watson p-value assumes fixed regressors, normal errors with constant variance and OLS "
     "residuals of this design; it is biased towards 2 when a lagged response is a regressor.",
-    "Breusch-Godfrey, Ljung-Box and Durbin's h are large-sample tests: their p-values are approximate in "
-    "small samples.",
+    "Breusch-Godfrey, Ljung-Box, Durbin's h and Durbin's alternative test are large-sample tests: their "
+    "p-values are approximate in small samples.",
     "The runs test uses only the signs of the residuals: it needs no distributional assumption but has less "
     "power.",
+    "The finding reads the leading test only (Holm-adjusted when it is a family of two); the other tests "
+    "support the reading and do not change it.",
 )
 
 _STRENGTH_WORDS = {"strong": "Strong", "clear": "Clear", "some": "Some"}
+
+_KIND_WHY = {
+    "regression": "the exact Durbin-Watson test leads for an OLS-type fit with its design",
+    "lagged response": "Durbin's alternative test leads because a lagged response is a regressor "
+                       "(Durbin-Watson is biased towards 2 there)",
+    "arma": "Ljung-Box with the ARMA model's degrees of freedom leads for ARIMA-type residuals",
+    "residuals": "Ljung-Box leads because there is no design (it needs none)",
+}
+
+_CONSEQUENCE = {
+    "regression": "OLS standard errors and p-values for this model are not reliable as they stand.",
+    "lagged response": "OLS standard errors are not reliable, and with a lagged response the coefficients "
+                       "themselves are inconsistent.",
+    "arma": "The ARMA model leaves correlation in its residuals: its standard errors and forecast intervals "
+            "are not reliable as they stand.",
+    "residuals": "Standard errors computed as if the errors were independent are not reliable.",
+}
+
+
+def format_p(p: float) -> str:
+    """'p = 0.012', 'p = 3.1e-05', or 'p < 1e-300' when the tail underflows."""
+    if p is None or math.isnan(p):
+        return "p = n/a"
+    if p == 0.0:
+        return "p < 1e-300"
+    return f"p = {p:.2g}" if p < 0.001 else f"p = {p:.3f}"
 
 
 @dataclass(frozen=True)
 class Verdict:
     """Plain-language conclusion.
 
-    ``finding`` is 'evidence', 'no evidence' or 'not meaningful' (rows not in
-    time order); ``strength`` is 'strong', 'clear', 'some' or 'none'.
+    ``finding`` is one of :data:`FINDINGS`: 'evidence', 'no evidence', 'not meaningful' (rows not in
+    time order) or 'cannot judge' (the leading test cannot run or its input is degenerate);
+    ``strength`` is 'strong', 'clear', 'some', 'none' or 'unknown'.  ``leading`` names the leading
+    test, ``family`` the tests the finding is decided over, ``rule`` says how (for example "Holm over
+    Durbin-Watson and the order-12 test at alpha 0.05"), ``pvalue`` is the family's adjusted p-value
+    and ``adjusted`` pairs each family member with its adjusted p-value.  ``reason`` says why there is
+    no finding ('not meaningful', 'cannot judge').
     """
 
     finding: str
@@ -42,6 +86,36 @@ class Verdict:
     details: tuple = ()
     next_steps: tuple = ()
     cautions: tuple = CAUTIONS
+    leading: str | None = None
+    family: tuple = ()
+    rule: str = ""
+    pvalue: float = math.nan
+    adjusted: tuple = ()
+    alpha: float = 0.05
+    reason: str = ""
+
+    @property
+    def judged(self) -> bool:
+        """True when the finding is 'evidence' or 'no evidence' (p-values mean something)."""
+        return self.finding in ("evidence", "no evidence")
+
+    def adjusted_pvalue(self, name: str) -> float:
+        """The adjusted p-value of a family member, NaN for any other test."""
+        return dict(self.adjusted).get(name, math.nan)
+
+    def reading(self, name: str, pvalue: float) -> str:
+        """How the test table reads test ``name``: within the family (adjusted), as support, or not at all."""
+        if self.finding == "not meaningful":
+            return "not meaningful: rows not in time order"
+        if math.isnan(pvalue):
+            return "no p-value"
+        if name in self.family:
+            adj = self.adjusted_pvalue(name)
+            word = "evidence" if adj < self.alpha else "no evidence"
+            if len(self.family) > 1:
+                return f"{word} (Holm-adjusted {format_p(adj)})"
+            return f"{word} (leading test)"
+        return "support: " + ("evidence" if pvalue < self.alpha else "no evidence")
 
     def __str__(self) -> str:
         lines = [self.headline]
@@ -55,41 +129,145 @@ class Verdict:
 
 
 def _p(res) -> float:
-    return float("nan") if res is None else float(res.pvalue)
+    return math.nan if res is None else float(res.pvalue)
 
 
-def _fmt_p(p: float) -> str:
-    if math.isnan(p):
-        return "n/a"
-    return f"{p:.2g}" if p < 0.001 else f"{p:.3f}"
+def _rule(family: tuple, alpha: float, seasonal_period) -> str:
+    if len(family) == 1:
+        return f"leading test {family[0]} at alpha {alpha:g}"
+    names = [f"the order-{seasonal_period} test" if n == SEASONAL else n for n in family]
+    return f"Holm over {' and '.join(names)} at alpha {alpha:g}"
 
 
-def _p_eq(p: float) -> str:
-    """'p = 0.012', or 'p < 1e-300' when the tail underflows."""
-    return "p < 1e-300" if p == 0.0 else f"p = {_fmt_p(p)}"
+def _direction(alternative: str) -> str:
+    return {"positive": "positive ", "negative": "negative "}.get(alternative, "")
 
 
-def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings=(), shuffled=False,
-                  lagged_response=None, remedies=None, seasonal_period=None, groups=None) -> Verdict:
-    """Compose the verdict from the test results."""
-    primary_name = DW
-    if lagged_response is not None and DALT in tests:
-        primary_name = DALT
-    elif DW not in tests or math.isnan(_p(tests.get(DW))):
-        primary_name = BG if BG in tests else LB
-    considered = [n for n in (primary_name, BG, LB, SEASONAL) if n in tests]
-    if lagged_response is not None and DH in tests and not math.isnan(_p(tests[DH])):
-        considered.append(DH)
-    pvals = {n: _p(tests[n]) for n in considered}
-    finite = {n: p for n, p in pvals.items() if not math.isnan(p)}
-    details = []
-    for name in considered:
+def _what(name: str, res, alternative: str, seasonal_period) -> str:
+    """What a family member looks for, in words."""
+    if name == DW:
+        return f"{_direction(alternative)}lag-1 autocorrelation"
+    if name == SEASONAL:
+        return f"{_direction(alternative)}seasonal autocorrelation at lag {seasonal_period}"
+    if name == DALT:
+        return f"{_direction(alternative)}lag-1 autocorrelation beyond what the lagged response explains"
+    top = getattr(res, "lags", None)
+    return "autocorrelation at one or more of the first " + (f"{int(max(top))} lags" if top is not None
+                                                             and len(top) else "lags")
+
+
+def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
+    out = []
+    dh = tests.get(DH)
+    if dh is not None:
+        if math.isnan(dh.pvalue):
+            out.append("Durbin's h is undefined here (n Var(b_lag) >= 1); Durbin's alternative test does not "
+                       "need it.")
+        else:
+            out.append(f"Durbin's h = {dh.statistic:.3f} uses rho-hat = 1 - d/2 = {dh.rho:.3f} (from the "
+                       f"Durbin-Watson d = {dh.dw:.3f}), {format_p(dh.pvalue)}; shown beside Durbin's "
+                       "alternative test, it does not change the finding.")
+    for name in (DW, SEASONAL, BG, LB, RUNS):
+        res = tests.get(name)
+        if name in family or res is None or math.isnan(res.pvalue):
+            continue
+        word = "evidence" if res.pvalue < alpha else "no evidence"
+        extra = " on residual signs (assumption-free)" if name == RUNS else ""
+        out.append(f"Support: {name}{extra}, statistic {res.statistic:.4g}, {format_p(res.pvalue)} "
+                   f"({word} at alpha {alpha:g}); it does not change the finding.")
+    return out
+
+
+def _cannot_judge(plan: LeadPlan, tests: dict, errors: dict, alpha: float, rule: str) -> Verdict | None:
+    """The 'cannot judge' verdict when the input is degenerate or the leading test gave no p-value."""
+    if plan.problem is not None:
+        why = plan.problem
+    elif plan.leading in errors:
+        why = f"the leading test ({plan.leading}) could not run: {errors[plan.leading]}"
+    elif plan.leading not in tests or math.isnan(_p(tests.get(plan.leading))):
+        why = f"the leading test ({plan.leading}) gave no p-value"
+    else:
+        return None
+    advice = _ADVICE.get(_problem_key(why), "Check the input (finite values, enough rows, a model that "
+                                            "leaves residual variation) and run again.")
+    headline = f"Cannot judge: {why}. {advice}"
+    steps = (advice,)
+    return Verdict("cannot judge", "unknown", headline, (f"Rule: {rule} (not applied).",), steps,
+                   leading=plan.leading, family=plan.family, rule=rule, alpha=alpha, reason=why)
+
+
+_ADVICE = {
+    "fits the data exactly": "Check that the response is not among the regressors or an exact linear function of them.",
+    "response is constant": "Nothing varies to be tested: check that the right column is the response.",
+    "residuals are constant": "Add a constant to the model (its residuals then average zero) or check the input.",
+    "residuals are all zero": "Check that the residuals were computed (they are all zero).",
+    "not finite": "Rescale or clean the data so every value is a finite number, and run again.",
+    "k + 1": "Collect more observations or fit fewer coefficients.",
+    "Ljung-Box": "Pass the design (exog=, or the fitted model) for the exact Durbin-Watson test, which works "
+                 "at any n > k + 1.",
+}
+
+
+def _problem_key(why: str) -> str | None:
+    for key in ("fits the data exactly", "response is constant", "residuals are constant", "residuals are all zero",
+                "not finite", "k + 1", "Ljung-Box"):
+        if key in why:
+            return key
+    return None
+
+
+def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str, errors=None,
+                  order_warnings=(), shuffled=False, lagged_response=None, remedies=None,
+                  seasonal_period=None, groups=None) -> Verdict:
+    """Decide the finding from the planned leading test(s) and write the verdict.
+
+    Parameters
+    ----------
+    tests : dict
+        Test name -> result (what the battery ran).
+    plan : LeadPlan
+        The leading test and its family, fixed before any p-value was read.
+    alpha, alternative
+        Level and direction; the family's p-values are already for this alternative.
+    errors : dict, optional
+        Test name -> why it did not run.
+    shuffled : bool
+        The rows tested are not in time order: the finding is 'not meaningful'.
+    """
+    errors = errors or {}
+    rule = _rule(plan.family, alpha, seasonal_period)
+    blocked = _cannot_judge(plan, tests, errors, alpha, rule)
+    if blocked is not None:
+        return blocked
+    order_details = tuple(order_warnings)
+    if shuffled:
+        why = "the rows are not in time order, so no serial-correlation test measures anything here"
+        headline = (f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time "
+                    "(order='index' or a time column) and run again.")
+        details = ("The tests were computed on the rows as given; their p-values do not measure serial "
+                   "correlation.",) + order_details
+        steps = ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",)
+        return Verdict("not meaningful", "unknown", headline, details, steps, leading=plan.leading,
+                       family=plan.family, rule=rule, alpha=alpha, reason=why)
+
+    family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
+    raw = [_p(tests[name]) for name in family]
+    adjusted = list(multipletests(raw, method="holm")[1]) if len(raw) > 1 else raw
+    adjusted = [min(1.0, float(a)) for a in adjusted]
+    rule = _rule(family, alpha, seasonal_period)
+    p_family = min(adjusted)
+    found = p_family < alpha
+    level = strength(p_family, alpha)
+    significant = [name for name, a in zip(family, adjusted) if a < alpha]
+
+    details = [f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
+               + ("this test." if len(family) == 1 else "these two tests, Holm-adjusted.")]
+    for name, p, a in zip(family, raw, adjusted):
         res = tests[name]
-        p = pvals[name]
-        reading = "evidence" if p < alpha else "no evidence"
-        details.append(f"{name}: statistic {res.statistic:.4g}, {_p_eq(p)} ({reading} at alpha {alpha:g}).")
-    if RUNS in tests:
-        details.append(f"{RUNS} on residual signs: {_p_eq(_p(tests[RUNS]))} (assumption-free check).")
+        adj = f", Holm-adjusted {format_p(a)}" if len(family) > 1 else ""
+        details.append(f"{name}: statistic {res.statistic:.4g}, {format_p(p)}{adj} "
+                       f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g}).")
+    details += _support_details(tests, family, alpha)
     dw = tests.get(DW)
     if dw is not None and math.isnan(dw.pvalue) and getattr(dw, "bounds_decision", None):
         details.append(
@@ -99,34 +277,24 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
     if groups is not None and not math.isnan(groups.pooled_dw):
         details.append(
             f"Across {groups.n_groups} groups the pooled within-group d is {groups.pooled_dw:.3f}"
-            + ("" if math.isnan(groups.pooled_pvalue) else f" ({_p_eq(groups.pooled_pvalue)})")
+            + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
-    if not finite:
-        return Verdict("no evidence", "unknown", "No test could be run on these residuals.", tuple(details))
-    best_name = min(finite, key=finite.get)
-    best = finite[best_name]
-    level = strength(best, alpha)
-    found = best < alpha
+    lead_words = (f"{family[0]}, {format_p(raw[0])}" if len(family) == 1
+                  else f"Holm-adjusted {format_p(p_family)}")
     steps = []
-    direction = "positive" if alternative != "negative" else "negative"
     if found:
-        where = {
-            DW: f"{direction} lag-1 autocorrelation",
-            DALT: "lag-1 autocorrelation beyond what the lagged response explains",
-            DH: "lag-1 autocorrelation beyond what the lagged response explains",
-            BG: "autocorrelation at one or more of the first lags",
-            LB: "autocorrelation at one or more of the first lags",
-            SEASONAL: f"seasonal autocorrelation at lag {seasonal_period}",
-        }[best_name]
-        headline = (
-            f"{_STRENGTH_WORDS[level]} evidence of {where} ({best_name}, {_p_eq(best)}). "
-            "OLS standard errors and p-values for this model are not reliable as they stand."
-        )
-        steps.append(
-            "Report Newey-West (HAC) standard errors, or re-fit by feasible GLS (Prais-Winsten keeps the first "
-            "observation) and compare which conclusions change."
-        )
+        where = " and ".join(_what(name, tests[name], alternative, seasonal_period) for name in significant)
+        headline = (f"{_STRENGTH_WORDS[level]} evidence of {where} ({lead_words}; {rule}). "
+                    f"{_CONSEQUENCE[plan.kind]}")
+        if plan.kind == "arma":
+            steps.append("Add AR or MA terms (seasonal ones if the correlation sits at the seasonal lag) and "
+                         "check the residuals again.")
+        else:
+            steps.append(
+                "Report Newey-West (HAC) standard errors, or re-fit by feasible GLS (Prais-Winsten keeps the "
+                "first observation) and compare which conclusions change."
+            )
         if remedies is not None:
             changed = [t for t, c in zip(remedies.table.index, remedies.table["changes"]) if c]
             if changed:
@@ -135,22 +303,20 @@ def write_verdict(tests: dict, *, alpha: float, alternative: str, order_warnings
                 steps.append("With the corrections no coefficient changes significance at this alpha.")
             if not math.isnan(remedies.rho):
                 steps.append(f"Estimated AR(1) coefficient of the errors: rho = {remedies.rho:.3f}.")
-        if best_name == SEASONAL or (SEASONAL in finite and finite[SEASONAL] < alpha):
+        if SEASONAL in significant:
             steps.append("Add seasonal terms (dummies or Fourier terms) or a seasonal lag to the model.")
+        if plan.kind == "residuals":
+            steps.append("Pass the fitted model (or exog=) for the exact Durbin-Watson test and corrected "
+                         "inference.")
         steps.append("Consider modelling the dynamics directly: lagged variables or ARMA errors.")
     else:
-        headline = (
-            f"No evidence of autocorrelation at alpha {alpha:g} (smallest {_p_eq(best)}, {best_name}). "
-            "This does not prove the errors are independent."
-        )
-    finding = "evidence" if found else "no evidence"
-    if shuffled:
-        finding = "not meaningful"
-        headline = (
-            "The rows are not in time order, so these tests do not measure serial correlation. "
-            "Sort by time (order='index' or a time column) and run again. Result on the current order: "
-            + headline
-        )
+        looked = " or ".join(_what(name, tests[name], alternative, seasonal_period) for name in family)
+        headline = (f"No evidence of {looked} at alpha {alpha:g} ({lead_words}; {rule}). "
+                    "This does not prove the errors are independent: the test may lack power for this n "
+                    "and design.")
     if lagged_response is not None:
-        steps.insert(0, f"Because {lagged_response} is a regressor, read Durbin's alternative test and h, not d.")
-    return Verdict(finding, level, headline, tuple(details) + tuple(order_warnings), tuple(steps))
+        steps.insert(0, f"Because {lagged_response} is a regressor, read Durbin's alternative test (h beside "
+                        "it), not d.")
+    return Verdict("evidence" if found else "no evidence", level, headline, tuple(details) + order_details,
+                   tuple(steps), leading=plan.leading, family=family, rule=rule, pvalue=p_family,
+                   adjusted=tuple(zip(family, adjusted)), alpha=alpha)

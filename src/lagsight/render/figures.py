@@ -21,6 +21,7 @@ from ..stats.power import TARGET_POWER
 from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
 from .scale import bounds_figure, density_grid, scale_figure
 from .style import FIG_WIDTH, PALETTE, figure_rc
+from .text import order_caveat
 
 __all__ = [
     "scale_figure", "bounds_figure", "correlogram_figure", "lag_scatter_figure", "residuals_figure", "power_figure",
@@ -40,14 +41,19 @@ def _plain(text) -> str:
     return str(text).replace("$", r"\$")
 
 
-def _finish(fig: Figure, caption: str) -> Figure:
+def _finish(fig: Figure, caption: str, caveat: str = "") -> Figure:
+    """Attach the caption; a caveat (rows not in time order) is drawn on the figure and leads the caption."""
+    if caveat:
+        fig.text(0.99, 0.99, _plain(caveat), ha="right", va="top", fontsize=7, style="italic",
+                 color=PALETTE["orange"], wrap=True).set_gid("lgs-caveat")
+        caption = f"{caveat} {caption}"
     fig.lagsight_caption = caption
     return fig
 
 
 # ---------------------------------------------------------------------------
 def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, band: str = "white",
-                       period: int | None = None, width: float = FIG_WIDTH) -> Figure:
+                       period: int | None = None, width: float = FIG_WIDTH, caveat: str = "") -> Figure:
     """ACF and PACF panels with a white-noise or Bartlett band.
 
     Parameters
@@ -61,6 +67,8 @@ def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, 
         panel always uses +/- z/sqrt(n).
     period : int, optional
         Seasonal period: its multiples get faint guide lines.
+    caveat : str
+        Drawn on the figure and put before the caption (the rows are not in time order).
     """
     if not isinstance(correlogram, Correlogram):
         raise TypeError(f"'correlogram' must be a Correlogram (got {type(correlogram).__name__})")
@@ -123,7 +131,7 @@ def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, 
            f"{z_note} {which}; points outside it are squares.")
     if max_lag is not None and int(max_lag) > available:
         cap += f" Only {available} lags were computed."
-    return _finish(fig, cap)
+    return _finish(fig, cap, caveat)
 
 
 # ---------------------------------------------------------------------------
@@ -133,11 +141,13 @@ def _thin_even(m: int, max_points: int) -> np.ndarray:
     return np.unique(np.linspace(0, m - 1, max_points).round().astype(np.intp))
 
 
-def lag_scatter_figure(resid, h: int, *, max_points: int = MAX_POINTS, width: float = 3.9) -> Figure:
+def lag_scatter_figure(resid, h: int, *, max_points: int = MAX_POINTS, width: float = 3.9,
+                       caveat: str = "") -> Figure:
     """e_t against e_{t-h}, with the correlation of the pairs in the title.
 
     ``resid`` is a residual array (or a Diagnosis, whose residuals are used).
     At most ``max_points`` evenly spaced pairs are drawn; the correlation uses all.
+    ``caveat`` is drawn on the figure and put before the caption.
     """
     data = getattr(resid, "data", None)
     e = data.resid if data is not None and hasattr(data, "resid") else resid
@@ -168,7 +178,7 @@ def lag_scatter_figure(resid, h: int, *, max_points: int = MAX_POINTS, width: fl
     cap = f"Each point pairs a residual with the one {h} step{'s' * (h != 1)} earlier; {m:,} pairs."
     if keep.size < m:
         cap += (f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}.")
-    return _finish(fig, cap)
+    return _finish(fig, cap, caveat)
 
 
 # ---------------------------------------------------------------------------
@@ -276,7 +286,7 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
             cap += f" Largest gap: {diag.order.flags['largest_gap']}."
     elif diag.order.flags.get("gaps") and not is_time:
         cap += f" The time stamps have {diag.order.flags['gaps']} irregular gaps (see the order check)."
-    return _finish(fig, cap)
+    return _finish(fig, cap, order_caveat(diag))
 
 
 # ---------------------------------------------------------------------------

@@ -22,7 +22,7 @@ from ..diagnosis import Diagnosis
 from . import figures as F
 from .style import CSS
 from .text import (TEST_COLUMNS, TEST_GUIDE, diagnosis_text, format_number, format_pvalue, key_figures,
-                   primary_test, report_sentence, test_rows)
+                   order_caveat, primary_test, report_sentence, test_rows)
 
 __all__ = ["Table", "FigureView", "View", "build_view", "render_html", "diagnosis_html", "save_html",
            "FIGURE_MODES", "MAX_GROUP_ROWS"]
@@ -114,7 +114,7 @@ def _check_options(diag, max_lag, band, lag, test, figures) -> None:
         raise ValueError(f"'test' must be one of the tests ({known}) (got {test!r})")
 
 
-def remedies_table(rem) -> Table:
+def remedies_table(rem, caveat: str = "") -> Table:
     t = rem.table
     cols = ("term", "OLS coef", "OLS SE", "OLS p", "HAC SE", "HAC p", "FGLS coef", "FGLS SE", "FGLS p",
             "changes")
@@ -127,6 +127,9 @@ def remedies_table(rem) -> Table:
     rho = "" if math.isnan(rem.rho) else f", estimated \u03c1 = {rem.rho:.3f}"
     cap = (f"HAC: Newey-West with {rem.hac_lag} lags ({rem.hac_rule}). FGLS: {rem.fgls_method}{rho}. "
            f"'changes' names the corrections that change significance at \u03b1 = {rem.alpha:g}.")
+    if caveat:
+        cap = (f"Not meaningful: the rows are not in time order, so these corrections for serial correlation "
+               f"do not apply as they stand. {cap}")
     return Table(cols, tuple(rows), numeric=(False,) + (True,) * 8 + (False,), caption=cap)
 
 
@@ -177,6 +180,7 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
     tests = Table(TEST_COLUMNS, tuple(rows), numeric=(False, False, True, False, False, False),
                   focus=names.index(focus) if focus in names else None)
     figs = []
+    caveat = order_caveat(diag)
     if figures != "none":
         if DW in diag.tests:
             figs.append(_figure("scale", "Durbin-Watson d on its 0-4 scale", lambda: F.scale_figure(diag),
@@ -184,10 +188,11 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         if diag.correlogram is not None:
             figs.append(_figure("correlogram", "ACF and PACF of the residuals",
                                 lambda: F.correlogram_figure(diag.correlogram, max_lag=max_lag, band=band,
-                                                             period=diag.seasonal_period), figures))
+                                                             period=diag.seasonal_period, caveat=caveat),
+                                figures))
         if lag is not None:
             figs.append(_figure("lag", f"Residuals against their lag {lag}",
-                                lambda: F.lag_scatter_figure(diag.data.resid, int(lag)), figures))
+                                lambda: F.lag_scatter_figure(diag.data.resid, int(lag), caveat=caveat), figures))
         if residuals:
             figs.append(_figure("residuals", "Residuals in test order", lambda: F.residuals_figure(diag), figures))
         if diag.groups is not None:
@@ -207,7 +212,7 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         focus_guide=TEST_GUIDE.get(focus, "") if focus else "",
         sentence_markdown=report_sentence(diag, "markdown"), sentence_text=report_sentence(diag, "text"),
         tests=tests, figures=tuple(figs),
-        remedies=remedies_table(diag.remedies) if diag.remedies is not None else None,
+        remedies=remedies_table(diag.remedies, caveat) if diag.remedies is not None else None,
         groups=groups_table(diag.groups) if diag.groups is not None else None,
         details=tuple(v.details), next_steps=tuple(v.next_steps), cautions=tuple(v.cautions),
         notes=tuple(n for n in notes if n not in diag.order.warnings), text=diagnosis_text(diag),

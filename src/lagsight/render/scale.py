@@ -21,7 +21,7 @@ from ..battery_run import DW
 from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
 from .density import density_grid, exact_point, grid_entry
 from .style import FIG_WIDTH, PALETTE, REGION_STYLE, figure_rc
-from .text import format_pvalue
+from .text import format_pvalue, order_caveat
 
 __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
 
@@ -131,7 +131,12 @@ def _observed(ax, d: float, text: str | None, x0: float, x1: float) -> None:
                           linewidth=0.6))
 
 
-def _p_text(res, alt: str) -> str:
+def _p_text(res, alt: str, verdict) -> str:
+    """The words beside the observed d: its p-value and how the verdict reads it."""
+    if verdict.finding == "not meaningful":
+        return "not meaningful:\nrows not in time order"
+    if verdict.finding == "cannot judge":
+        return "cannot judge"
     if math.isnan(res.pvalue):
         dec = getattr(res, "bounds_decision", None)
         return "no exact p-value" + (f"\nbounds: {dec}" if dec else "")
@@ -140,7 +145,13 @@ def _p_text(res, alt: str) -> str:
     value = f"exact p = {p}" if method.startswith("exact") else (
         f"p \u2248 {p} (saddlepoint)" if method.startswith("saddlepoint") else f"p = {p}")
     side = {"positive": "positive alternative", "negative": "negative alternative"}.get(alt, "two-sided")
-    return f"{value}\n({side})"
+    if DW not in verdict.family:
+        role = f"support; {verdict.leading} leads" if verdict.leading else "support"
+    elif len(verdict.family) > 1:
+        role = f"Holm-adjusted p = {format_pvalue(verdict.adjusted_pvalue(DW))}"
+    else:
+        role = f"{verdict.finding} at \u03b1 = {verdict.alpha:g}"
+    return f"{value}\n({side})\n{role}"
 
 
 def _critical(dist, alpha: float, alt: str) -> list[float]:
@@ -216,7 +227,8 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
         window = None
     elif zoom is True and window is None:
         window = (1.5, 2.5)
-    notes = _missing_notes(diag, res, b, dist)
+    caveat = order_caveat(diag)
+    notes = _missing_notes(diag, res, b, dist) + ([caveat] if caveat else [])
 
     # layout in inches, from the top
     title_h, label_h, ax_h, tick_h = 0.52, (0.34 if b is not None else 0.1), 1.5, 0.42
@@ -230,7 +242,7 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
         fig = Figure(figsize=(width, height))
         y = height - title_h - (label_h if not window else 0.1)
         ax = fig.add_axes((left, (y - ax_h) / height, right - left, ax_h / height))
-        obs = None if res is None else f"observed d = {d:.3f}\n" + _p_text(res, alt)
+        obs = None if res is None else f"observed d = {d:.3f}\n" + _p_text(res, alt, diag.verdict)
         _draw_axis(ax, b=b, grid=grid, crit=crit, d=d, obs_text=obs, x0=0.0, x1=4.0, words=True,
                    bound_labels=window is None, crit_labels=window is None)
         ax.set_xticks(np.arange(0, 4.01, 0.5))
@@ -253,7 +265,7 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
         for i, note in enumerate(reversed(notes)):
             fig.text(left, (yb + 0.19 * legend_rows + 0.1 + 0.2 * i) / height, note, fontsize=7.5,
                      style="italic", color=PALETTE["orange"], va="bottom")
-        fig.lagsight_caption = _caption(res, b, dist, alpha, window, alt)
+        fig.lagsight_caption = " ".join(filter(None, [caveat, _caption(res, b, dist, alpha, window, alt)]))
         fig.lagsight_notes = tuple(notes)
     return fig
 

@@ -14,7 +14,7 @@ from ..stats.power import TARGET_POWER
 
 __all__ = [
     "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
-    "key_figures", "primary_test", "report_sentence", "diagnosis_text", "table_text", "k_prime", "power_text",
+    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime", "power_text",
 ]
 
 #: one line on how to read each test
@@ -86,20 +86,27 @@ def statistic_label(name: str, res) -> str:
 
 
 def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
-    """One row of formatted strings per test (columns :data:`TEST_COLUMNS`), errors last."""
-    alpha = diag.alpha if alpha is None else alpha
+    """One row of formatted strings per test (columns :data:`TEST_COLUMNS`), errors last.
+
+    The reading comes from the verdict (the family adjusted, the others as support) at the
+    diagnosis's own alpha; another ``alpha`` reads each p-value on its own.
+    """
+    v = diag.verdict
     rows = []
     for name, res in diag.tests.items():
         p = res.pvalue
-        if math.isnan(p):
+        if math.isnan(p) and v.finding != "not meaningful":
             reading = "no p-value"
             decision = getattr(res, "bounds_decision", None)
             if decision:
                 reading = f"bounds: {decision}"
-        else:
+        elif alpha is not None and alpha != diag.alpha and v.judged:
             reading = "evidence" if p < alpha else "no evidence"
+        else:
+            reading = v.reading(name, p)
         looks = _LOOKS_FOR.get(res.alternative, str(res.alternative))
-        rows.append((name, statistic_label(name, res), format_pvalue(p), looks, reading, str(res.method)))
+        shown = "not meaningful" if v.finding == "not meaningful" else format_pvalue(p)
+        rows.append((name, statistic_label(name, res), shown, looks, reading, str(res.method)))
     for name, msg in diag.errors.items():
         rows.append((name, "", "", "", f"not run: {msg}", ""))
     return rows
@@ -118,35 +125,37 @@ def k_prime(diag) -> int | None:
 
 
 def primary_test(diag) -> str | None:
-    """The test the report sentence is about: the one the verdict leads with."""
-    tests = diag.tests
-    if diag.lagged_response is not None and DALT in tests:
-        return DALT
-    if DW in tests and not math.isnan(tests[DW].pvalue):
-        return DW
-    for name in (BG, LB, DW, RUNS):
-        if name in tests:
-            return name
-    return next(iter(tests), None)
+    """The test the verdict leads with (``diag.verdict.leading``), or the first test run."""
+    lead = diag.verdict.leading
+    if lead in diag.tests or lead in diag.errors:
+        return lead
+    return next(iter(diag.tests), None)
 
 
 def key_figures(diag) -> list[tuple[str, str]]:
-    """(label, value) pairs for the headline: statistic, p-value, n, k', rho, bounds, alpha, order."""
-    out = []
-    dw = diag.tests.get(DW)
-    if dw is not None:
-        out.append(("Durbin-Watson d", _dw_value(dw.statistic)))
-        out.append(("p-value", format_pvalue(dw.pvalue)))
-        out.append(("implied rho", format_number(1 - dw.statistic / 2, 3)))
-        bounds = getattr(dw, "bounds", None)
-        if bounds is not None:
-            out.append(("dL / dU", f"{bounds.lower:.3f} / {bounds.upper:.3f}"))
-    else:
-        name = primary_test(diag)
-        if name is not None:
-            res = diag.tests[name]
-            out.append((name, statistic_label(name, res)))
-            out.append(("p-value", format_pvalue(res.pvalue)))
+    """(label, value) pairs for the headline: the finding, the leading test, n, k', alpha, order.
+
+    Every figure comes from the verdict: the leading test's statistic, the family's p-value
+    (Holm-adjusted for two), the rule; no p-value when the rows are not in time order.
+    """
+    v = diag.verdict
+    out = [("finding", v.finding)]
+    lead = v.leading
+    res = diag.tests.get(lead) if lead is not None else None
+    if res is not None:
+        out.append((f"leading test: {lead}", statistic_label(lead, res)))
+        if v.finding == "not meaningful":
+            out.append(("p-value", "not meaningful (rows not in time order)"))
+        elif v.judged:
+            label = "Holm-adjusted p" if len(v.family) > 1 else "p-value"
+            out.append((label, format_pvalue(v.pvalue)))
+        if lead == DW:
+            out.append(("implied rho", format_number(1 - res.statistic / 2, 3)))
+            bounds = getattr(res, "bounds", None)
+            if bounds is not None:
+                out.append(("dL / dU", f"{bounds.lower:.3f} / {bounds.upper:.3f}"))
+    if v.rule and v.finding != "cannot judge":
+        out.append(("rule", v.rule))
     out.append(("n", f"{diag.n:,}"))
     kp = k_prime(diag)
     if kp is not None:
@@ -158,6 +167,13 @@ def key_figures(diag) -> list[tuple[str, str]]:
     if len(index):
         out.append(("span", f"{_stamp(index[0])} \u2026 {_stamp(index[-1])}"))
     return out
+
+
+def order_caveat(diag) -> str:
+    """The caveat every figure carries when the rows are not in time order ('' otherwise)."""
+    if diag.verdict.finding != "not meaningful":
+        return ""
+    return "Not meaningful: the rows are not in time order, so this does not show serial correlation."
 
 
 def _stamp(value) -> str:
@@ -193,12 +209,18 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     """
     if fmt not in ("markdown", "text"):
         raise ValueError(f"'fmt' must be 'markdown' or 'text' (got {fmt!r})")
-    name = primary_test(diag) if test is None else test
-    if name is None:
-        return "No serial-correlation test could be run on these residuals."
-    if name not in diag.tests:
+    v = diag.verdict
+    if test is not None and test not in diag.tests:
         known = ", ".join(repr(t) for t in diag.tests)
-        raise ValueError(f"'test' must be one of the tests run ({known}) (got {name!r})")
+        raise ValueError(f"'test' must be one of the tests run ({known}) (got {test!r})")
+    if v.finding == "cannot judge":
+        return f"No serial-correlation finding can be reported: {v.reason} (n = {diag.n:,})."
+    if v.finding == "not meaningful":
+        return (f"No serial-correlation result can be reported: {v.reason} (n = {diag.n:,}); sort the rows "
+                "by time and test again.")
+    name = primary_test(diag) if test is None else test
+    if name is None or name not in diag.tests:
+        return "No serial-correlation test could be run on these residuals."
     res = diag.tests[name]
     md = fmt == "markdown"
 
@@ -234,6 +256,8 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     tail = f"{pword} {format_pvalue(res.pvalue)} {alt}"
     if method:
         tail += f" ({method})"
+    if name in v.family and len(v.family) > 1:
+        tail += f"; {v.rule}: adjusted {it('p')} = {format_pvalue(v.adjusted_pvalue(name))}"
     return f"{head} ({', '.join(sizes)}), {tail}."
 
 

@@ -119,6 +119,24 @@ def constant_columns(exog: np.ndarray) -> np.ndarray:
     return (np.ptp(exog, axis=0) == 0) & (exog[0] != 0)
 
 
+def unit_scale(v) -> np.ndarray:
+    """``v`` divided by its largest absolute value (unchanged when all zero).
+
+    The serial-correlation statistics are scale-free; on unit-sized values sums of squares stay finite
+    for data near 1e200 and normal (not subnormal) for data near 1e-200.
+    """
+    v = np.asarray(v, float)
+    top = float(np.max(np.abs(v))) if v.size else 0.0
+    return v / top if top > 0 else v
+
+
+def unit_columns(X) -> np.ndarray:
+    """Each column of ``X`` divided by its largest absolute value: the same column space, comparable sizes."""
+    X = np.asarray(X, float)
+    top = np.max(np.abs(X), axis=0)
+    return X / np.where(top > 0, top, 1.0)
+
+
 def readonly(a) -> np.ndarray:
     """A read-only copy of ``a`` (results are frozen, so are their arrays)."""
     a = np.array(a, copy=True)

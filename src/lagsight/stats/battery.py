@@ -17,11 +17,11 @@ from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.stattools import acf
 
 from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
-                      constant_columns, readonly)
+                      constant_columns, readonly, unit_columns, unit_scale)
 from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
-    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult",
+    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "DurbinAlternativeResult",
     "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative",
     "detect_lagged_response",
 ]
@@ -34,6 +34,23 @@ def _upper_means_positive(stat_cdf: float, stat_sf: float, alternative: str) -> 
     tail is passed first.
     """
     return tail_pvalue(stat_sf, stat_cdf, alternative)
+
+
+def _unit(v: np.ndarray) -> tuple[np.ndarray, float]:
+    """``v`` on unit scale and the factor taken out (every statistic here is scale-free)."""
+    top = float(np.max(np.abs(v))) if v.size else 0.0
+    return unit_scale(v), (top if top > 0 else 1.0)
+
+
+def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndarray]:
+    """The design with columns of unit size (regressors of very different sizes on one footing for the
+    QR and rank checks), and the factors taken out."""
+    X = as_design(exog, n, full_rank=False)
+    top = np.max(np.abs(X), axis=0)
+    X = unit_columns(X)
+    if full_rank:
+        X = as_design(X, n)  # the rank check, on columns of comparable size
+    return X, np.where(top > 0, top, 1.0)
 
 
 # --------------------------------------------------------------------------- BG
@@ -76,10 +93,10 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
     when ``exog`` has none, as statsmodels' ``acorr_breusch_godfrey`` does.
     LM = n R^2 ~ chi2(order); F = joint test of the lag coefficients.
     """
-    e = as_vector(resid, "resid", min_len=3)
+    e, _ = _unit(as_vector(resid, "resid", min_len=3))
     n = e.shape[0]
     order = check_int(order, "order", minimum=1)
-    X = as_design(exog, n, full_rank=False)  # a deficient design falls back to pinv below
+    X, _ = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
     lagged = np.zeros((n, order))
     for j in range(1, order + 1):
         lagged[j:, j - 1] = e[:-j]
@@ -150,7 +167,7 @@ def ljung_box(resid, *, lags, model_df=0) -> PortmanteauResult:
         Degrees of freedom used up by a fitted ARMA model; the reference
         chi-square has lags - model_df df, and lags with df <= 0 get NaN p-values.
     """
-    e = as_vector(resid, "resid", min_len=3)
+    e, _ = _unit(as_vector(resid, "resid", min_len=3))
     n = e.shape[0]
     model_df = check_int(model_df, "model_df", minimum=0)
     if np.ndim(lags) == 0:
@@ -277,13 +294,13 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     y = as_vector(endog, "endog")
     if y.shape[0] != n:
         raise ValueError(f"'endog' must have {n} observations to match 'resid' (got {y.shape[0]})")
-    X = as_design(exog, n)
+    X, col_scale = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     if n <= k:
         raise ValueError(f"'exog' must have fewer columns than observations n={n} (got {k})")
     notes = []
     if lag_column is None:
-        lag_column = detect_lagged_response(X, y)
+        lag_column = detect_lagged_response(X * col_scale, y)
         if lag_column is None:
             raise ValueError(
                 "'lag_column' must be given: no column of 'exog' equals 'endog' shifted by one (got None)"
@@ -292,10 +309,14 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     lag_column = check_int(lag_column, "lag_column", minimum=0)
     if lag_column >= k:
         raise ValueError(f"'lag_column' must be < {k}, the number of columns of 'exog' (got {lag_column})")
+    y, y_scale = _unit(y)
+    e = e / y_scale  # the residuals of the scaled response
     fit = _ols_checked(y, X, e)
+    e, _ = _unit(e)
     d = float(np.sum(np.diff(e) ** 2) / np.dot(e, e))
     rho = 1.0 - d / 2.0
-    var_lag = float(fit.bse[lag_column] ** 2)
+    # Var(b_lag) in the original units: b_lag = b_scaled * y_scale / col_scale[lag]
+    var_lag = float((fit.bse[lag_column] * (y_scale / col_scale[lag_column])) ** 2)
     nv = n * var_lag
     method = "normal; rho = 1 - d/2 from the Durbin-Watson d"
     if nv >= 1.0:
@@ -315,6 +336,17 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     )
 
 
+@dataclass(frozen=True)
+class DurbinAlternativeResult(TestResult):
+    """Durbin's alternative test of order 1: the t-ratio of the e_{t-1} coefficient."""
+
+    #: P(T <= t) and P(T >= t) under the null (Student t)
+    lower_tail: float = math.nan
+    upper_tail: float = math.nan
+    #: large t signals positive autocorrelation (the upper tail), unlike d
+    large_means_positive: ClassVar[bool] = True
+
+
 def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> TestResult:
     """Durbin's alternative test: regress e_t on exog_t and e_{t-1}, ..., e_{t-order}.
 
@@ -331,7 +363,8 @@ def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> Test
         raise ValueError(
             f"'alternative' must be 'two-sided' when order > 1 (got {alternative!r})"
         )
-    X = as_design(exog, n)
+    e, _ = _unit(e)
+    X, _ = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     m = n - order
     if m <= k + order:
@@ -350,11 +383,11 @@ def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> Test
     if order == 1:
         t = float(fit.tvalues[-1])
         df = float(fit.df_resid)
-        pval = _upper_means_positive(stats.t.cdf(t, df), stats.t.sf(t, df), alternative)
-        return TestResult(
-            statistic=t, pvalue=pval, alternative=alternative, df=(df,),
-            method="t-test of the e_{t-1} coefficient, Student t",
-            name="Durbin's alternative", notes=notes,
+        lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
+        return DurbinAlternativeResult(
+            statistic=t, pvalue=_upper_means_positive(lower, upper, alternative), alternative=alternative,
+            df=(df,), method="t-test of the e_{t-1} coefficient, Student t",
+            name="Durbin's alternative", notes=notes, lower_tail=lower, upper_tail=upper,
         )
     ft = fit.f_test(np.eye(order, aux.shape[1], k))
     return TestResult(

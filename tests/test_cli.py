@@ -68,3 +68,13 @@ def test_console_script_entry_point(demand_csv, tmp_path):
     proc = subprocess.run([str(bindir / exe), "report", str(demand_csv), "--y", "demand_ml",
                            "--x", "temp_c", "-o", str(tmp_path / "x.html")], capture_output=True, text=True)
     assert proc.returncode == 1, proc.stderr
+
+
+def test_degenerate_data_exits_three(tmp_path, capsys):
+    # an exact fit: y is a linear function of x, nothing is left to test
+    x = np.linspace(0.0, 3.0, 25)
+    path = tmp_path / "exact.csv"
+    pd.DataFrame({"x": x, "y": 1 + 2 * x}).to_csv(path, index=False)
+    assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "e.html")]) == 3
+    captured = capsys.readouterr()
+    assert captured.out.startswith("Cannot judge: ") and captured.err == ""

@@ -16,6 +16,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .stats._arrays import unit_columns
+
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
     "statsmodels ARIMA/SARIMAX or other state-space results",
@@ -127,7 +129,8 @@ def _detect_constant(X: np.ndarray | None) -> bool | None:
         return False
     if np.any((np.ptp(X, axis=0) == 0) & (X[0] != 0)):
         return True
-    Xs = X / np.maximum(np.linalg.norm(X, axis=0), np.finfo(float).tiny)  # scale columns to unit length
+    Xs = unit_columns(X)  # largest entry 1 first, so the norms below cannot overflow
+    Xs = Xs / np.maximum(np.linalg.norm(Xs, axis=0), np.finfo(float).tiny)  # scale columns to unit length
     ones = np.ones(X.shape[0])
     r = ones - Xs @ np.linalg.lstsq(Xs, ones, rcond=None)[0]
     return bool(np.sqrt(r @ r / X.shape[0]) < 1e-9)  # exact spans leave ~1e-15; near-collinear data far more
@@ -360,8 +363,12 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
     fit = sm.OLS(values[ok, 0], X[ok]).fit()
+    # the residuals from the same fit on unit-scaled columns: pinv's cut-off treats every column alike,
+    # and nothing overflows for data near 1e200 (OLS residuals do not depend on column scales)
+    y_ok = values[ok, 0]
+    top = float(np.max(np.abs(y_ok))) or 1.0
     resid = np.full(len(df), np.nan)
-    resid[ok] = fit.resid
+    resid[ok] = sm.OLS(y_ok / top, unit_columns(X[ok])).fit().resid * top
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
         resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=values[:, 0],

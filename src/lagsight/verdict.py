@@ -13,11 +13,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from statsmodels.stats.multitest import multipletests
-
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, LeadPlan, strength
 
-__all__ = ["Verdict", "write_verdict", "CAUTIONS", "FINDINGS", "format_p"]
+__all__ = ["Verdict", "write_verdict", "holm", "CAUTIONS", "FINDINGS", "format_p"]
 
 #: the four findings
 FINDINGS = ("evidence", "no evidence", "not meaningful", "cannot judge")
@@ -126,6 +124,22 @@ class Verdict:
         lines.append("Cautions:")
         lines += [f"  - {c}" for c in self.cautions]
         return "\n".join(lines)
+
+
+def holm(pvalues) -> list[float]:
+    """Holm's (1979) step-down adjusted p-values, in the order given.
+
+    With p_(1) <= ... <= p_(m): adjusted p_(i) = max over j <= i of min(1, (m - j + 1) p_(j)).
+    (Written out here: statsmodels' multipletests runs a full garbage collection on every call.)
+    """
+    p = [float(v) for v in pvalues]
+    m = len(p)
+    out = [0.0] * m
+    running = 0.0
+    for rank, i in enumerate(sorted(range(m), key=p.__getitem__)):
+        running = max(running, min(1.0, (m - rank) * p[i]))
+        out[i] = running
+    return out
 
 
 def _p(res) -> float:
@@ -252,8 +266,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
 
     family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
     raw = [_p(tests[name]) for name in family]
-    adjusted = list(multipletests(raw, method="holm")[1]) if len(raw) > 1 else raw
-    adjusted = [min(1.0, float(a)) for a in adjusted]
+    adjusted = holm(raw)
     rule = _rule(family, alpha, seasonal_period)
     p_family = min(adjusted)
     found = p_family < alpha

@@ -36,6 +36,7 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_diagnose.py
 	$(BIN)/python benchmarks/bench_panel.py
 	$(BIN)/python benchmarks/bench_screen.py
+	$(BIN)/python benchmarks/bench_verdict.py
 
 notebooks: $(STAMP)
 	$(BIN)/python scripts/make_notebooks.py

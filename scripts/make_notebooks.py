@@ -47,7 +47,7 @@ NOTEBOOKS = {
         ("md", "# A lagged response among the regressors\n\n"
                "Invented daily peak load of a regional grid, modelled on cooling and heating degrees and "
                "*yesterday's load*. With a lagged response as a regressor the Durbin-Watson statistic is biased "
-               "towards 2, so lagsight reads Durbin's h and Durbin's alternative test instead."),
+               "towards 2, so Durbin's alternative test leads the verdict (Durbin's h is shown beside it)."),
         ("code", "import statsmodels.formula.api as smf\n"
                  "from lagsight.scenarios import grid_peak_load\n\n"
                  "load = grid_peak_load()\n"

@@ -160,7 +160,8 @@ def _plain(data: ResidualData, report, pos: int) -> dict:
         "pos": pos, "resid": data.resid, "exog": data.exog, "endog": data.endog,
         "exog_names": data.exog_names, "has_constant": data.has_constant, "arma_df": data.arma_df,
         "dw_applicable": data.dw_applicable, "bg_order": infer_bg_order(data.index),
-        "lb_lag": ljung_box_lag(data.n, period), "shuffled": shuffled,
+        "lb_lag": ljung_box_lag(data.n, period, leading=data.exog is None or not data.dw_applicable),
+        "shuffled": shuffled,
     }
 
 

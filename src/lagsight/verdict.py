@@ -293,8 +293,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
-    lead_words = (f"{family[0]}, {format_p(raw[0])}" if len(family) == 1
-                  else f"Holm-adjusted {format_p(p_family)}")
+    lead_words = format_p(raw[0]) if len(family) == 1 else f"Holm-adjusted {format_p(p_family)}"
     steps = []
     if found:
         where = " and ".join(_what(name, tests[name], alternative, seasonal_period) for name in significant)

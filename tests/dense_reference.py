@@ -44,16 +44,15 @@ def mam_eigenvalues(X: np.ndarray, lag: int = 1, A: np.ndarray | None = None) ->
     """The n - rank(X) eigenvalues of M A M that belong to the residual space (A: the lag-``lag``
     difference matrix unless given)."""
     n = X.shape[0]
-    M = residual_maker(X)
     A = difference_matrix(n, lag) if A is None else A
-    ev = np.sort(np.linalg.eigvalsh(M @ A @ M))
     rank = np.linalg.matrix_rank(X)
-    # M A M has rank(X) zero eigenvalues from the column space of X; the
-    # eigenvalues of the residual space are all others.  Remove the zeros that
-    # correspond to col(X) by matching the count.
-    order = np.argsort(np.abs(ev))
-    drop = order[:rank]
-    return np.delete(ev, drop)
+    # P: an orthonormal basis of the orthogonal complement of col(X), from the
+    # complete QR of X (pivoted, so a rank-deficient X is handled); the residual
+    # space eigenvalues of M A M are those of P' A P.
+    from scipy import linalg
+    Q, _, _ = linalg.qr(X, pivoting=True)
+    P = Q[:, rank:]
+    return np.sort(np.linalg.eigvalsh(P.T @ A @ P))
 
 
 def imhof_prob_nonpositive(weights: np.ndarray) -> float:
@@ -83,3 +82,67 @@ def dense_cdf(X: np.ndarray, c: float, lag: int = 1, A: np.ndarray | None = None
     """P(d <= c) for the order-``lag`` Durbin-Watson statistic of design X (or the ratio with matrix A)."""
     lam = mam_eigenvalues(X, lag, A)
     return imhof_prob_nonpositive(lam - c)
+
+
+# ----------------------------------------------------------------------------
+# tails with relative accuracy
+# ----------------------------------------------------------------------------
+def tail_prob(weights, tail: str = "lower", with_saddle: bool = False):
+    """P(sum_j w_j z_j^2 <= 0) ('lower') or P(... >= 0) ('upper') with relative accuracy.
+
+    Independent of the package: the moment generating function prod (1 - 2 s w_j)^(-1/2)
+    is evaluated factor by factor from the explicit weights, its saddle point is found by
+    scipy's brentq, and the inversion integral along the vertical line through it,
+
+        P = exp(K(s0)) / (pi |s0|) * int_0^inf Re[exp(K(s0 + iy) - K(s0)) s0 / (s0 + iy)] dy,
+
+    is integrated with QUADPACK on geometric panels.  Returns the natural logarithm of
+    the probability (so values below the smallest double can be compared too).
+    """
+    from scipy import optimize
+
+    w = np.asarray(weights, float)
+    w = w[w != 0]
+    if tail == "upper":
+        w = -w
+    # P(sum w z^2 <= 0) with the smaller tail on this side: saddle point s0 < 0
+    lo_edge = 1.0 / (2.0 * w.min())            # negative: the interval of the mgf is (lo_edge, 1/(2 w.max()))
+
+    def K(s):
+        return -0.5 * np.sum(np.log(1.0 - 2.0 * s * w))
+
+    def K1(s):
+        return np.sum(w / (1.0 - 2.0 * s * w))
+
+    def K2(s):
+        q = w / (1.0 - 2.0 * s * w)
+        return 2.0 * np.sum(q * q)
+
+    a, b = lo_edge * (1 - 1e-15), 0.0
+    s0 = optimize.brentq(K1, a, b, xtol=1e-300, rtol=1e-15, maxiter=500)
+    k0 = K(s0)
+    width = 1.0 / np.sqrt(K2(s0))
+
+    def integrand(y):
+        s = s0 + 1j * y
+        logm = -0.5 * np.sum(np.log(1.0 - 2.0 * s * w)) - k0
+        return (np.exp(logm) * s0 / s).real
+
+    edges = np.concatenate([[0.0], width * np.geomspace(0.25, 1e14, 70)])
+    total = integrate.quad(integrand, 0.0, edges[1], limit=400, epsabs=0.0, epsrel=1e-13)[0]
+    floor = 1e-16 * abs(total)
+    for lo, hi in zip(edges[1:-1], edges[2:]):
+        total += integrate.quad(integrand, lo, hi, limit=400, epsabs=floor, epsrel=1e-13)[0]
+    log_p = float(k0 - np.log(np.pi * abs(s0)) + np.log(total))
+    return (log_p, abs(s0)) if with_saddle else log_p
+
+
+def log_dense_tail(X: np.ndarray, c: float, tail: str = "lower", lag: int = 1, A=None, with_saddle=False):
+    """log P(d <= c) ('lower') or log P(d >= c) ('upper') from the dense eigenvalues of M A M."""
+    return tail_prob(mam_eigenvalues(X, lag, A) - c, tail, with_saddle)
+
+
+def two_eigenvalue_cdf(l1: float, l2: float, c: float) -> float:
+    """Closed form for two residual eigenvalues l1 < c < l2 (a Cauchy ratio):
+    P(l1 z1^2 + l2 z2^2 <= c (z1^2 + z2^2)) = (2/pi) arctan(sqrt((c - l1) / (l2 - c)))."""
+    return float(2.0 / np.pi * np.arctan(np.sqrt((c - l1) / (l2 - c))))

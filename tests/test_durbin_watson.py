@@ -255,21 +255,6 @@ def test_density_is_derivative_of_cdf_and_integrates_to_one():
     assert abs(np.trapezoid(pdf, grid) - 1.0) < 1e-4
 
 
-def test_saddlepoint_takes_over_in_far_tail():
-    # Lugannani-Rice (Kuonen 1999) in a region where Imhof is still exact:
-    # relative error of a few percent at p ~ 1e-5; the method is reported
-    # when p is below what absolute accuracy resolves.
-    rng = np.random.default_rng(6)
-    X = sm.add_constant(rng.normal(size=(60, 2)))
-    dist = DurbinWatsonDistribution(X)
-    c = dist.ppf(1e-5)
-    sp = dist.form.saddlepoint(c, "lower").value
-    assert abs(sp / 1e-5 - 1) < 0.05
-    lower, upper, method = dist.tails(0.6)
-    assert "saddlepoint" in method or "Chernoff" in method
-    assert 0 <= lower < 1e-8 and abs(lower + upper - 1) < 1e-9
-
-
 # ---------------------------------------------------------------------------
 # the test itself
 # ---------------------------------------------------------------------------

@@ -19,6 +19,7 @@ from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
 from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
 from .spectrum import difference_spectrum, form_moments, solve_quantile
+from .tails import TailResult, tail_probability
 
 __all__ = [
     "DurbinWatsonDistribution",
@@ -29,8 +30,9 @@ __all__ = [
     "dw_statistic",
 ]
 
-#: below this an Imhof tail is replaced by its saddlepoint approximation
-SADDLEPOINT_THRESHOLD = 1e-8
+#: below this a tail probability is computed with relative accuracy on the saddle line
+#: (the Imhof inversion is accurate to about 1e-12 absolute, so 1e-9 relative at the switch)
+TAIL_SWITCH = 1e-3
 
 
 # ----------------------------------------------------------------------------
@@ -62,12 +64,19 @@ def dw_statistic(resid, lag: int = 1) -> tuple[float, float, float]:
     """(d, numerator, denominator) of the order-``lag`` Durbin-Watson statistic."""
     e = _as_vector(resid, "resid")
     lag = _check_lag(lag, e.size)
-    diff = e[lag:] - e[:-lag]
-    num = float(np.dot(diff, diff))
-    den = float(np.dot(e, e))
-    if den <= 0.0:
+    # d is scale-free: sums of squares are taken of e / max|e| so that residuals of any
+    # magnitude (1e-200 or 1e200) neither underflow nor overflow; numerator and
+    # denominator are returned in the original units (inf or 0 when those do not fit)
+    top = float(np.max(np.abs(e))) if e.size else 0.0
+    if not top > 0.0:
         raise ValueError("'resid' has zero variance (all residuals are 0)")
-    return num / den, num, den
+    u = e / top
+    diff = u[lag:] - u[:-lag]
+    num = float(np.dot(diff, diff))
+    den = float(np.dot(u, u))
+    with np.errstate(over="ignore", under="ignore"):
+        scale2 = top * top
+    return num / den, num * scale2, den * scale2
 
 
 def _orthonormal_basis(X: np.ndarray):
@@ -79,6 +88,9 @@ def _orthonormal_basis(X: np.ndarray):
     R decides the rank.
     """
     n, k = X.shape
+    # column scaling keeps Gram matrices finite for any magnitude of the data
+    top = np.max(np.abs(X), axis=0)
+    X = X / np.where(top > 0, top, 1.0)
     if n >= 20_000:
         G = X.T @ X
         scale = np.sqrt(np.diag(G))
@@ -172,15 +184,53 @@ class DurbinWatsonDistribution:
         return form_moments(self.form)[1]
 
     # distribution -----------------------------------------------------------------
+    def _both_tails(self, c):
+        """(P(d <= c), P(d >= c)) for an array of c, each with relative accuracy."""
+        cs = np.atleast_1d(np.asarray(c, dtype=float))
+        lower = self._body(cs)
+        upper = 1.0 - lower
+        for i in np.flatnonzero(np.minimum(lower, upper) < TAIL_SWITCH):
+            tail = self.tail(cs[i], "lower" if lower[i] < upper[i] else "upper")
+            if tail.method.startswith("exact (outside"):
+                small = 0.0
+            else:
+                small = tail.value
+            if lower[i] < upper[i]:
+                lower[i], upper[i] = small, 1.0 - small
+            else:
+                lower[i], upper[i] = 1.0 - small, small
+        return lower, upper
+
+    def _body(self, cs: np.ndarray) -> np.ndarray:
+        """P(d <= c) by the Imhof inversion (1e-12 absolute).  Where that integral cannot be
+        evaluated (c within rounding of a point mass of the spectrum, at the very end of the
+        range) the value is set to 0 or 1 by the side of the mean, so the tail computation
+        takes over."""
+        try:
+            return self.form.cdf_many(cs)[0]
+        except (np.linalg.LinAlgError, FloatingPointError):
+            out = np.empty(cs.shape)
+            for i, ci in enumerate(cs):
+                try:
+                    out[i] = self.form.cdf_many(np.array([ci]))[0][0]
+                except (np.linalg.LinAlgError, FloatingPointError):
+                    out[i] = 0.0 if ci < self.mean else 1.0
+            return out
+
     def cdf(self, c):
-        """P(d <= c), exact to about 1e-10 absolute."""
-        out = self.form.cdf_many(np.atleast_1d(np.asarray(c, dtype=float)))[0]
+        """P(d <= c): exact, to 1e-12 absolute and, below 1e-3, to about 1e-10 relative."""
+        out = self._both_tails(c)[0]
         return out if np.ndim(c) else float(out[0])
 
     def sf(self, c):
-        """P(d >= c) (d is continuous, so this is 1 - cdf)."""
-        val = 1.0 - np.asarray(self.cdf(c))
-        return val if np.ndim(c) else float(val)
+        """P(d >= c), with the same accuracy as :meth:`cdf` (relative in the upper tail)."""
+        out = self._both_tails(c)[1]
+        return out if np.ndim(c) else float(out[0])
+
+    def tail(self, c: float, tail: str) -> TailResult:
+        """The smaller tail at c ('lower': P(d <= c), 'upper': P(d >= c)) with relative accuracy,
+        its natural logarithm (finite below the smallest double) and the error estimate."""
+        return tail_probability(self.form, float(c), tail)
 
     def pdf(self, c):
         """Density of d at c."""
@@ -202,18 +252,33 @@ class DurbinWatsonDistribution:
 
     def tails(self, d: float):
         """(lower, upper, method) for an observed d: P(d <= d_obs), P(d >= d_obs)."""
-        lower, _, _ = self.form.cdf_at_zero(float(d))
+        lower, upper, method, _ = self.tails_with_logs(d)
+        return lower, upper, method
+
+    def tails_with_logs(self, d: float):
+        """(lower, upper, method, (log lower, log upper)).
+
+        The larger tail comes from the Imhof inversion (1e-12 absolute); when the
+        smaller one is below :data:`TAIL_SWITCH` it is recomputed on the saddle line,
+        with relative accuracy down to and below the smallest double (its natural
+        logarithm stays finite when the value underflows to 0).
+        """
+        d = float(d)
+        lower = float(self._body(np.array([d]))[0])
         upper = 1.0 - lower
         method = "exact (Imhof inversion)"
-        if min(lower, upper) < SADDLEPOINT_THRESHOLD:
-            tail = "lower" if lower < upper else "upper"
-            sp = self.form.saddlepoint(float(d), tail)
-            if tail == "lower":
-                lower = sp.value
+        logs = [math.log(lower) if lower > 0 else -math.inf, math.log(upper) if upper > 0 else -math.inf]
+        if min(lower, upper) < TAIL_SWITCH:
+            side = 0 if lower < upper else 1
+            res = self.tail(d, ("lower", "upper")[side])
+            if side == 0:
+                lower, upper = res.value, 1.0 - res.value
             else:
-                upper = sp.value
-            method = sp.method
-        return lower, upper, method
+                lower, upper = 1.0 - res.value, res.value
+            logs = [math.log1p(-res.value), math.log1p(-res.value)]
+            logs[side] = res.log_value
+            method = res.method
+        return lower, upper, method, tuple(logs)
 
 
 def dw_distribution(exog, *, lag: int = 1, blocks=None) -> DurbinWatsonDistribution:
@@ -241,8 +306,23 @@ class DurbinWatsonResult(TestResult):
     null_var: float = float("nan")
     lower_tail: float = float("nan")
     upper_tail: float = float("nan")
+    log_lower_tail: float = float("nan")
+    log_upper_tail: float = float("nan")
     bounds: BoundsResult | None = field(default=None, repr=False)
     bounds_decision: str | None = None
+
+    @property
+    def log10_pvalue(self) -> float:
+        """log10 of the p-value for the result's alternative, finite even when the p-value
+        underflows to 0 (nan without an exact p-value)."""
+        lo, up = self.log_lower_tail, self.log_upper_tail
+        if self.alternative == "positive":
+            v = lo
+        elif self.alternative == "negative":
+            v = up
+        else:
+            v = min(0.0, math.log(2.0) + min(lo, up))
+        return v / math.log(10.0)
 
     @property
     def rho_hat(self) -> float:
@@ -340,13 +420,14 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
         raise ValueError(f"need more residuals than regressors + 1 (n = {n}, k = {X.shape[1]})")
     dist = distribution if distribution is not None else DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
-    proj = dist._basis_t @ e
-    if float(np.dot(proj, proj)) > 1e-12 * den:
+    u = e / np.max(np.abs(e))
+    proj = dist._basis_t @ u
+    if float(np.dot(proj, proj)) > 1e-12 * float(np.dot(u, u)):
         notes.append(
             "the residuals are not orthogonal to exog; the exact distribution assumes they are "
             "the OLS residuals of this design"
         )
-    lower, upper, method = dist.tails(d)
+    lower, upper, method, (log_lower, log_upper) = dist.tails_with_logs(d)
     pvalue = tail_pvalue(lower, upper, alternative)
     bounds = decision = None
     kp = dist.k - 1 if dist.has_constant else dist.k
@@ -361,6 +442,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
         method=method, name=_name(lag), notes=tuple(notes),
         numerator=num, denominator=den, n=n, k=dist.k, lag=lag,
         null_mean=dist.mean, null_var=dist.var, lower_tail=lower, upper_tail=upper,
+        log_lower_tail=log_lower, log_upper_tail=log_upper,
         bounds=bounds, bounds_decision=decision,
     )
     return result, dist

@@ -18,18 +18,18 @@ point costs O(M k^2) independent of n.
 The CDF is obtained by Gil-Pelaez inversion, integrated with the trapezoidal
 rule in log t (the integrand decays exponentially at both ends in that
 variable) with step halving until successive sums agree to 1e-12.  Tail
-probabilities too small for absolute accuracy come from the Lugannani-Rice
-saddlepoint approximation (Kuonen 1999, Biometrika 86).
+probabilities too small for that absolute accuracy are computed with relative
+accuracy by :mod:`lagsight.stats.tails` (the same integral on a contour through
+the saddle point of the moment generating function).
 """
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
-from scipy import fft, optimize, special
+from scipy import fft
 
-__all__ = ["SpectralForm", "TailProbability"]
+__all__ = ["SpectralForm"]
 
 _TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
 _DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
@@ -41,15 +41,6 @@ _CHEB_MAX_DEGREE = 600
 # ----------------------------------------------------------------------------
 # the spectral engine
 # ----------------------------------------------------------------------------
-@dataclass(frozen=True)
-class TailProbability:
-    """A probability with the method that produced it."""
-
-    value: float
-    method: str
-    error: float = float("nan")
-
-
 def _cheb_coefficients(values: np.ndarray) -> np.ndarray:
     """Chebyshev coefficients from samples at first-kind nodes (last axis)."""
     n = values.shape[-1]
@@ -425,46 +416,3 @@ class SpectralForm:
             todo[idx[ok]] = False
             t[idx[~ok]] *= 2.0
         return t
-
-    # -- saddlepoint ------------------------------------------------------------
-    def cgf(self, s: float, c: float) -> float:
-        """Cumulant generating function K(s) of Q_c at real s."""
-        ld, _ = self.evaluate(np.array([2.0 * s]), c)
-        return float(-0.5 * ld[0].real)
-
-    def _cgf_prime(self, s: float, c: float) -> float:
-        delta = 1e-20 * max(1.0, abs(s))
-        ld, _ = self.evaluate(np.array([2.0 * (s + 1j * delta)]), c)
-        return float(-0.5 * ld[0].imag / delta)
-
-    def saddlepoint(self, c: float, tail: str = "lower") -> TailProbability:
-        """Lugannani-Rice approximation of P(Q_c <= 0) ('lower') or P(Q_c >= 0)."""
-        e_lo, e_hi = self.nu_min - c, self.nu_max - c
-        if e_lo >= 0:
-            return TailProbability(0.0 if tail == "lower" else 1.0, "exact (outside support)", 0.0)
-        if e_hi <= 0:
-            return TailProbability(1.0 if tail == "lower" else 0.0, "exact (outside support)", 0.0)
-        lo = (1.0 - 1e-9) / (2.0 * e_lo)
-        hi = (1.0 - 1e-9) / (2.0 * e_hi)
-        kp_lo, kp_hi = self._cgf_prime(lo, c), self._cgf_prime(hi, c)
-        if kp_lo > 0 or kp_hi < 0:
-            # the saddlepoint lies beyond the region we can certify: Chernoff bound
-            s_end = lo if kp_lo > 0 else hi
-            bound = math.exp(self.cgf(s_end, c))
-            inside = (kp_lo > 0) == (tail == "lower")
-            return TailProbability(bound if inside else 1.0 - bound, "Chernoff bound", float("nan"))
-        s_hat = optimize.brentq(lambda s: self._cgf_prime(s, c), lo, hi, xtol=1e-14, rtol=1e-12)
-        K = self.cgf(s_hat, c)
-        step = 1e-4 * min(abs(lo), abs(hi))
-        K2 = (self._cgf_prime(s_hat + step, c) - self._cgf_prime(s_hat - step, c)) / (2 * step)
-        if abs(s_hat) < 1e-12 or K2 <= 0:
-            return TailProbability(0.5, "saddlepoint (Lugannani-Rice)", float("nan"))
-        w = math.copysign(math.sqrt(max(0.0, -2.0 * K)), s_hat)
-        u = s_hat * math.sqrt(K2)
-        dens = math.exp(-0.5 * w * w) / math.sqrt(2 * math.pi)
-        corr = dens * (1.0 / w - 1.0 / u)
-        if tail == "lower":
-            p = special.ndtr(w) + corr
-        else:
-            p = special.ndtr(-w) - corr
-        return TailProbability(float(min(1.0, max(0.0, p))), "saddlepoint (Lugannani-Rice)", float("nan"))

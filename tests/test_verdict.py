@@ -56,31 +56,48 @@ def test_holm_matches_statsmodels():
     # reference: statsmodels.stats.multitest.multipletests(method='holm')
     rng = np.random.default_rng(5)
     for m in (1, 2, 3, 6):
-        for _ in range(50):
+        for _ in range(3):   # few calls: each one runs a full garbage collection
             p = rng.uniform(size=m) ** 3
             np.testing.assert_allclose(holm(p), multipletests(p, method="holm")[1], rtol=1e-12)
 
 
 def test_seasonal_family_follows_holm_and_its_advice_needs_the_adjusted_p():
-    # Holm (1979) for two hypotheses: anything is rejected iff the smaller p < alpha/2; the second
-    # hypothesis's adjusted p is max(2 min(p), its own p).  Monthly index -> order-12 test in the family.
+    # Weighted Holm (Holm 1979) for two hypotheses with weights 0.8 (DW) and 0.2 (order s):
+    # something is rejected iff p_DW < 0.8 alpha or p_s < 0.2 alpha; the hypothesis taken second
+    # is then tested at the full alpha.  Monthly index -> order-12 test in the family.
     design = _design("heat pump")
     rng = np.random.default_rng(31)
     advised = 0
+    w_dw, w_s = 0.8, 0.2
     for rho in (0.0, 0.3, 0.5):
         for _ in range(15):
             d = lagsight.diagnose(**design.draw(rho, rng), remedies=False)
             v = d.verdict
-            assert v.family == (DW, SEASONAL) and v.rule == "Holm over Durbin-Watson and the order-12 test " \
-                                                            "at alpha 0.05"
+            assert v.family == (DW, SEASONAL)
+            assert v.rule == ("weighted Holm over Durbin-Watson 0.8 of alpha and the order-12 test 0.2 of "
+                              "alpha (alpha 0.05)")
             p_dw, p_s = d.tests[DW].pvalue, d.tests[SEASONAL].pvalue
-            assert (v.finding == "evidence") == (min(p_dw, p_s) < ALPHA / 2)
-            adj_s = max(min(1.0, 2 * min(p_dw, p_s)), p_s) if p_s > p_dw else min(1.0, 2 * p_s)
+            assert (v.finding == "evidence") == (p_dw < w_dw * ALPHA or p_s < w_s * ALPHA)
+            if p_s / w_s <= p_dw / w_dw:
+                adj_s = min(1.0, p_s / w_s)
+            else:
+                adj_s = max(min(1.0, p_dw / w_dw), p_s)
             assert v.adjusted_pvalue(SEASONAL) == pytest.approx(adj_s, rel=1e-12)
             says = any("seasonal terms" in s for s in v.next_steps)
             assert says == (v.finding == "evidence" and adj_s < ALPHA)
             advised += says
     assert advised < 45
+
+
+def test_weighted_holm_with_equal_weights_is_holm():
+    # the weighted step-down with equal weights is Holm's procedure (reference: statsmodels)
+    p = [0.03, 0.001, 0.2]
+    np.testing.assert_allclose(holm(p, [1, 1, 1]), multipletests(p, method="holm")[1], rtol=1e-12)
+    # weights 0.8 / 0.2 on two, by hand: p / w = 0.0375 and 0.05, so DW goes first with adjusted
+    # 0.03 * 1.0 / 0.8 = 0.0375; the order-s test then carries all the weight: max(0.0375, 0.01)
+    assert holm([0.03, 0.01], [0.8, 0.2]) == pytest.approx([0.0375, 0.0375])
+    # p / w = 0.0125 for the seasonal one (first), then DW at full alpha: max(0.0125, 0.03)
+    assert holm([0.03, 0.0025], [0.8, 0.2]) == pytest.approx([0.03, 0.0125])
 
 
 def test_seasonal_test_runs_only_when_the_period_is_known():

@@ -43,7 +43,8 @@ class LeadPlan:
 
     ``kind`` is 'regression' (OLS-type residuals with their design), 'lagged response', 'arma'
     (ARIMA-type residuals) or 'residuals' (no design).  ``family`` holds the tests the finding is
-    decided over (the leading test first; Holm's adjustment when there are two).  ``problem`` says
+    decided over (the leading test first; weighted Holm when there are two, see
+    :data:`SEASONAL_PAIR_WEIGHTS`).  ``problem`` says
     why no verdict can be given (degenerate input, too few rows), else None.
     """
 
@@ -51,6 +52,19 @@ class LeadPlan:
     leading: str
     family: tuple
     problem: str | None = None
+    weights: tuple = ()
+
+    def weight(self, name: str) -> float:
+        """The share of alpha that the weighted Holm procedure gives a family member."""
+        if not self.weights:
+            return 1.0 / max(1, len(self.family))
+        return dict(zip(self.family, self.weights)).get(name, 0.0)
+
+
+#: weighted Holm over Durbin-Watson and its order-s twin: most of alpha stays with the
+#: lag-1 test (the most powerful invariant test against AR(1) errors), so the verdict loses
+#: little power against AR(1) while still catching strong seasonal correlation alone
+SEASONAL_PAIR_WEIGHTS = (0.8, 0.2)
 
 
 @dataclass(frozen=True)
@@ -138,8 +152,10 @@ def lead_plan(data: ResidualData, *, lagged_response: str | None, seasonal_perio
         if lagged_response is not None:
             plan = LeadPlan("lagged response", DALT, (DALT,))
         else:
-            family = (DW, SEASONAL) if _seasonal_fits(n, seasonal_period, k) else (DW,)
-            plan = LeadPlan("regression", DW, family)
+            if _seasonal_fits(n, seasonal_period, k):
+                plan = LeadPlan("regression", DW, (DW, SEASONAL), weights=SEASONAL_PAIR_WEIGHTS)
+            else:
+                plan = LeadPlan("regression", DW, (DW,))
     else:
         k = max(1, data.arma_df) if not data.dw_applicable else 1
         plan = LeadPlan("arma" if not data.dw_applicable else "residuals", LB, (LB,))

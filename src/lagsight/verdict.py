@@ -3,7 +3,7 @@
 :func:`write_verdict` is the one place that decides the finding.  The leading test (or the
 family of two, Durbin-Watson and its order-s twin) is fixed beforehand by
 :func:`lagsight.battery_run.lead_plan` from the model's kind; the finding reads only that
-family's p-values, adjusted by Holm's step-down method when there are two, so that on
+family's p-values, adjusted by the weighted Holm step-down method when there are two, so that on
 white-noise errors "evidence" appears at most alpha of the time.  Every other test is shown as
 support and never changes the finding.  Every view (key figures, the sentence to paste, the
 test table's readings, the figures' marks, the panel's default test) reads the Verdict.
@@ -32,7 +32,7 @@ CAUTIONS = (
     "p-values are approximate in small samples.",
     "The runs test uses only the signs of the residuals: it needs no distributional assumption but has less "
     "power.",
-    "The finding reads the leading test only (Holm-adjusted when it is a family of two); the other tests "
+    "The finding reads the leading test only (adjusted by weighted Holm when it is a family of two); the other tests "
     "support the reading and do not change it.",
 )
 
@@ -111,7 +111,7 @@ class Verdict:
             adj = self.adjusted_pvalue(name)
             word = "evidence" if adj < self.alpha else "no evidence"
             if len(self.family) > 1:
-                return f"{word} (Holm-adjusted {format_p(adj)})"
+                return f"{word} (adjusted {format_p(adj)})"
             return f"{word} (leading test)"
         return "support: " + ("evidence" if pvalue < self.alpha else "no evidence")
 
@@ -126,19 +126,25 @@ class Verdict:
         return "\n".join(lines)
 
 
-def holm(pvalues) -> list[float]:
-    """Holm's (1979) step-down adjusted p-values, in the order given.
+def holm(pvalues, weights=None) -> list[float]:
+    """Holm's (1979) step-down adjusted p-values, in the order given, optionally weighted.
 
-    With p_(1) <= ... <= p_(m): adjusted p_(i) = max over j <= i of min(1, (m - j + 1) p_(j)).
+    Equal weights: with p_(1) <= ... <= p_(m), adjusted p_(i) = max over j <= i of
+    min(1, (m - j + 1) p_(j)).  Weights w (Holm 1979, the weighted version): hypotheses are
+    taken in order of p / w, and the j-th is compared with w_(j) alpha / (sum of the weights
+    not yet rejected), so adjusted p_(j) = max over l <= j of min(1, p_(l) W_l / w_(l)).
     (Written out here: statsmodels' multipletests runs a full garbage collection on every call.)
     """
     p = [float(v) for v in pvalues]
     m = len(p)
+    w = [1.0] * m if weights is None else [float(v) for v in weights]
     out = [0.0] * m
     running = 0.0
-    for rank, i in enumerate(sorted(range(m), key=p.__getitem__)):
-        running = max(running, min(1.0, (m - rank) * p[i]))
+    remaining = sum(w)
+    for i in sorted(range(m), key=lambda j: p[j] / w[j]):
+        running = max(running, min(1.0, p[i] * remaining / w[i]))
         out[i] = running
+        remaining -= w[i]
     return out
 
 
@@ -146,10 +152,13 @@ def _p(res) -> float:
     return math.nan if res is None else float(res.pvalue)
 
 
-def _rule(family: tuple, alpha: float, seasonal_period) -> str:
+def _rule(family: tuple, alpha: float, seasonal_period, plan: LeadPlan | None = None) -> str:
     if len(family) == 1:
         return f"leading test {family[0]} at alpha {alpha:g}"
     names = [f"the order-{seasonal_period} test" if n == SEASONAL else n for n in family]
+    if plan is not None and plan.weights:
+        shares = " and ".join(f"{name} {plan.weight(n):g} of alpha" for name, n in zip(names, family))
+        return f"weighted Holm over {shares} (alpha {alpha:g})"
     return f"Holm over {' and '.join(names)} at alpha {alpha:g}"
 
 
@@ -249,7 +258,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
         The rows tested are not in time order: the finding is 'not meaningful'.
     """
     errors = errors or {}
-    rule = _rule(plan.family, alpha, seasonal_period)
+    rule = _rule(plan.family, alpha, seasonal_period, plan)
     blocked = _cannot_judge(plan, tests, errors, alpha, rule)
     if blocked is not None:
         return blocked
@@ -266,18 +275,18 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
 
     family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
     raw = [_p(tests[name]) for name in family]
-    adjusted = holm(raw)
-    rule = _rule(family, alpha, seasonal_period)
+    adjusted = holm(raw, [plan.weight(name) for name in family])
+    rule = _rule(family, alpha, seasonal_period, plan)
     p_family = min(adjusted)
     found = p_family < alpha
     level = strength(p_family, alpha)
     significant = [name for name, a in zip(family, adjusted) if a < alpha]
 
     details = [f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
-               + ("this test." if len(family) == 1 else "these two tests, Holm-adjusted.")]
+               + ("this test." if len(family) == 1 else "these two tests, adjusted by weighted Holm.")]
     for name, p, a in zip(family, raw, adjusted):
         res = tests[name]
-        adj = f", Holm-adjusted {format_p(a)}" if len(family) > 1 else ""
+        adj = f", adjusted {format_p(a)}" if len(family) > 1 else ""
         details.append(f"{name}: statistic {res.statistic:.4g}, {format_p(p)}{adj} "
                        f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g}).")
     details += _support_details(tests, family, alpha)
@@ -293,7 +302,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
-    lead_words = format_p(raw[0]) if len(family) == 1 else f"Holm-adjusted {format_p(p_family)}"
+    lead_words = format_p(raw[0]) if len(family) == 1 else f"adjusted {format_p(p_family)}"
     steps = []
     if found:
         where = " and ".join(_what(name, tests[name], alternative, seasonal_period) for name in significant)

@@ -148,7 +148,7 @@ def _p_text(res, alt: str, verdict) -> str:
     if DW not in verdict.family:
         role = f"support; {verdict.leading} leads" if verdict.leading else "support"
     elif len(verdict.family) > 1:
-        role = f"Holm-adjusted p = {format_pvalue(verdict.adjusted_pvalue(DW))}"
+        role = f"adjusted p = {format_pvalue(verdict.adjusted_pvalue(DW))}"
     else:
         role = f"{verdict.finding} at \u03b1 = {verdict.alpha:g}"
     return f"{value}\n({side})\n{role}"

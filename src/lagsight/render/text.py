@@ -136,7 +136,7 @@ def key_figures(diag) -> list[tuple[str, str]]:
     """(label, value) pairs for the headline: the finding, the leading test, n, k', alpha, order.
 
     Every figure comes from the verdict: the leading test's statistic, the family's p-value
-    (Holm-adjusted for two), the rule; no p-value when the rows are not in time order.
+    (weighted-Holm adjusted for two), the rule; no p-value when the rows are not in time order.
     """
     v = diag.verdict
     out = [("finding", v.finding)]
@@ -147,7 +147,7 @@ def key_figures(diag) -> list[tuple[str, str]]:
         if v.finding == "not meaningful":
             out.append(("p-value", "not meaningful (rows not in time order)"))
         elif v.judged:
-            label = "Holm-adjusted p" if len(v.family) > 1 else "p-value"
+            label = "adjusted p" if len(v.family) > 1 else "p-value"
             out.append((label, format_pvalue(v.pvalue)))
         if lead == DW:
             out.append(("implied rho", format_number(1 - res.statistic / 2, 3)))

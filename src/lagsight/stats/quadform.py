@@ -201,16 +201,21 @@ class SpectralForm:
         return float(p1), float(p2)
 
     # -- evaluation of log det and the resolvent trace ----------------------
-    def evaluate(self, z, c, trace: bool = False):
+    def evaluate(self, z, c, trace: bool = False, nats=40.0):
         """log det(I - z P'(A - cI)P) and, optionally, tr (I - z P'(A-cI)P)^{-1}.
 
         ``z`` is an array of complex multipliers with Re(1 - z e) > 0; ``c`` a
-        scalar or an array of the same shape (one c per multiplier).
+        scalar or an array of the same shape (one c per multiplier).  ``nats``
+        (scalar or one per multiplier) is the accuracy asked of the log det,
+        about exp(-nats) absolute: points whose contribution is known to be tiny
+        can ask for less, which keeps the Chebyshev degree down.
         """
         z = np.asarray(z, dtype=complex).ravel()
         c = np.broadcast_to(np.asarray(c, dtype=float).ravel(), z.shape)
+        nats = np.broadcast_to(np.asarray(nats, dtype=float).ravel(), z.shape)
         if z.size > _EVAL_BLOCK:
-            parts = [self.evaluate(z[s : s + _EVAL_BLOCK], c[s : s + _EVAL_BLOCK], trace)
+            parts = [self.evaluate(z[s : s + _EVAL_BLOCK], c[s : s + _EVAL_BLOCK], trace,
+                                   nats[s : s + _EVAL_BLOCK])
                      for s in range(0, z.size, _EVAL_BLOCK)]
             return (np.concatenate([p[0] for p in parts]),
                     np.concatenate([p[1] for p in parts]) if trace else None)
@@ -220,10 +225,10 @@ class SpectralForm:
         degree = np.zeros(z.shape, int)
         if self.W is None and self.nu.size >= 500:
             # only scalar moments are needed: Chebyshev pays off at once
-            degree = self._degree_needed(z, c)
+            degree = self._degree_needed(z, c, nats)
             use_cheb = degree <= min(_CHEB_MAX_DEGREE, self.nu.size // 2)
         elif self.nu.size >= _CHEB_MIN_N:
-            degree = self._degree_needed(z, c)
+            degree = self._degree_needed(z, c, nats)
             use_cheb = degree <= min(_CHEB_MAX_DEGREE, self.nu.size // 8)
         for path, idx in ((True, np.flatnonzero(use_cheb)), (False, np.flatnonzero(~use_cheb))):
             if not idx.size:
@@ -237,14 +242,14 @@ class SpectralForm:
                 tr[idx] = t
         return logdet, tr
 
-    def _degree_needed(self, z, c):
+    def _degree_needed(self, z, c, nats=40.0):
         with np.errstate(divide="ignore", invalid="ignore"):
             a = 1.0 - z * (2.0 - c)
             b = 2.0 * z
             xs = a / b
             root = np.sqrt(xs * xs - 1.0)
             rho = np.maximum(np.abs(xs + root), np.abs(xs - root))
-            deg = np.ceil(40.0 / np.log(rho)) + 3
+            deg = np.ceil(nats / np.log(rho)) + 3
         deg = np.where(np.isfinite(deg), deg, 10**9)
         return np.maximum(deg, 4).astype(np.int64)
 

@@ -193,12 +193,13 @@ class _Line:
         return L, L1, L2, True
 
     # -- vertical line ----------------------------------------------------------------
-    def line(self, s0: float, y: np.ndarray, bad: np.ndarray):
-        """L(s0 + iy) for y >= 0.  With ``bad`` non-empty also returns the raw phase data
-        (phase of the bordered determinant and its derivative in y) for unwrapping."""
+    def line(self, s0: float, y: np.ndarray, bad: np.ndarray, nats=40.0):
+        """L(s0 + iy) for y >= 0, to about exp(-nats) absolute.  With ``bad`` non-empty also
+        returns the raw phase data (phase of the bordered determinant and its derivative in y)
+        for unwrapping."""
         s = s0 + 1j * np.asarray(y, float)
         if not self.bordered(s0, bad):
-            ld, _ = self.form.evaluate(2.0 * s, self.c)
+            ld, _ = self.form.evaluate(2.0 * s, self.c, nats=nats)
             return ld, None, None
         out = np.empty(s.size, complex)
         phase = np.empty(s.size)
@@ -364,28 +365,51 @@ def _line_integral(line: _Line, s0: float, L0: float, a: float, bad: np.ndarray,
     Returns (J, relative error estimate).
     """
     unwrap = line.bordered(s0, bad)
-    cols = {"u": [], "y": [], "ld": [], "ph": [], "dp": []}
+    cols = {"u": [], "y": [], "ld": [], "ph": [], "dp": [], "g": []}
 
-    def add(u):
+    def magnitude(y, ld):
+        """|integrand| before the weight dy/du; it decreases in y."""
+        return np.exp(-0.5 * (ld.real - L0)) * np.abs(s0 / (s0 + 1j * y))
+
+    def nats_for(y, top):
+        """Accuracy needed at each node: |g| is decreasing, so the largest evaluated y' <= y
+        bounds it; a node that can contribute at most 1e-q of the peak needs q fewer digits."""
+        if not cols["y"]:
+            return np.full(y.shape, 40.0)
+        ys = np.concatenate(cols["y"])
+        gs = np.concatenate(cols["g"])
+        order = np.argsort(ys)
+        ys, gs = ys[order], np.minimum.accumulate(gs[order])
+        idx = np.searchsorted(ys, y, side="right") - 1
+        bound = np.where(idx >= 0, gs[np.maximum(idx, 0)], top) * np.hypot(a, y)
+        with np.errstate(divide="ignore"):
+            drop = np.log(top / np.maximum(bound, 1e-300))
+        return np.clip(40.0 - np.maximum(drop, 0.0), 12.0, 40.0)
+
+    def add(u, top=None):
         y = a * np.sinh(u)
-        ld, ph, dp = line.line(s0, y, bad)
+        nats = nats_for(y, top) if top is not None else 40.0
+        ld, ph, dp = line.line(s0, y, bad, nats)
+        g = magnitude(y, ld)
         cols["u"].append(u)
         cols["y"].append(y)
         cols["ld"].append(ld)
+        cols["g"].append(g)
         if unwrap:
             cols["ph"].append(ph)
             cols["dp"].append(dp)
-        return np.exp(-0.5 * (ld.real - L0)) * np.abs(s0 / (s0 + 1j * y)) * np.hypot(a, y)
+        return g * np.hypot(a, y)
 
-    # coarse level: extend until the integrand's magnitude (which decreases in y) is negligible
+    # coarse level, a few nodes at a time so that each batch knows how small it can be;
+    # extended until the integrand's magnitude is negligible
     h = 0.5
-    mag = add(h * np.arange(16))
+    mag = add(np.array([0.0, h]))
     top = float(mag.max())
-    u_last = 15 * h
+    u_last = h
     while mag[-1] > 1e-18 * top and u_last < 120.0:
-        mag = add(u_last + h * np.arange(1, 17))
+        mag = add(u_last + h * np.arange(1, 5), top)
         top = max(top, float(mag.max()))
-        u_last += 16 * h
+        u_last += 4 * h
     u_max = u_last
 
     def total(h):
@@ -403,7 +427,7 @@ def _line_integral(line: _Line, s0: float, L0: float, a: float, bad: np.ndarray,
     J_old, worst = total(h)
     errs = []
     for level in range(_MAX_LEVELS):
-        add(h * (np.arange(int(round(u_max / h))) + 0.5))
+        add(h * (np.arange(int(round(u_max / h))) + 0.5), top)
         h *= 0.5
         J_new, worst = total(h)
         errs.append(abs(J_new - J_old) / abs(J_new) if J_new != 0 else math.inf)

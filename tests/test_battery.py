@@ -300,3 +300,25 @@ def test_runs_zeros_dropped_and_errors():
         runs_test(e, alternative="greater")
     with pytest.raises(ValueError, match="'method'"):
         runs_test(e, method="fast")
+
+
+def test_seasonal_lag_test_is_the_t_ratio_of_the_lag_s_coefficient():
+    # reference: the same auxiliary regression solved by numpy's least squares, t-ratio by hand
+    from lagsight.stats.battery import seasonal_lag_test
+    rng = np.random.default_rng(12)
+    n, s = 80, 4
+    X = np.column_stack([np.ones(n), rng.normal(size=n)])
+    y = X @ [1.0, 2.0] + rng.normal(size=n)
+    e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
+    res = seasonal_lag_test(e, X, period=s, alternative="positive")
+    A = np.column_stack([X[s:], e[s - 1:n - 1], e[:n - s]])
+    b, *_ = np.linalg.lstsq(A, e[s:], rcond=None)
+    r = e[s:] - A @ b
+    sigma2 = r @ r / (A.shape[0] - A.shape[1])
+    t = b[-1] / np.sqrt(sigma2 * np.linalg.inv(A.T @ A)[-1, -1])
+    assert abs(res.statistic - t) < 1e-10
+    assert res.df == (A.shape[0] - A.shape[1],)
+    # large t means positive correlation: the positive alternative is the upper tail
+    assert abs(res.pvalue - stats.t.sf(t, A.shape[0] - A.shape[1])) < 1e-12
+    with pytest.raises(ValueError, match="'period'"):
+        seasonal_lag_test(e, X, period=1)

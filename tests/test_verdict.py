@@ -332,3 +332,47 @@ def test_report_help_documents_the_exit_status():
     assert proc.returncode == 0
     for line in ("0  no evidence", "1  evidence", "2  usage or input error", "3  cannot judge"):
         assert line in proc.stdout
+
+
+# ----------------------------------------------------------------------------- seasonal advice
+def _monthly_errors_fit(rng, errors):
+    n = 96
+    idx = pd.date_range("2016-01-01", periods=n, freq="MS")
+    X = np.column_stack([np.ones(n), np.cos(2 * np.pi * np.arange(n) / 12 + 0.4)])
+    y = X @ [1.0, 0.5] + errors(n, rng)
+    e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
+    return {"model": pd.Series(e, index=idx), "exog": X}
+
+
+def _seasonal_ar(n, rng, phi=0.5, s=12, burn=60):
+    u = np.zeros(n + burn)
+    eps = rng.normal(size=n + burn)
+    for t in range(s, n + burn):
+        u[t] = phi * u[t - s] + eps[t]
+    return u[burn:]
+
+
+def test_seasonal_advice_is_not_set_off_by_lag1_correlation():
+    # AR(1) errors with rho = 0.8 have no partial correlation at lag 12 (an AR(1) property), yet
+    # the order-12 Durbin-Watson statistic (which assumes independent errors) rejects far more
+    # than alpha there; the advice also needs the lag-12 coefficient given lag 1, so it appears
+    # at most alpha of the time (within 3 Monte Carlo standard errors)
+    rng = np.random.default_rng(77)
+    reps, advised, raw = 150, 0, 0
+    for _ in range(reps):
+        d = lagsight.diagnose(**_monthly_errors_fit(rng, lambda n, r: ar1_errors(n, 0.8, r)), remedies=False)
+        advised += any("seasonal terms" in s for s in d.verdict.next_steps)
+        raw += d.tests[SEASONAL].pvalue < ALPHA
+    se = math.sqrt(ALPHA * (1 - ALPHA) / reps)
+    assert advised / reps <= ALPHA + 3 * se
+    assert raw > advised      # the order-12 test alone would have advised more often
+
+
+def test_seasonal_advice_finds_seasonal_errors():
+    # errors u_t = 0.5 u_{t-12} + e_t: the advice should appear in most draws
+    rng = np.random.default_rng(78)
+    reps = 40
+    advised = sum(any("seasonal terms" in s for s in
+                      lagsight.diagnose(**_monthly_errors_fit(rng, _seasonal_ar), remedies=False).verdict.next_steps)
+                  for _ in range(reps))
+    assert advised / reps >= 0.8

@@ -21,7 +21,7 @@ from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin
 from .stats._arrays import unit_columns, unit_scale
 from .stats.results import TestResult
 
-__all__ = ["BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
+__all__ = ["SEASONAL_GIVEN", "BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
            "ljung_box_lag", "MIN_PORTMANTEAU_N"]
 
 # test names, used as keys of Diagnosis.tests and as labels in every view
@@ -31,6 +31,7 @@ LB = "Ljung-Box"
 DH = "Durbin's h"
 DALT = "Durbin's alternative"
 SEASONAL = "Seasonal Durbin-Watson"
+SEASONAL_GIVEN = "Seasonal lag given lag 1"
 RUNS = "Runs test"
 
 #: fewest observations for a verdict led by the large-sample Ljung-Box test (our own threshold)
@@ -248,6 +249,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         else:
             attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period,
                                                     alpha=settings.alpha))
+            attempt(SEASONAL_GIVEN, lambda: battery.seasonal_lag_test(e, exog, period=period, alternative=alt))
 
     # runs test on signs
     attempt(RUNS, lambda: runs.runs_test(e, alternative=alt))

@@ -18,7 +18,7 @@ from html import escape
 from pathlib import Path
 
 from . import display as views
-from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL
+from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from .display import SNAPSHOT_CLASS, _message, error_box, snapshot_bundle, widget_bundle
 
 __all__ = ["DiagnosisPanel", "ALPHAS", "ALTERNATIVES", "BANDS", "TEST_ORDER"]
@@ -29,7 +29,7 @@ ALTERNATIVES = ("positive", "negative", "two-sided")
 #: correlogram bands: (label, value)
 BANDS = (("white noise", "white"), ("Bartlett", "bartlett"))
 #: order of the test toggles
-TEST_ORDER = (DW, DH, DALT, BG, LB, SEASONAL, RUNS)
+TEST_ORDER = (DW, DH, DALT, BG, LB, SEASONAL, SEASONAL_GIVEN, RUNS)
 
 #: figures in the static snapshot, as PNG (sanitizing viewers drop inline SVG); the rest stay live only
 SNAPSHOT_FIGURES = ("scale", "correlogram")

@@ -13,7 +13,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, LeadPlan, strength
+from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN, LeadPlan, strength
 
 __all__ = ["Verdict", "write_verdict", "holm", "CAUTIONS", "FINDINGS", "format_p"]
 
@@ -190,7 +190,7 @@ def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
             out.append(f"Durbin's h = {dh.statistic:.3f} uses rho-hat = 1 - d/2 = {dh.rho:.3f} (from the "
                        f"Durbin-Watson d = {dh.dw:.3f}), {format_p(dh.pvalue)}; shown beside Durbin's "
                        "alternative test, it does not change the finding.")
-    for name in (DW, SEASONAL, BG, LB, RUNS):
+    for name in (DW, SEASONAL, SEASONAL_GIVEN, BG, LB, RUNS):
         res = tests.get(name)
         if name in family or res is None or math.isnan(res.pvalue):
             continue
@@ -325,7 +325,15 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             if not math.isnan(remedies.rho):
                 steps.append(f"Estimated AR(1) coefficient of the errors: rho = {remedies.rho:.3f}.")
         if SEASONAL in significant:
-            steps.append("Add seasonal terms (dummies or Fourier terms) or a seasonal lag to the model.")
+            # the order-s statistic assumes independent errors: with lag-1 correlation its null is
+            # wrong, so the advice also needs the lag-s coefficient given lag 1 (regression form)
+            given = tests.get(SEASONAL_GIVEN)
+            if given is not None and given.pvalue < alpha:
+                steps.append("Add seasonal terms (dummies or Fourier terms) or a seasonal lag to the model.")
+            elif given is not None:
+                details.append(f"The order-{seasonal_period} test is significant, but the lag-{seasonal_period} "
+                               f"coefficient given lag 1 is not ({format_p(given.pvalue)}): the seasonal signal "
+                               "can be the lag-1 correlation carried forward, so no seasonal terms are advised.")
         if plan.kind == "residuals":
             steps.append("Pass the fitted model (or exog=) for the exact Durbin-Watson test and corrected "
                          "inference.")

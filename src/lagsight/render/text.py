@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 
-from ..battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL
+from ..battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from ..stats.power import TARGET_POWER
 
 __all__ = [
@@ -40,7 +40,7 @@ TEST_COLUMNS = ("test", "statistic", "p-value", "looks for", "reading", "method"
 
 _LOOKS_FOR = {"positive": "positive correlation", "negative": "negative correlation",
               "two-sided": "correlation of either sign"}
-_SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", RUNS: "z"}
+_SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", SEASONAL_GIVEN: "t", RUNS: "z"}
 
 
 def format_pvalue(p) -> str:

@@ -22,7 +22,7 @@ from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
     "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "DurbinAlternativeResult",
-    "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative",
+    "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative", "seasonal_lag_test",
     "detect_lagged_response",
 ]
 
@@ -395,4 +395,42 @@ def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> Test
         alternative="two-sided", df=(float(order), float(ft.df_denom)),
         method=f"F-test of the {order} lagged-residual coefficients",
         name="Durbin's alternative", notes=notes,
+    )
+
+
+def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinAlternativeResult:
+    """Correlation at lag s beyond what lag 1 carries: regress e_t on exog_t, e_{t-1} and
+    e_{t-s} (t = s .. n-1) and take the t-ratio of the e_{t-s} coefficient.
+
+    The order-s Durbin-Watson statistic assumes independent errors; under AR(1) errors its
+    null distribution is wrong (its rejection rate grows with rho although an AR(1) process
+    has no partial correlation at lag s).  This regression form, Durbin's alternative test
+    with the lags 1 and s, stays valid with lag-1 correlation (large sample).  Large t
+    means positive correlation at lag s.
+    """
+    check_alternative(alternative)
+    e = as_vector(resid, "resid", min_len=3)
+    n = e.shape[0]
+    period = check_int(period, "period", minimum=2)
+    e, _ = _unit(e)
+    X, _ = _unit_columns(exog, n, full_rank=True)
+    k = X.shape[1]
+    m = n - period
+    if m <= k + 2:
+        raise ValueError(f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 "
+                         f"(got period={period})")
+    aux = np.column_stack([X[period:], e[period - 1: n - 1], e[: n - period]])
+    fit = OLS(e[period:], aux).fit()
+    t = float(fit.tvalues[-1])
+    df = float(fit.df_resid)
+    lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
+    notes = (
+        f"The first {period} observations are dropped (their lag-{period} residuals are pre-sample); "
+        f"{m} rows used.",
+        "Large-sample test; assumes homoskedastic errors and resid the OLS residuals of exog.",
+    )
+    return DurbinAlternativeResult(
+        statistic=t, pvalue=_upper_means_positive(lower, upper, alternative), alternative=alternative,
+        df=(df,), method=f"t-test of the e_(t-{period}) coefficient given e_(t-1), Student t",
+        name=f"Lag {period} given lag 1", notes=notes, lower_tail=lower, upper_tail=upper,
     )

@@ -88,9 +88,11 @@ def _orthonormal_basis(X: np.ndarray):
     R decides the rank.
     """
     n, k = X.shape
-    # column scaling keeps Gram matrices finite for any magnitude of the data
+    # column scaling keeps Gram matrices finite for any magnitude of the data (the basis does
+    # not depend on it); skipped, with its copy of X, when every column is of ordinary size
     top = np.max(np.abs(X), axis=0)
-    X = X / np.where(top > 0, top, 1.0)
+    if np.any((top > 1e100) | ((top < 1e-100) & (top > 0))):
+        X = X / np.where(top > 0, top, 1.0)
     if n >= 20_000:
         G = X.T @ X
         scale = np.sqrt(np.diag(G))
@@ -264,7 +266,13 @@ class DurbinWatsonDistribution:
         logarithm stays finite when the value underflows to 0).
         """
         d = float(d)
-        lower = float(self._body(np.array([d]))[0])
+        z = (d - self.mean) / math.sqrt(self.var) if self.var > 0 else 0.0
+        if abs(z) > 6.0:
+            # far outside the body (the normal tail there is 1e-9): the small tail is computed on
+            # the saddle line, which is exact at any level, without the Imhof pass first
+            lower = 0.0 if z < 0 else 1.0
+        else:
+            lower = float(self._body(np.array([d]))[0])
         upper = 1.0 - lower
         method = "exact (Imhof inversion)"
         logs = [math.log(lower) if lower > 0 else -math.inf, math.log(upper) if upper > 0 else -math.inf]

@@ -206,3 +206,22 @@ def test_scale_free(scale):
     assert abs(scaled.statistic - base.statistic) < 1e-12
     assert abs(scaled.pvalue - base.pvalue) <= 1e-9 * base.pvalue
     assert not any("not orthogonal" in n for n in scaled.notes)
+
+
+def test_underflowed_p_value_is_written_from_its_logarithm():
+    # a regression whose residuals follow a smooth wave: d is tiny, P(d <= d_obs) ~ 1e-500 (below
+    # the smallest double); the verdict and the sentence to paste give it from log10 p
+    from lagsight.render.text import report_sentence
+    n = 800
+    rng = np.random.default_rng(21)
+    X = np.column_stack([np.ones(n), rng.normal(size=n)])
+    y = X @ [1.0, 1.0] + np.sin(np.arange(n) / 40.0) * 5 + 0.05 * rng.normal(size=n)
+    fit = __import__("statsmodels.api", fromlist=["OLS"]).OLS(y, X).fit()
+    d = lagsight.diagnose(fit, remedies=False)
+    res = d.tests["Durbin-Watson"]
+    assert res.pvalue == 0.0 and res.log10_pvalue < -330
+    log_ref = log_dense_tail(X, res.statistic, "lower") / math.log(10)
+    assert abs(res.log10_pvalue - log_ref) < 1e-6 * abs(log_ref)
+    exponent = math.floor(res.log10_pvalue)
+    assert f"e{exponent}" in d.verdict.headline
+    assert f"e{exponent}" in report_sentence(d, "text")

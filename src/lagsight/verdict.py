@@ -15,7 +15,7 @@ from dataclasses import dataclass
 
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN, LeadPlan, strength
 
-__all__ = ["Verdict", "write_verdict", "holm", "CAUTIONS", "FINDINGS", "format_p"]
+__all__ = ["Verdict", "write_verdict", "holm", "CAUTIONS", "FINDINGS", "format_p", "tiny_p_text", "log10_p"]
 
 #: the four findings
 FINDINGS = ("evidence", "no evidence", "not meaningful", "cannot judge")
@@ -56,12 +56,31 @@ _CONSEQUENCE = {
 }
 
 
-def format_p(p: float) -> str:
-    """'p = 0.012', 'p = 3.1e-05', or 'p < 1e-300' when the tail underflows."""
+def tiny_p_text(log10) -> str:
+    """A p-value below the smallest double written from its log10 ('3.2e-570'), or '< 1e-300'
+    when the logarithm is not known."""
+    if log10 is None or not math.isfinite(log10):
+        return "< 1e-300"
+    exp = math.floor(log10)
+    mant = 10.0 ** (log10 - exp)
+    if mant >= 9.95:
+        mant, exp = 1.0, exp + 1
+    return f"{mant:.1f}e{exp}"
+
+
+def log10_p(res):
+    """log10 of a result's p-value where the test keeps it (exact Durbin-Watson), else None."""
+    return getattr(res, "log10_pvalue", None)
+
+
+def format_p(p: float, log10=None) -> str:
+    """'p = 0.012', 'p = 3.1e-05'; below the smallest double 'p = 3.2e-570' from ``log10``
+    (or 'p < 1e-300' without it)."""
     if p is None or math.isnan(p):
         return "p = n/a"
     if p == 0.0:
-        return "p < 1e-300"
+        text = tiny_p_text(log10)
+        return f"p {text}" if text.startswith("<") else f"p = {text}"
     return f"p = {p:.2g}" if p < 0.001 else f"p = {p:.3f}"
 
 
@@ -287,7 +306,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     for name, p, a in zip(family, raw, adjusted):
         res = tests[name]
         adj = f", adjusted {format_p(a)}" if len(family) > 1 else ""
-        details.append(f"{name}: statistic {res.statistic:.4g}, {format_p(p)}{adj} "
+        details.append(f"{name}: statistic {res.statistic:.4g}, {format_p(p, log10_p(res))}{adj} "
                        f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g}).")
     details += _support_details(tests, family, alpha)
     dw = tests.get(DW)
@@ -302,7 +321,8 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
-    lead_words = format_p(raw[0]) if len(family) == 1 else f"adjusted {format_p(p_family)}"
+    lead_words = (format_p(raw[0], log10_p(tests[family[0]])) if len(family) == 1
+                  else f"adjusted {format_p(p_family)}")
     steps = []
     if found:
         where = " and ".join(_what(name, tests[name], alternative, seasonal_period) for name in significant)

@@ -141,7 +141,7 @@ def _p_text(res, alt: str, verdict) -> str:
         dec = getattr(res, "bounds_decision", None)
         return "no exact p-value" + (f"\nbounds: {dec}" if dec else "")
     method = str(res.method)
-    p = format_pvalue(res.pvalue)
+    p = format_pvalue(res.pvalue, getattr(res, "log10_pvalue", None))
     value = f"exact p = {p}" if method.startswith("exact") else (
         f"p \u2248 {p} (saddlepoint)" if method.startswith("saddlepoint") else f"p = {p}")
     side = {"positive": "positive alternative", "negative": "negative alternative"}.get(alt, "two-sided")

@@ -11,6 +11,7 @@ import numpy as np
 
 from ..battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from ..stats.power import TARGET_POWER
+from ..verdict import log10_p, tiny_p_text
 
 __all__ = [
     "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
@@ -43,13 +44,14 @@ _LOOKS_FOR = {"positive": "positive correlation", "negative": "negative correlat
 _SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", SEASONAL_GIVEN: "t", RUNS: "z"}
 
 
-def format_pvalue(p) -> str:
-    """A p-value for display: 3 decimals, or 2 significant digits below 0.001."""
+def format_pvalue(p, log10=None) -> str:
+    """A p-value for display: 3 decimals, or 2 significant digits below 0.001; below the smallest
+    double from its ``log10`` when known ('3.2e-570')."""
     if p is None or (isinstance(p, float) and math.isnan(p)):
         return "n/a"
     p = float(p)
     if p <= 0.0:
-        return "< 1e-300"
+        return tiny_p_text(log10)
     if p < 0.001:
         return f"{p:.2g}"
     return f"{p:.3f}"
@@ -105,7 +107,7 @@ def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
         else:
             reading = v.reading(name, p)
         looks = _LOOKS_FOR.get(res.alternative, str(res.alternative))
-        shown = "not meaningful" if v.finding == "not meaningful" else format_pvalue(p)
+        shown = "not meaningful" if v.finding == "not meaningful" else format_pvalue(p, log10_p(res))
         rows.append((name, statistic_label(name, res), shown, looks, reading, str(res.method)))
     for name, msg in diag.errors.items():
         rows.append((name, "", "", "", f"not run: {msg}", ""))
@@ -148,7 +150,7 @@ def key_figures(diag) -> list[tuple[str, str]]:
             out.append(("p-value", "not meaningful (rows not in time order)"))
         elif v.judged:
             label = "adjusted p" if len(v.family) > 1 else "p-value"
-            out.append((label, format_pvalue(v.pvalue)))
+            out.append((label, format_pvalue(v.pvalue, log10_p(res) if len(v.family) == 1 else None)))
         if lead == DW:
             out.append(("implied rho", format_number(1 - res.statistic / 2, 3)))
             bounds = getattr(res, "bounds", None)
@@ -253,7 +255,7 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     pword = f"{it('p')}-value"
     if exact and method:
         pword = f"exact {pword}"
-    tail = f"{pword} {format_pvalue(res.pvalue)} {alt}"
+    tail = f"{pword} {format_pvalue(res.pvalue, log10_p(res))} {alt}"
     if method:
         tail += f" ({method})"
     if name in v.family and len(v.family) > 1:

@@ -267,26 +267,32 @@ class DurbinWatsonDistribution:
         """
         d = float(d)
         z = (d - self.mean) / math.sqrt(self.var) if self.var > 0 else 0.0
-        if abs(z) > 6.0:
-            # far outside the body (the normal tail there is 1e-9): the small tail is computed on
-            # the saddle line, which is exact at any level, without the Imhof pass first
-            lower = 0.0 if z < 0 else 1.0
-        else:
-            lower = float(self._body(np.array([d]))[0])
+        far_out = abs(z) > 6.0
+        # far outside the body (the normal tail there is 1e-9) the small tail is computed on the
+        # saddle line, which is exact at any level, without the Imhof pass first
+        lower = (0.0 if z < 0 else 1.0) if far_out else float(self._body(np.array([d]))[0])
         upper = 1.0 - lower
-        method = "exact (Imhof inversion)"
-        logs = [math.log(lower) if lower > 0 else -math.inf, math.log(upper) if upper > 0 else -math.inf]
-        if min(lower, upper) < TAIL_SWITCH:
-            side = 0 if lower < upper else 1
+        if min(lower, upper) >= TAIL_SWITCH:
+            return lower, upper, "exact (Imhof inversion)", (_log(lower), _log(upper))
+        side = 0 if lower < upper else 1
+        try:
             res = self.tail(d, ("lower", "upper")[side])
-            if side == 0:
-                lower, upper = res.value, 1.0 - res.value
-            else:
-                lower, upper = 1.0 - res.value, res.value
-            logs = [math.log1p(-res.value), math.log1p(-res.value)]
-            logs[side] = res.log_value
-            method = res.method
-        return lower, upper, method, tuple(logs)
+        except (RuntimeError, ValueError, np.linalg.LinAlgError) as err:
+            if far_out:
+                lower = float(self._body(np.array([d]))[0])
+                upper = 1.0 - lower
+            why = str(err).splitlines()[0]
+            return (lower, upper, f"Imhof inversion, 1e-12 absolute only (the relative-accuracy tail failed: {why})",
+                    (_log(lower), _log(upper)))
+        small, large = res.value, 1.0 - res.value
+        logs = [math.log1p(-small), math.log1p(-small)]
+        logs[side] = res.log_value
+        lower, upper = (small, large) if side == 0 else (large, small)
+        return lower, upper, res.method, tuple(logs)
+
+
+def _log(p: float) -> float:
+    return math.log(p) if p > 0 else -math.inf
 
 
 def dw_distribution(exog, *, lag: int = 1, blocks=None) -> DurbinWatsonDistribution:

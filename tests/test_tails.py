@@ -225,3 +225,20 @@ def test_underflowed_p_value_is_written_from_its_logarithm():
     exponent = math.floor(res.log10_pvalue)
     assert f"e{exponent}" in d.verdict.headline
     assert f"e{exponent}" in report_sentence(d, "text")
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_scale_free_on_the_large_n_path(scale):
+    # n >= 20,000 takes the Gram-matrix (Cholesky QR) route to the basis, where X'X would
+    # overflow or underflow at these scales: same d and the same log p as unscaled data
+    rng = np.random.default_rng(10)
+    n = 25_000
+    X = np.column_stack([np.ones(n), rng.normal(size=(n, 2))])
+    y = X @ [1.0, 2.0, 3.0] + np.cumsum(rng.normal(size=n)) * 0.002 + rng.normal(size=n)
+    e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
+    base = lagsight.durbin_watson(e, X)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        scaled = lagsight.durbin_watson(e * scale, X * scale)
+    assert abs(scaled.statistic - base.statistic) < 1e-12
+    assert abs(scaled.log10_pvalue - base.log10_pvalue) <= 1e-8 * abs(base.log10_pvalue)

@@ -88,13 +88,16 @@ def _orthonormal_basis(X: np.ndarray):
     R decides the rank.
     """
     n, k = X.shape
-    # column scaling keeps Gram matrices finite for any magnitude of the data (the basis does
-    # not depend on it); skipped, with its copy of X, when every column is of ordinary size
-    top = np.max(np.abs(X), axis=0)
-    if np.any((top > 1e100) | ((top < 1e-100) & (top > 0))):
-        X = X / np.where(top > 0, top, 1.0)
     if n >= 20_000:
-        G = X.T @ X
+        with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+            G = X.T @ X
+        diag = np.diag(G)
+        if not (np.all(np.isfinite(G)) and np.all((diag == 0) | (diag > 1e-280))):
+            # data of extreme magnitude (1e200, 1e-200): the basis does not depend on column
+            # scale, so scale the columns and form the Gram matrix again (copying X only then)
+            top = np.max(np.abs(X), axis=0)
+            X = X / np.where(top > 0, top, 1.0)
+            G = X.T @ X
         scale = np.sqrt(np.diag(G))
         if np.all(scale > 0):
             Gs = G / np.outer(scale, scale)

@@ -13,6 +13,8 @@ import warnings
 
 import numpy as np
 import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 from scipy import fft, optimize
 
 import lagsight
@@ -242,3 +244,27 @@ def test_scale_free_on_the_large_n_path(scale):
         scaled = lagsight.durbin_watson(e * scale, X * scale)
     assert abs(scaled.statistic - base.statistic) < 1e-12
     assert abs(scaled.log10_pvalue - base.log10_pvalue) <= 1e-8 * abs(base.log10_pvalue)
+
+
+@settings(max_examples=int(__import__("os").environ.get("LAGSIGHT_TAIL_EXAMPLES", "15")), deadline=None)
+@given(
+    n=st.integers(6, 40), k=st.integers(1, 4), intercept=st.booleans(), lag=st.sampled_from([1, 1, 2, 4]),
+    tail=st.sampled_from(["lower", "upper"]), closeness=st.floats(0.02, 9.0), seed=st.integers(0, 10**6),
+)
+def test_random_designs_in_the_tails_match_dense_reference(n, k, intercept, lag, tail, closeness, seed):
+    # property: for random designs (with or without a constant, lag 1, 2 or 4) and a c between
+    # the mean and the end of the support, engine and dense reference agree to 1e-6 relative
+    # wherever one rounding unit in c cannot move the answer by more than 1e-7
+    rng = np.random.default_rng(seed)
+    cols = [np.ones(n)] if intercept else []
+    cols += [rng.normal(size=n) for _ in range(k - len(cols))] if k > len(cols) else []
+    X = np.column_stack(cols)
+    assume(n - lag > X.shape[1] + 2)
+    dist = DurbinWatsonDistribution(X, lag)
+    lam_min, lam_max, mean, m = _edges(X, lag, None)
+    depth = 1.0 - 10.0 ** -closeness          # c from the mean (0) to within 1e-9 of the end (1)
+    c = mean - depth * (mean - lam_min) if tail == "lower" else mean + depth * (lam_max - mean)
+    res = dist.tail(c, tail)
+    log_ref, s0 = _reference(X, c, tail, lag, None)
+    assume(s0 * m * max(1.0, c) * EPS <= 1e-7)
+    assert abs(math.expm1(res.log_value - log_ref)) <= 1e-6, (res, log_ref)

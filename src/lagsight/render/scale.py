@@ -142,8 +142,7 @@ def _p_text(res, alt: str, verdict) -> str:
         return "no exact p-value" + (f"\nbounds: {dec}" if dec else "")
     method = str(res.method)
     p = format_pvalue(res.pvalue, getattr(res, "log10_pvalue", None))
-    value = f"exact p = {p}" if method.startswith("exact") else (
-        f"p \u2248 {p} (saddlepoint)" if method.startswith("saddlepoint") else f"p = {p}")
+    value = f"exact p = {p}" if method.startswith("exact") else f"p = {p}"
     side = {"positive": "positive alternative", "negative": "negative alternative"}.get(alt, "two-sided")
     if DW not in verdict.family:
         role = f"support; {verdict.leading} leads" if verdict.leading else "support"

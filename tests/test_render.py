@@ -479,8 +479,8 @@ def test_report_sentence_against_statsmodels_reference_values():
     assert T.format_pvalue(d.tests[DW].pvalue) in text
     assert "against positive autocorrelation (Imhof inversion);" in text
     # quarterly index: the verdict's family is Durbin-Watson and its order-4 twin, weighted Holm
-    assert text.endswith(f"; weighted Holm over Durbin-Watson 0.8 of alpha and the order-4 test 0.2 of alpha "
-                         f"(alpha 0.05): adjusted p = "
+    assert text.endswith(f"; Durbin-Watson and the order-4 test, weighted Holm (0.8 : 0.2) at alpha 0.05: "
+                         f"adjusted p = "
                          f"{T.format_pvalue(d.verdict.adjusted_pvalue(DW))}.")
     assert md.startswith("Durbin-Watson *d* = 2.214 (*n* = 202, *k*\u2032 = 2), exact *p*-value ")
     # statsmodels test-suite reference: Breusch-Godfrey(4) LM 4.771042651230007, p 0.3116067133066697

@@ -74,8 +74,7 @@ def test_seasonal_family_follows_holm_and_its_advice_needs_the_adjusted_p():
             d = lagsight.diagnose(**design.draw(rho, rng), remedies=False)
             v = d.verdict
             assert v.family == (DW, SEASONAL)
-            assert v.rule == ("weighted Holm over Durbin-Watson 0.8 of alpha and the order-12 test 0.2 of "
-                              "alpha (alpha 0.05)")
+            assert v.rule == "Durbin-Watson and the order-12 test, weighted Holm (0.8 : 0.2) at alpha 0.05"
             p_dw, p_s = d.tests[DW].pvalue, d.tests[SEASONAL].pvalue
             assert (v.finding == "evidence") == (p_dw < w_dw * ALPHA or p_s < w_s * ALPHA)
             if p_s / w_s <= p_dw / w_dw:

@@ -176,8 +176,8 @@ def _rule(family: tuple, alpha: float, seasonal_period, plan: LeadPlan | None = 
         return f"leading test {family[0]} at alpha {alpha:g}"
     names = [f"the order-{seasonal_period} test" if n == SEASONAL else n for n in family]
     if plan is not None and plan.weights:
-        shares = " and ".join(f"{name} {plan.weight(n):g} of alpha" for name, n in zip(names, family))
-        return f"weighted Holm over {shares} (alpha {alpha:g})"
+        shares = " : ".join(f"{plan.weight(n):g}" for n in family)
+        return f"{' and '.join(names)}, weighted Holm ({shares}) at alpha {alpha:g}"
     return f"Holm over {' and '.join(names)} at alpha {alpha:g}"
 
 

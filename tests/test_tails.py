@@ -268,3 +268,19 @@ def test_random_designs_in_the_tails_match_dense_reference(n, k, intercept, lag,
     log_ref, s0 = _reference(X, c, tail, lag, None)
     assume(s0 * m * max(1.0, c) * EPS <= 1e-7)
     assert abs(math.expm1(res.log_value - log_ref)) <= 1e-6, (res, log_ref)
+
+
+def test_long_series_far_below_the_smallest_double_is_zero_without_a_search():
+    # n k^2 large: a d this small has P far below the smallest double (the bound P <= M(s) at a
+    # cheap point says so), so 0.0 is the exact double and no high-degree search is run; a
+    # shallower tail on the same design still gets its exact logarithm
+    rng = np.random.default_rng(30)
+    n = 300_000
+    X = np.column_stack([np.ones(n), rng.normal(size=(n, 9))])
+    dist = DurbinWatsonDistribution(X)
+    deep = dist.tail(0.01, "lower")
+    assert deep.value == 0.0 and math.isnan(deep.log_value)
+    assert deep.method == "exact (below the smallest positive double)"
+    shallow = dist.tail(2.0 - 20.0 / math.sqrt(n), "lower")
+    assert 0.0 < shallow.value < 1e-50 and math.isfinite(shallow.log_value)
+    assert shallow.method == "exact (saddle-line inversion)"

@@ -41,6 +41,8 @@ __all__ = ["TailResult", "tail_probability"]
 _SMALL_D = 1e-3        # factors D_j below this are taken out through the bordered matrix
 _EPS = 2.220446049250313e-16
 _MAX_BAD = 400        # bordered matrices larger than this are not formed
+_EXPENSIVE = 2e7      # n k^2 above which per-point O(n k^2) evaluations are not repeated
+_CHEB_CAP = 600       # the engine's largest Chebyshev degree (quadform._CHEB_MAX_DEGREE)
 _BIG_SCALE = 1e6       # beyond |2 s| = this the real-axis and line evaluations are rescaled
 _REL_TOL = 1e-11       # relative change between trapezoid refinements at which we stop
 _MAX_LEVELS = 9
@@ -59,8 +61,10 @@ class TailResult:
 
 
 class _Underflow(Exception):
-    """Raised where thousands of factors would need the bordered matrix: only in tails
-    so far out that the probability is far below the smallest double (checked)."""
+    """Raised where the bordered matrix would need thousands of factors, or a long series
+    would need O(n k^2) evaluations: only in tails so far out that the probability is far
+    below the smallest double, which the caller checks with the bound P <= M(s) at the last
+    point evaluated cheaply."""
 
 
 class _OutsideSupport(Exception):
@@ -146,14 +150,35 @@ class _Line:
         bad = self.bad_set(s)
         if not self.bordered(s, bad):
             return self._real_fast(s)
-        if bad.size > _MAX_BAD:
+        if bad.size > _MAX_BAD or self.expensive:
             raise _Underflow(s)
         return self._real_bordered(s, bad)
 
     def bordered(self, s0: float, bad: np.ndarray) -> bool:
-        """Whether to evaluate through the bordered matrix (small factors, or a scale at
-        which the engine's unscaled factors 1 - 2 s e_j would lose range)."""
-        return self.W is not None and (bad.size > 0 or self.scale(s0) > _BIG_SCALE)
+        """Whether to evaluate through the bordered matrix: some factor 1 - 2 s e_j is below
+        _SMALL_D (the engine's identity would lose digits or its branch), or the scale is one
+        at which those unscaled factors would lose range.  Otherwise the engine's evaluate
+        serves (its Chebyshev moments make that O(M k^2) a point)."""
+        if self.W is None:
+            return False
+        if self.scale(s0) > _BIG_SCALE:
+            return True
+        if np.min(1.0 - 2.0 * s0 * self.e) < _SMALL_D:
+            return True
+        # a long series whose Chebyshev degree would exceed the engine's cap would be evaluated
+        # directly (n k^2 a point): treated like the bordered case, where it is only ever
+        # needed in tails far below the smallest double
+        return self.expensive and not self._cheb_ok(s0)
+
+    @property
+    def expensive(self) -> bool:
+        """True when an O(n k^2) evaluation per point is too slow to repeat hundreds of times."""
+        return self.W is not None and self.form.nu.size * max(1, self.form.k) ** 2 > _EXPENSIVE
+
+    def _cheb_ok(self, s0: float) -> bool:
+        form = self.form
+        deg = form._degree_needed(np.array([2.0 * s0 + 0j]), np.array([self.c]))
+        return bool(deg[0] <= min(_CHEB_CAP, form.nu.size // 8))
 
     def _real_fast(self, s: float):
         """Through the engine's evaluate (Chebyshev moments when they pay off)."""
@@ -266,7 +291,10 @@ def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, probe: float, o
             checked = True
             if outside_support():
                 raise _OutsideSupport
-        L, L1, L2, inside = line.real(s)
+        try:
+            L, L1, L2, inside = line.real(s)
+        except _Underflow:
+            raise _Underflow(best) from None
         if inside:
             K1 = -0.5 * L1   # K'(s)
             best = (s, L, L2)
@@ -324,20 +352,32 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
 
     def outside_support() -> bool:
         # beyond the support's true end (which a design can move inside [nu_min, nu_max])
-        # the probability is 0: one inertia count decides it
+        # the probability is 0.  Cauchy interlacing puts the end within the k + 1 extreme
+        # eigenvalues of A, so with more of them beyond c, c is inside; else one inertia
+        # count of the bordered matrix decides it
+        beyond = np.count_nonzero(line.e < 0) if lower else np.count_nonzero(line.e > 0)
+        if beyond > form.k + form.exclude.size:
+            return False
         return line.negative_count(line.e if lower else -line.e) == 0
 
+    if line.expensive:
+        # long series: when the bound P <= M(s) at a point of low Chebyshev degree already
+        # puts P below the smallest double, 0 is the exact double and no search is run
+        # (the search near the end of the interval would need high-degree moments)
+        L_cheap, _, _, inside = line.real(0.1 / (2.0 * e_ext))
+        if inside and -0.5 * L_cheap < -745.2:
+            return TailResult(0.0, math.nan, "exact (below the smallest positive double)", 0.0)
     try:
         s0, L0, L2 = _find_saddle(line, lower, p1, p2, probe, outside_support)
     except _OutsideSupport:
         return TailResult(0.0, -math.inf, "exact (outside the support)", 0.0)
-    except _Underflow:
-        # P <= M(s) for every s of the interval (Chernoff); at the probe M is already
-        # below exp(-745), the smallest positive double being exp(-744.4)
-        L_probe = line.real(probe)[0]
-        if -0.5 * L_probe < -745.2:
+    except _Underflow as stop:
+        # P <= M(s) = exp(K(s)) for every s of the interval (Chernoff): at the last point
+        # evaluated, M is already below exp(-745.2), under the smallest positive double
+        last = stop.args[0]
+        if last is not None and -0.5 * last[1] < -745.2:
             return TailResult(0.0, math.nan, "exact (below the smallest positive double)", 0.0)
-        raise RuntimeError(f"tail inversion at c = {c!r} needs more than {_MAX_BAD} bordered factors")
+        raise RuntimeError(f"tail inversion at c = {c!r} would need the bordered matrix on a long series")
     K0 = -0.5 * L0
     K2 = -0.5 * L2
     bad = line.bad_set(s0)

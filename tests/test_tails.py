@@ -183,11 +183,9 @@ def test_edge_of_support_without_intercept():
 
 
 def test_probabilities_below_the_smallest_double_keep_their_logarithm():
-    # n = 2000, d = 0.3: P(d <= 0.3) is about 1e-570, far below the smallest double;
-    # the value underflows to 0 but its logarithm matches the dense reference
-    rng = np.random.default_rng(8)
-    n = 1500
-    X = np.column_stack([np.ones(n), rng.normal(size=(n, 2))])
+    # n = 1500, d = 0.3: P(d <= 0.3) is about exp(-967) = 1e-420, far below the smallest
+    # double; the value underflows to 0 but its logarithm matches the dense reference
+    X = _with_constant(1500, 3, 8)
     dist = DurbinWatsonDistribution(X)
     res = dist.tail(0.3, "lower")
     log_ref = log_dense_tail(X, 0.3, "lower")
@@ -274,10 +272,8 @@ def test_long_series_far_below_the_smallest_double_is_zero_without_a_search():
     # n k^2 large: a d this small has P far below the smallest double (the bound P <= M(s) at a
     # cheap point says so), so 0.0 is the exact double and no high-degree search is run; a
     # shallower tail on the same design still gets its exact logarithm
-    rng = np.random.default_rng(30)
     n = 300_000
-    X = np.column_stack([np.ones(n), rng.normal(size=(n, 9))])
-    dist = DurbinWatsonDistribution(X)
+    dist = DurbinWatsonDistribution(_with_constant(n, 10, 30))
     deep = dist.tail(0.01, "lower")
     assert deep.value == 0.0 and math.isnan(deep.log_value)
     assert deep.method == "exact (below the smallest positive double)"

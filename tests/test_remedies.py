@@ -255,3 +255,22 @@ def test_compare_inference_falls_back_to_cochrane_orcutt():
     assert cmp.fgls_method == "Cochrane-Orcutt" and cmp.rho > 1
     assert any("Prais-Winsten was not possible" in s for s in cmp.notes)
     assert any("non-stationary" in s for s in cmp.notes)
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_corrections_are_scale_free(scale):
+    # every estimator here is equivariant: data in other units give the same t-ratios, p-values,
+    # HAC lag and rho, and coefficients in the new units (here y and X share the factor)
+    from lagsight.stats.remedies import compare_inference
+    rng = np.random.default_rng(40)
+    n = 120
+    X = np.column_stack([np.ones(n), rng.normal(size=n)])
+    u = np.zeros(n)
+    for t in range(1, n):
+        u[t] = 0.6 * u[t - 1] + rng.normal()
+    y = X @ [1.0, 0.5] + u
+    base = compare_inference(y, X)
+    scaled = compare_inference(y * scale, X * scale)
+    assert scaled.hac_lag == base.hac_lag and abs(scaled.rho - base.rho) < 1e-10
+    for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls", "p_ols", "p_hac", "p_fgls"):
+        np.testing.assert_allclose(scaled.table[col], base.table[col], rtol=1e-8)

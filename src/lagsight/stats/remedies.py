@@ -342,6 +342,13 @@ def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-we
     check_choice(fgls, "fgls", ("prais-winsten", "cochrane-orcutt"))
     y, X = _xy(endog, exog)
     labels = check_names(names, X.shape[1])
+    # data of extreme magnitude (1e200, 1e-200) is fitted on unit scale: one factor for the
+    # response and one for the whole design keep every estimator's choices (the HAC lag rule
+    # included) as they are, and coefficients and standard errors scale back by s_y / s_X
+    s_y, s_x = float(np.max(np.abs(y))), float(np.max(np.abs(X)))
+    rescale = all(v > 0 for v in (s_y, s_x)) and not all(1e-100 < v < 1e100 for v in (s_y, s_x))
+    if rescale:
+        y, X = y / s_y, X / s_x
     ols = OLS(y, X).fit()
     hac = newey_west(y, X, rule=hac_rule, names=labels)
     extra = []
@@ -356,6 +363,9 @@ def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-we
         "se_hac": hac.bse, "p_hac": hac.pvalues,
         "coef_fgls": gls.params, "se_fgls": gls.bse, "p_fgls": gls.pvalues,
     }, index=pd.Index(list(labels), name="term"))
+    if rescale:
+        for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls"):
+            t[col] = t[col] * (s_y / s_x)
     t = _flag_changes(t, alpha)
     notes = (*extra, f"HAC: {hac.method}.", f"FGLS: {gls.method}.", *gls.notes)
     return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.maxlags, hac_rule=hac_rule,

@@ -18,7 +18,7 @@ from .order import infer_bg_order
 from .stats import battery, runs
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
-from .stats._arrays import unit_columns, unit_scale
+from .stats._arrays import scaled, unit_columns, unit_scale
 from .stats.results import TestResult
 
 __all__ = ["SEASONAL_GIVEN", "BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
@@ -126,10 +126,10 @@ def input_problem(data: ResidualData) -> str | None:
     if y is not None and data.exog is not None:
         if not np.all(np.isfinite(y)):
             return "the response contains values that are not finite (they overflow double precision)"
-        top = float(np.max(np.abs(y)))
-        if top == 0 or _relative_spread(y) <= 1e-12:
+        yu, top = scaled(y)
+        if not np.any(y) or _relative_spread(y) <= 1e-12:
             return "the response is constant, so there is no variation for the model to leave in its residuals"
-        yu, eu = y / top, e / top  # the residuals in the response's units
+        eu = e / top  # the residuals in the response's units
         size = float(np.linalg.norm(eu))
         if size <= max(1e-8 * float(np.linalg.norm(yu - yu.mean())), 1e-12 * float(np.linalg.norm(yu))):
             return ("the residuals are numerically zero relative to the response: the model fits the data "

@@ -21,6 +21,7 @@ from ..battery_run import DW
 from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
 from .density import density_grid, exact_point, grid_entry
 from .style import FIG_WIDTH, PALETTE, REGION_STYLE, figure_rc
+from ..verdict import log10_p
 from .text import format_pvalue, order_caveat
 
 __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
@@ -141,7 +142,7 @@ def _p_text(res, alt: str, verdict) -> str:
         dec = getattr(res, "bounds_decision", None)
         return "no exact p-value" + (f"\nbounds: {dec}" if dec else "")
     method = str(res.method)
-    p = format_pvalue(res.pvalue, getattr(res, "log10_pvalue", None))
+    p = format_pvalue(res.pvalue, log10_p(res))
     value = f"exact p = {p}" if method.startswith("exact") else f"p = {p}"
     side = {"positive": "positive alternative", "negative": "negative alternative"}.get(alt, "two-sided")
     if DW not in verdict.family:

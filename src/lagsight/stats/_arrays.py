@@ -119,22 +119,39 @@ def constant_columns(exog: np.ndarray) -> np.ndarray:
     return (np.ptp(exog, axis=0) == 0) & (exog[0] != 0)
 
 
-def unit_scale(v) -> np.ndarray:
-    """``v`` divided by its largest absolute value (unchanged when all zero).
+def scaled(v) -> tuple[np.ndarray, float]:
+    """(``v`` divided by its largest absolute value, that value); 1 and ``v`` itself when all zero
+    or already of unit size (no copy).
 
     The serial-correlation statistics are scale-free; on unit-sized values sums of squares stay finite
     for data near 1e200 and normal (not subnormal) for data near 1e-200.
     """
     v = np.asarray(v, float)
     top = float(np.max(np.abs(v))) if v.size else 0.0
-    return v / top if top > 0 else v
+    if top == 0.0 or top == 1.0:
+        return v, 1.0
+    return v / top, top
+
+
+def unit_scale(v) -> np.ndarray:
+    """``v`` divided by its largest absolute value (see :func:`scaled`)."""
+    return scaled(v)[0]
+
+
+def scaled_columns(X) -> tuple[np.ndarray, np.ndarray]:
+    """(each column of ``X`` divided by its largest absolute value, those values): the same column
+    space, comparable sizes.  No copy when every column is already of unit size (or zero)."""
+    X = np.asarray(X, float)
+    top = np.max(np.abs(X), axis=0) if X.size else np.ones(X.shape[1:])
+    top = np.where(top > 0, top, 1.0)
+    if np.all(top == 1.0):
+        return X, top
+    return X / top, top
 
 
 def unit_columns(X) -> np.ndarray:
-    """Each column of ``X`` divided by its largest absolute value: the same column space, comparable sizes."""
-    X = np.asarray(X, float)
-    top = np.max(np.abs(X), axis=0)
-    return X / np.where(top > 0, top, 1.0)
+    """Each column of ``X`` divided by its largest absolute value (see :func:`scaled_columns`)."""
+    return scaled_columns(X)[0]
 
 
 def readonly(a) -> np.ndarray:

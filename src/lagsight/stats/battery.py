@@ -17,7 +17,7 @@ from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.stattools import acf
 
 from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
-                      constant_columns, readonly, unit_columns, unit_scale)
+                      constant_columns, readonly, scaled, scaled_columns)
 from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
@@ -36,21 +36,16 @@ def _upper_means_positive(stat_cdf: float, stat_sf: float, alternative: str) -> 
     return tail_pvalue(stat_sf, stat_cdf, alternative)
 
 
-def _unit(v: np.ndarray) -> tuple[np.ndarray, float]:
-    """``v`` on unit scale and the factor taken out (every statistic here is scale-free)."""
-    top = float(np.max(np.abs(v))) if v.size else 0.0
-    return unit_scale(v), (top if top > 0 else 1.0)
+_unit = scaled  # every statistic here is scale-free: values on unit scale, and the factor
 
 
 def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndarray]:
     """The design with columns of unit size (regressors of very different sizes on one footing for the
     QR and rank checks), and the factors taken out."""
-    X = as_design(exog, n, full_rank=False)
-    top = np.max(np.abs(X), axis=0)
-    X = unit_columns(X)
+    X, top = scaled_columns(as_design(exog, n, full_rank=False))
     if full_rank:
         X = as_design(X, n)  # the rank check, on columns of comparable size
-    return X, np.where(top > 0, top, 1.0)
+    return X, top
 
 
 # --------------------------------------------------------------------------- BG

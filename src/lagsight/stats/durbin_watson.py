@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import fft
 
-from ._arrays import as_design, as_vector, check_alpha
+from ._arrays import as_design, as_vector, check_alpha, scaled, unit_columns, unit_scale
 from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
 from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
@@ -67,10 +67,9 @@ def dw_statistic(resid, lag: int = 1) -> tuple[float, float, float]:
     # d is scale-free: sums of squares are taken of e / max|e| so that residuals of any
     # magnitude (1e-200 or 1e200) neither underflow nor overflow; numerator and
     # denominator are returned in the original units (inf or 0 when those do not fit)
-    top = float(np.max(np.abs(e))) if e.size else 0.0
-    if not top > 0.0:
+    if not np.any(e):
         raise ValueError("'resid' has zero variance (all residuals are 0)")
-    u = e / top
+    u, top = scaled(e)
     diff = u[lag:] - u[:-lag]
     num = float(np.dot(diff, diff))
     den = float(np.dot(u, u))
@@ -95,8 +94,7 @@ def _orthonormal_basis(X: np.ndarray):
         if not (np.all(np.isfinite(G)) and np.all((diag == 0) | (diag > 1e-280))):
             # data of extreme magnitude (1e200, 1e-200): the basis does not depend on column
             # scale, so scale the columns and form the Gram matrix again (copying X only then)
-            top = np.max(np.abs(X), axis=0)
-            X = X / np.where(top > 0, top, 1.0)
+            X = unit_columns(X)
             G = X.T @ X
         scale = np.sqrt(np.diag(G))
         if np.all(scale > 0):
@@ -195,15 +193,7 @@ class DurbinWatsonDistribution:
         lower = self._body(cs)
         upper = 1.0 - lower
         for i in np.flatnonzero(np.minimum(lower, upper) < TAIL_SWITCH):
-            tail = self.tail(cs[i], "lower" if lower[i] < upper[i] else "upper")
-            if tail.method.startswith("exact (outside"):
-                small = 0.0
-            else:
-                small = tail.value
-            if lower[i] < upper[i]:
-                lower[i], upper[i] = small, 1.0 - small
-            else:
-                lower[i], upper[i] = 1.0 - small, small
+            lower[i], upper[i], _, _ = self._refine(float(cs[i]), float(lower[i]), body_known=True)
         return lower, upper
 
     def _body(self, cs: np.ndarray) -> np.ndarray:
@@ -270,10 +260,16 @@ class DurbinWatsonDistribution:
         """
         d = float(d)
         z = (d - self.mean) / math.sqrt(self.var) if self.var > 0 else 0.0
-        far_out = abs(z) > 6.0
-        # far outside the body (the normal tail there is 1e-9) the small tail is computed on the
-        # saddle line, which is exact at any level, without the Imhof pass first
-        lower = (0.0 if z < 0 else 1.0) if far_out else float(self._body(np.array([d]))[0])
+        if abs(z) > 6.0:
+            # far outside the body (the normal tail there is 1e-9) the small tail is computed on
+            # the saddle line, which is exact at any level, without the Imhof pass first
+            return self._refine(d, 0.0 if z < 0 else 1.0, body_known=False)
+        return self._refine(d, float(self._body(np.array([d]))[0]), body_known=True)
+
+    def _refine(self, d: float, lower: float, *, body_known: bool):
+        """(lower, upper, method, logs) from the Imhof value ``lower`` at d (or, without
+        ``body_known``, only its side of the mean): the smaller tail below
+        :data:`TAIL_SWITCH` is recomputed on the saddle line."""
         upper = 1.0 - lower
         if min(lower, upper) >= TAIL_SWITCH:
             return lower, upper, "exact (Imhof inversion)", (_log(lower), _log(upper))
@@ -281,7 +277,7 @@ class DurbinWatsonDistribution:
         try:
             res = self.tail(d, ("lower", "upper")[side])
         except (RuntimeError, ValueError, np.linalg.LinAlgError) as err:
-            if far_out:
+            if not body_known:
                 lower = float(self._body(np.array([d]))[0])
                 upper = 1.0 - lower
             why = str(err).splitlines()[0]
@@ -437,7 +433,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
         raise ValueError(f"need more residuals than regressors + 1 (n = {n}, k = {X.shape[1]})")
     dist = distribution if distribution is not None else DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
-    u = e / np.max(np.abs(e))
+    u = unit_scale(e)
     proj = dist._basis_t @ u
     if float(np.dot(proj, proj)) > 1e-12 * float(np.dot(u, u)):
         notes.append(

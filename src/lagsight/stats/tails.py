@@ -195,19 +195,24 @@ class _Line:
         are taken in xi (dD/dxi = -2e: nothing underflows) and divided by sigma after."""
         return 1.0 / sigma - 2.0 * (s / sigma) * self.e
 
+    def _slope(self, Z: np.ndarray, bad: np.ndarray, inv: np.ndarray) -> np.ndarray:
+        """dZ/dxi for the bordered matrix at D / sigma = 1/sigma - 2 xi e (xi = s / sigma)."""
+        b = bad.size
+        Zs = np.zeros_like(Z)
+        Zs[:b, :b] = np.diag(2.0 * self.e[bad])
+        Zs[b:, b:] = self._gram(2.0 * self.e * inv * inv)
+        return Zs
+
     def _real_bordered(self, s: float, bad: np.ndarray):
         sigma = self.scale(s)
         Dt = self._scaled(s, sigma)
-        es = self.e
         Z, good, inv = self._bordered(Dt, bad)
         b = bad.size
         ev, log_abs_det = self._equilibrated_eigenvalues(Z)
         if np.count_nonzero(ev < 0) != b or np.any(ev == 0):
             return math.nan, math.nan, math.nan, False
-        q = es * inv
-        Zs = np.zeros_like(Z)
-        Zs[:b, :b] = np.diag(2.0 * es[bad])
-        Zs[b:, b:] = self._gram(2.0 * q * inv)
+        q = self.e * inv
+        Zs = self._slope(Z, bad, inv)
         Zss = np.zeros_like(Z)
         Zss[b:, b:] = self._gram(8.0 * q * q * inv)
         Zi = np.linalg.inv(Z)
@@ -231,13 +236,10 @@ class _Line:
         dphase = np.empty(s.size)
         sign_b = -1.0 if bad.size % 2 else 1.0
         sigma = self.scale(s0)
-        b = bad.size
         for i, si in enumerate(s):
             Dt = self._scaled(si, sigma)
             Z, good, inv = self._bordered(Dt, bad)
-            Zs = np.zeros_like(Z)
-            Zs[:b, :b] = np.diag(2.0 * self.e[bad])
-            Zs[b:, b:] = self._gram(2.0 * self.e * inv * inv)
+            Zs = self._slope(Z, bad, inv)
             sign, logabs = np.linalg.slogdet(Z)
             out[i] = self.form.m * math.log(sigma) + np.sum(np.log(Dt[good])) + logabs
             phase[i] = float(np.angle(sign * sign_b))
@@ -267,18 +269,16 @@ def _unwrap(y, phase, dphase):
     return out, worst
 
 
-def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, probe: float, outside_support):
+def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, s_edge: float, probe: float, outside_support):
     """The saddle point s* of K = -L/2 (K'(s*) = 0) on the side of the tail.
 
     Before the search first goes beyond ``probe`` (near the end of the interval that
     the spectrum of A alone guarantees) it asks ``outside_support()`` and raises
     _OutsideSupport when c lies beyond the end of the support.
+    ``s_edge`` = 1 / (2 (nu_extreme - c)) is where the smallest factor D_j vanishes.
     Returns (s, L(s), L''(s)).  K is convex, so K' is increasing; lower tail: K'(0) = p1 > 0 and s* < 0.
     """
     sgn = -1.0 if lower else 1.0
-    form = line.form
-    e_ext = (form.nu_min if lower else form.nu_max) - line.c   # negative for lower, positive for upper
-    s_edge = 1.0 / (2.0 * e_ext)                                # where the smallest factor D_j vanishes
     s = -p1 / (2.0 * p2)                                        # Newton step from 0
     if abs(s) > 0.5 * abs(s_edge):
         s = 0.5 * s_edge
@@ -347,8 +347,8 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
     if (p1 > 0) != lower or p2 <= 0:
         raise ValueError(f"the {tail} tail at c = {c:g} is not the smaller one")
     line = _Line(form, c)
-    e_ext = (form.nu_min if lower else form.nu_max) - c
-    probe = (1.0 - 4.0 * _SMALL_D) / (2.0 * e_ext)   # every factor D_j >= 4 _SMALL_D there
+    s_edge = 1.0 / (2.0 * ((form.nu_min if lower else form.nu_max) - c))  # the smallest D_j vanishes there
+    probe = (1.0 - 4.0 * _SMALL_D) * s_edge   # every factor D_j >= 4 _SMALL_D there
 
     def outside_support() -> bool:
         # beyond the support's true end (which a design can move inside [nu_min, nu_max])
@@ -364,11 +364,11 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
         # long series: when the bound P <= M(s) at a point of low Chebyshev degree already
         # puts P below the smallest double, 0 is the exact double and no search is run
         # (the search near the end of the interval would need high-degree moments)
-        L_cheap, _, _, inside = line.real(0.1 / (2.0 * e_ext))
+        L_cheap, _, _, inside = line.real(0.1 * s_edge)
         if inside and -0.5 * L_cheap < -745.2:
             return TailResult(0.0, math.nan, "exact (below the smallest positive double)", 0.0)
     try:
-        s0, L0, L2 = _find_saddle(line, lower, p1, p2, probe, outside_support)
+        s0, L0, L2 = _find_saddle(line, lower, p1, p2, s_edge, probe, outside_support)
     except _OutsideSupport:
         return TailResult(0.0, -math.inf, "exact (outside the support)", 0.0)
     except _Underflow as stop:

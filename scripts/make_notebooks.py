@@ -64,9 +64,9 @@ NOTEBOOKS = {
                  "from lagsight.scenarios import clinic_visits\n\n"
                  "visits = clinic_visits()\n"
                  "fit = smf.ols('visits ~ population_k + flu_season', data=visits).fit()"),
-        ("code", "%load_ext lagsight\n%lagsight fit --season 12"),
+        ("code", "%load_ext lagsight\n%lagsight fit --period 12"),
         ("md", "Lag 1 against lag 12, side by side:"),
-        ("code", "d = %lagsight fit --season 12 --quiet\n"
+        ("code", "d = %lagsight fit --period 12 --quiet\n"
                  "d.to_frame()[['test', 'statistic', 'pvalue', 'reading']]"),
     ],
     "screening": [

@@ -44,7 +44,7 @@ def macro_consumption():
 # ------------------------------------------------------------- Breusch-Godfrey
 def test_breusch_godfrey_matches_published_reference(macro_growth):
     _, exog, res = macro_growth
-    bg = breusch_godfrey(res.resid, exog, order=4)
+    bg = breusch_godfrey(res.resid, exog, max_lag=4)
     # statsmodels test suite (test_diagnostic.py, test_acorr_breusch_godfrey), values from R lmtest::bgtest
     assert bg.statistic == pytest.approx(4.771042651230007, abs=1e-11)
     assert bg.pvalue == pytest.approx(0.3116067133066697, abs=1e-11)
@@ -60,7 +60,7 @@ def test_breusch_godfrey_equals_statsmodels(macro_growth, order, with_const):
     endog, exog, _ = macro_growth
     X = exog if with_const else exog[:, 1:]
     res = sm.OLS(endog, X).fit()
-    ours = breusch_godfrey(res.resid, X, order=order)
+    ours = breusch_godfrey(res.resid, X, max_lag=order)
     # reference library: statsmodels.stats.diagnostic.acorr_breusch_godfrey
     ref = acorr_breusch_godfrey(res, nlags=order, result_object=True)
     assert_allclose([ours.statistic, ours.pvalue, ours.f_statistic, ours.f_pvalue],
@@ -71,21 +71,21 @@ def test_breusch_godfrey_equals_statsmodels(macro_growth, order, with_const):
 def test_breusch_godfrey_rejects_bad_input(macro_growth):
     _, exog, res = macro_growth
     e = np.asarray(res.resid).copy()
-    with pytest.raises(ValueError, match="'order'"):
-        breusch_godfrey(e, exog, order=0)
-    with pytest.raises(ValueError, match="'order' is too large"):
-        breusch_godfrey(e[:8], exog[:8], order=5)
+    with pytest.raises(ValueError, match="'max_lag'"):
+        breusch_godfrey(e, exog, max_lag=0)
+    with pytest.raises(ValueError, match="'max_lag' is too large"):
+        breusch_godfrey(e[:8], exog[:8], max_lag=5)
     with pytest.raises(ValueError, match="'exog' must have 202 rows"):
-        breusch_godfrey(e, exog[:-1], order=2)
+        breusch_godfrey(e, exog[:-1], max_lag=2)
     e[3] = np.nan
     with pytest.raises(ValueError, match="'resid' must be finite"):
-        breusch_godfrey(e, exog, order=2)
+        breusch_godfrey(e, exog, max_lag=2)
 
 
 # ------------------------------------------------------------------ Ljung-Box
 def test_ljung_box_matches_published_reference(macro_growth):
     _, _, res = macro_growth
-    lb = ljung_box(res.resid, lags=4)
+    lb = ljung_box(res.resid, max_lag=4)
     # statsmodels test suite (test_diagnostic.py, test_acorr_ljung_box), values from R Box.test
     assert lb.statistic == pytest.approx(5.23587172795227, abs=1e-10)
     assert lb.pvalue == pytest.approx(0.263940335284713, abs=1e-10)
@@ -97,7 +97,7 @@ def test_ljung_box_matches_published_reference(macro_growth):
 
 def test_ljung_box_model_df_reference_and_nan(macro_growth):
     _, _, res = macro_growth
-    lb = ljung_box(res.resid, lags=[1, 2, 4], model_df=2)
+    lb = ljung_box(res.resid, max_lag=[1, 2, 4], model_df=2)
     # statsmodels test suite comment (R Box.test(..., lag=4, fitdf=2)): p 0.0729532930400377 (LB), 0.0771260128929921 (BP)
     assert lb.lb_pvalue[-1] == pytest.approx(0.0729532930400377, abs=1e-10)
     assert lb.bp_pvalue[-1] == pytest.approx(0.0771260128929921, abs=1e-10)
@@ -109,12 +109,12 @@ def test_ljung_box_model_df_reference_and_nan(macro_growth):
 
 def test_ljung_box_rejects_bad_lags():
     e = np.random.default_rng(1).standard_normal(30)
-    with pytest.raises(ValueError, match="'lags' must be an integer >= 1"):
-        ljung_box(e, lags=0)
-    with pytest.raises(ValueError, match="'lags' must be smaller than n=30"):
-        ljung_box(e, lags=30)
+    with pytest.raises(ValueError, match="'max_lag' must be an integer ≥ 1"):
+        ljung_box(e, max_lag=0)
+    with pytest.raises(ValueError, match="'max_lag' must be smaller than n=30"):
+        ljung_box(e, max_lag=30)
     with pytest.raises(ValueError, match="'model_df'"):
-        ljung_box(e, lags=3, model_df=-1)
+        ljung_box(e, max_lag=3, model_df=-1)
 
 
 # ------------------------------------------------------------- Durbin's h / alt
@@ -214,12 +214,12 @@ def test_durbin_alternative_order_two_is_f_test(macro_consumption):
     ssr = lambda Z: np.sum((e[2:] - Z @ np.linalg.lstsq(Z, e[2:], rcond=None)[0]) ** 2)
     df = Zu.shape[0] - Zu.shape[1]
     F = (ssr(Zr) - ssr(Zu)) / 2 / (ssr(Zu) / df)
-    out = durbin_alternative(e, X, order=2)
+    out = durbin_alternative(e, X, max_lag=2)
     assert out.statistic == pytest.approx(F, rel=1e-9)
     assert out.pvalue == pytest.approx(stats.f.sf(F, 2, df), rel=1e-7)
     assert out.df == (2.0, float(df)) and "F-test" in out.method
-    with pytest.raises(ValueError, match="'alternative' must be 'two-sided' when order > 1"):
-        durbin_alternative(e, X, order=2, alternative="positive")
+    with pytest.raises(ValueError, match="'alternative' must be 'two-sided' when max_lag > 1"):
+        durbin_alternative(e, X, max_lag=2, alternative="positive")
 
 
 # ------------------------------------------------------------------ runs test

@@ -21,7 +21,7 @@ def macro_resid():
 
 
 def test_acf_pacf_equal_statsmodels(macro_resid):
-    cg = correlogram(macro_resid, nlags=12)
+    cg = correlogram(macro_resid, max_lag=12)
     # reference library: statsmodels.tsa.stattools.acf / pacf
     np.testing.assert_allclose(cg.acf, sm_acf(macro_resid, nlags=12, fft=False)[1:], rtol=0, atol=1e-12)
     np.testing.assert_allclose(cg.pacf, sm_pacf(macro_resid, nlags=12, method="ywadjusted")[1:],
@@ -34,7 +34,7 @@ def test_fft_path_for_long_series_equals_direct_acf():
     rng = np.random.default_rng(2)
     n = 50 * FFT_MIN_N
     e = np.convolve(rng.standard_normal(n + 3), [1.0, 0.6, 0.3, 0.1], mode="valid")
-    cg = correlogram(e, nlags=8)
+    cg = correlogram(e, max_lag=8)
     # reference library: statsmodels acf computed directly (no FFT)
     np.testing.assert_allclose(cg.acf, sm_acf(e, nlags=8, fft=False)[1:], rtol=0, atol=1e-12)
     np.testing.assert_allclose(cg.pacf, sm_pacf(e, nlags=8, method="ywadjusted")[1:], rtol=0, atol=1e-12)
@@ -50,7 +50,7 @@ def test_bands_by_hand_on_small_example():
     z = stats.norm.ppf(0.95)  # alpha = 0.10
     # Bartlett's formula: se(r_h) = sqrt((1 + 2 sum_{j<h} r_j^2) / n)
     band = [z * np.sqrt((1 + 2 * sum(rj ** 2 for rj in r[: h - 1])) / n) for h in range(1, 5)]
-    cg = correlogram(e, nlags=4, alpha=0.10)
+    cg = correlogram(e, max_lag=4, alpha=0.10)
     np.testing.assert_allclose(cg.acf, r, rtol=1e-12)
     np.testing.assert_allclose(cg.bartlett_band, band, rtol=1e-12)
     assert cg.white_band == pytest.approx(z / np.sqrt(n), rel=1e-14)
@@ -58,7 +58,7 @@ def test_bands_by_hand_on_small_example():
 
 
 def test_bartlett_band_equals_statsmodels_confint(macro_resid):
-    cg = correlogram(macro_resid, nlags=10, alpha=0.05)
+    cg = correlogram(macro_resid, max_lag=10, alpha=0.05)
     # reference library: statsmodels acf confint uses Bartlett's formula
     ref = sm_acf(macro_resid, nlags=10, fft=False, alpha=0.05, result_object=True)
     half = (ref.confint[1:, 1] - ref.confint[1:, 0]) / 2
@@ -67,7 +67,7 @@ def test_bartlett_band_equals_statsmodels_confint(macro_resid):
 
 def test_outside_band_and_str(macro_resid):
     e = np.sin(np.arange(100) / 3.0)  # invented: strongly autocorrelated
-    cg = correlogram(e, nlags=5)
+    cg = correlogram(e, max_lag=5)
     assert 1 in cg.outside_white_band()
     assert "lag" in str(cg) and "*" in str(cg)
 
@@ -79,16 +79,16 @@ def test_lag_pairs():
     np.testing.assert_array_equal(lp.current, e[2:])
     # reference library: scipy.stats.pearsonr on the same pairs
     assert lp.correlation == pytest.approx(stats.pearsonr(e[:-2], e[2:])[0], rel=1e-12)
-    with pytest.raises(ValueError, match="'h' must be <= n - 2 = 6"):
+    with pytest.raises(ValueError, match="'lag' must be ≤ n - 2 = 6"):
         lag_pairs(e, 7)
-    with pytest.raises(ValueError, match="'h' must be an integer >= 1"):
+    with pytest.raises(ValueError, match="'lag' must be an integer ≥ 1"):
         lag_pairs(e, 0)
 
 
 @pytest.mark.parametrize("kwargs,match", [
-    ({"nlags": 0}, "'nlags' must be an integer >= 1 \\(got 0\\)"),
-    ({"nlags": 6}, "'nlags' must be <= n // 2 = 5"),
-    ({"nlags": 2, "alpha": 1.5}, "'alpha' must be in \\(0, 1\\) \\(got 1.5\\)"),
+    ({"max_lag": 0}, "'max_lag' must be an integer ≥ 1 \\(got 0\\)"),
+    ({"max_lag": 6}, "'max_lag' must be ≤ n // 2 = 5"),
+    ({"max_lag": 2, "alpha": 1.5}, "'alpha' must be in \\(0, 1\\) \\(got 1.5\\)"),
 ])
 def test_correlogram_rejects_bad_arguments(kwargs, match):
     e = np.random.default_rng(0).standard_normal(10)
@@ -98,8 +98,8 @@ def test_correlogram_rejects_bad_arguments(kwargs, match):
 
 def test_correlogram_rejects_nonfinite_and_constant():
     with pytest.raises(ValueError, match="'resid' must be finite"):
-        correlogram(np.array([1.0, np.inf, 2.0, 3.0, 1.0, 0.0]), nlags=1)
+        correlogram(np.array([1.0, np.inf, 2.0, 3.0, 1.0, 0.0]), max_lag=1)
     with pytest.raises(ValueError, match="'resid' must not be constant"):
-        correlogram(np.zeros(10), nlags=2)
+        correlogram(np.zeros(10), max_lag=2)
     with pytest.raises(ValueError, match="'resid' must be 1-D"):
-        correlogram(np.zeros((5, 3)), nlags=2)
+        correlogram(np.zeros((5, 3)), max_lag=2)

@@ -31,10 +31,10 @@ def test_macrodata_reference_values_through_diagnose():
     # (p 0.3116067133066697), F 1.179280833676792, Ljung-Box lag 4 5.23587172795227
     fit = _macro_fit()
     d = diagnose(fit)
-    assert d.seasonal_period == 4          # quarterly PeriodIndex
+    assert d.period == 4          # quarterly PeriodIndex
     assert abs(d.tests["Durbin-Watson"].statistic - 2.213805) < 5e-7
     bg = d.tests["Breusch-Godfrey"]
-    assert bg.order == 4
+    assert bg.max_lag == 4
     assert abs(bg.statistic - 4.771042651230007) < 1e-9
     assert abs(bg.pvalue - 0.3116067133066697) < 1e-9
     assert abs(bg.f_statistic - 1.179280833676792) < 1e-9

@@ -100,7 +100,7 @@ def test_snapshot_is_kept_current(diag):
     from lagsight.render.export import figure_to_png_data_uri
     from lagsight.render.figures import correlogram_figure
     from lagsight.panel import SNAPSHOT_DPI
-    six = correlogram_figure(diag.correlogram, max_lag=6, band="white", period=diag.seasonal_period)
+    six = correlogram_figure(diag.correlogram, max_lag=6, band="white", period=diag.period)
     uri = figure_to_png_data_uri(six, dpi=SNAPSHOT_DPI)
     assert uri in last and uri not in cap.outputs[0].data["text/html"]  # not in the first snapshot
 

@@ -114,7 +114,7 @@ def test_bounds_without_constant_bracket_exact_values():
     # design with k columns lies between the two bounds
     rng = np.random.default_rng(5)
     n, k = 40, 2
-    b = lagsight.dw_bounds(n, k, alpha=0.05, intercept=False)
+    b = lagsight.dw_bounds(n, k, alpha=0.05, has_constant=False)
     for _ in range(3):
         X = rng.normal(size=(n, k)) + 1.0
         crit = lagsight.dw_distribution(X).ppf(0.05)
@@ -273,10 +273,10 @@ def test_pvalue_alternatives_are_consistent():
 def test_residuals_only_give_bounds_and_say_so():
     y, X = _longley()
     e = _ols_resid(y, X)
-    res = lagsight.durbin_watson(e, regressors=6)
+    res = lagsight.durbin_watson(e, k_prime=6)
     assert math.isnan(res.pvalue)
     assert res.method == "bounds only"
-    assert res.bounds is not None and res.bounds.k == 6
+    assert res.bounds is not None and res.bounds.k_prime == 6
     assert any("exact p-value" in n for n in res.notes)
 
 
@@ -288,7 +288,7 @@ def test_rank_deficient_design_is_reduced_with_a_note():
     y = 1 + x + rng.normal(size=n)
     e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
     res = lagsight.durbin_watson(e, X)
-    assert res.k == 2
+    assert res.rank == 2
     assert any("rank 2" in n for n in res.notes)
     ref = lagsight.durbin_watson(e, X[:, :2])
     assert abs(res.pvalue - ref.pvalue) < 1e-10
@@ -301,11 +301,11 @@ def test_rank_deficient_design_is_reduced_with_a_note():
         (lambda e, X: lagsight.durbin_watson(np.r_[e[:-1], np.inf], X), "'resid' must be finite"),
         (lambda e, X: lagsight.durbin_watson(e, X[:-1]), r"'exog' must have \d+ rows to match the residuals"),
         (lambda e, X: lagsight.durbin_watson(np.zeros_like(e), X), "zero variance"),
-        (lambda e, X: lagsight.durbin_watson(e, X, lag=0), "'lag' must be an integer >= 1"),
+        (lambda e, X: lagsight.durbin_watson(e, X, lag=0), "'lag' must be an integer ≥ 1"),
         (lambda e, X: lagsight.durbin_watson(e, X, alternative="up"), "'alternative' must be one of"),
         (lambda e, X: lagsight.durbin_watson(e, X, alpha=1.5), r"'alpha' must be in \(0, 1\) \(got 1.5\)"),
         (lambda e, X: lagsight.durbin_watson(e[:3], X[:3, :3]), "need more residuals"),
-        (lambda e, X: lagsight.dw_bounds(50, 0), "'k' must be an integer >= 1"),
+        (lambda e, X: lagsight.dw_bounds(50, 0), "'k_prime' must be an integer ≥ 1"),
         (lambda e, X: lagsight.dw_bounds(3, 1), "'n' must exceed"),
         (lambda e, X: lagsight.dw_bounds(50, 2, alpha=0), r"'alpha' must be in \(0, 1\)"),
     ],

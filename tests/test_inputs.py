@@ -50,7 +50,7 @@ def test_formula_results_keep_dataframe_index_and_report_statsmodels_drops(longl
     df.index = pd.Index(np.arange(1947, 1963), name="year")
     df.loc[1952, "GNP"] = np.nan
     res = smf.ols("TOTEMP ~ GNP + POP", df).fit()
-    data = as_residual_data(res, order_by="YEAR")
+    data = as_residual_data(res, time="YEAR")
     assert list(data.index) == [y for y in range(1947, 1963) if y != 1952]
     np.testing.assert_allclose(data.resid, res.resid.to_numpy())  # reference: statsmodels' own residuals
     assert data.exog_names == ("Intercept", "GNP", "POP") and data.has_constant is True
@@ -125,7 +125,7 @@ def test_sarimax_seasonal_differencing_burn_in(quarterly_gdp):
 def test_sklearn_residuals_equal_statsmodels_ols(longley):
     from sklearn.linear_model import LinearRegression
     X, y = longley[["GNP", "UNEMP", "POP"]], longley.TOTEMP
-    data = as_residual_data(LinearRegression().fit(X, y), X=X, y=y)
+    data = as_residual_data(LinearRegression().fit(X, y), exog=X, endog=y)
     reference = sm.OLS(y, sm.add_constant(X)).fit()  # reference library: statsmodels OLS
     np.testing.assert_allclose(data.resid, reference.resid.to_numpy(), atol=1e-6 * y.std())
     np.testing.assert_allclose(data.exog, sm.add_constant(X).to_numpy())
@@ -136,25 +136,25 @@ def test_sklearn_residuals_equal_statsmodels_ols(longley):
 def test_sklearn_without_intercept_and_ridge_note(longley):
     from sklearn.linear_model import LinearRegression, Ridge
     X, y = longley[["GNP", "POP"]].to_numpy(), longley.TOTEMP.to_numpy()
-    data = as_residual_data(LinearRegression(fit_intercept=False).fit(X, y), X=X, y=y)
+    data = as_residual_data(LinearRegression(fit_intercept=False).fit(X, y), exog=X, endog=y)
     assert data.exog.shape == (16, 2) and data.has_constant is False
     assert data.exog_names == ("x1", "x2")
-    ridge = as_residual_data(Ridge(alpha=1.0).fit(X, y), X=X, y=y)
+    ridge = as_residual_data(Ridge(alpha=1.0).fit(X, y), exog=X, endog=y)
     assert any("not least-squares" in note for note in ridge.notes)
 
 
-@pytest.mark.parametrize("given", [{}, {"X": np.ones((5, 1))}, {"y": np.ones(5)}])
+@pytest.mark.parametrize("given", [{}, {"exog": np.ones((5, 1))}, {"endog": np.ones(5)}])
 def test_sklearn_missing_data_is_a_type_error(given):
     from sklearn.linear_model import LinearRegression
     est = LinearRegression().fit(np.arange(10.0)[:, None], np.arange(10.0))
-    with pytest.raises(TypeError, match=r"^a scikit-learn estimator needs X and y: "):
+    with pytest.raises(TypeError, match=r"^a scikit-learn estimator needs its X and y as exog and endog: "):
         as_residual_data(est, **given)
 
 
 def test_sklearn_unfitted_is_a_value_error():
     from sklearn.linear_model import LinearRegression
     with pytest.raises(ValueError, match="has not been fitted"):
-        as_residual_data(LinearRegression(), X=np.ones((5, 1)), y=np.ones(5))
+        as_residual_data(LinearRegression(), exog=np.ones((5, 1)), endog=np.ones(5))
 
 
 def test_importing_inputs_does_not_import_sklearn():
@@ -217,10 +217,10 @@ def test_dataframe_errors_name_the_column(longley):
         as_residual_data(longley, response="TOTEMP", predictors=["GNP"], groups="region")
 
 
-def test_dataframe_groups_order_by_and_missing_rows(longley):
+def test_dataframe_groups_time_and_missing_rows(longley):
     df = longley.assign(half=np.repeat(["early", "late"], 8))
     df.loc[3, "UNEMP"] = np.nan
-    data = as_residual_data(df, response="TOTEMP", predictors=["GNP", "UNEMP"], groups="half", order_by="YEAR")
+    data = as_residual_data(df, response="TOTEMP", predictors=["GNP", "UNEMP"], groups="half", time="YEAR")
     assert data.n == 15 and 3 not in data.index
     assert list(data.groups) == ["early"] * 7 + ["late"] * 8
     assert data.order_name == "YEAR" and data.frame.shape[0] == 15
@@ -256,8 +256,8 @@ def test_arguments_foreign_to_the_kind_are_type_errors(longley):
         as_residual_data(np.zeros(5), response="y")
     with pytest.raises(ValueError, match="'groups' names a column"):
         as_residual_data(np.zeros(5), groups="g")
-    with pytest.raises(ValueError, match=r"'order_by' must be a column name or have one entry per row \(5\)"):
-        as_residual_data(np.zeros(5), order_by=[1, 2])
+    with pytest.raises(ValueError, match=r"'time' must be a column name or have one entry per row \(5\)"):
+        as_residual_data(np.zeros(5), time=[1, 2])
 
 
 # --- ResidualData helpers ------------------------------------------------------------------------------------
@@ -265,7 +265,7 @@ def test_arguments_foreign_to_the_kind_are_type_errors(longley):
 def test_reorder_and_subset_move_every_row_field_together():
     idx = pd.Index(list("abcde"))
     data = as_residual_data(pd.Series([1.0, 2, 3, 4, 5], index=idx), exog=pd.DataFrame(
-        {"x": [10.0, 20, 30, 40, 50]}, index=idx), groups=np.array([0, 0, 1, 1, 1]), order_by=[5, 4, 3, 2, 1])
+        {"x": [10.0, 20, 30, 40, 50]}, index=idx), groups=np.array([0, 0, 1, 1, 1]), time=[5, 4, 3, 2, 1])
     back = data.reorder([4, 3, 2, 1, 0])
     assert list(back.index) == list("edcba") and list(back.resid) == [5, 4, 3, 2, 1]
     assert list(back.exog[:, 0]) == [50, 40, 30, 20, 10] and list(back.groups) == [1, 1, 1, 0, 0]

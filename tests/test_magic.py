@@ -77,7 +77,7 @@ def test_nothing_is_registered_at_import():
 def test_help_shows_options_and_examples(shell):
     _, cap = run(shell, "%lagsight?")
     text = cap.stdout
-    for token in ("--lags", "--alpha", "--alt", "--order", "--group", "--season", "--X", "--y", "--static",
+    for token in ("--max-lag", "--alpha", "--alternative", "--order", "--groups", "--period", "--X", "--y", "--static",
                   "--quiet", "Examples", "%lagsight fit --alpha 0.01"):
         assert token in text, token
 
@@ -108,7 +108,7 @@ def test_trailing_semicolon_silences(shell):
 
 
 def test_level_alternative_and_lags(shell):
-    d = shell.run_line_magic("lagsight", "fit --alpha 0.01 --alt two-sided --lags 12 --bg 3")
+    d = shell.run_line_magic("lagsight", "fit --alpha 0.01 --alternative two-sided --max-lag 12 --bg-max-lag 3")
     assert d.alpha == 0.01 and d.alternative == "two-sided"
     assert len(d.correlogram.lags) == 12
     assert d.tests[BG].df == (3.0,)
@@ -118,12 +118,12 @@ def test_level_alternative_and_lags(shell):
 
 
 def test_seasonal_period(shell):
-    d = shell.run_line_magic("lagsight", "fit --season 14")
+    d = shell.run_line_magic("lagsight", "fit --period 14")
     assert d.tests[SEASONAL].lag == 14
     resid = np.asarray(shell.user_ns["fit"].resid)
     # the order-s statistic by its definition: sum (e_t - e_{t-s})^2 / sum e_t^2
     assert d.tests[SEASONAL].statistic == pytest.approx(np.sum((resid[14:] - resid[:-14]) ** 2) / (resid @ resid))
-    off = shell.run_line_magic("lagsight", "fit --season 0")
+    off = shell.run_line_magic("lagsight", "fit --period 0")
     assert SEASONAL not in off.tests and SEASONAL not in off.errors
 
 
@@ -141,7 +141,7 @@ def test_row_order_options(shell):
 
 
 def test_group_column(shell):
-    d = shell.run_line_magic("lagsight", "gfit --group store")
+    d = shell.run_line_magic("lagsight", "gfit --groups store")
     assert d.groups is not None and d.groups.n_groups == 2
     e = np.asarray(shell.user_ns["gfit"].resid)
     # pooled within-group d by definition: differences never cross the group boundary
@@ -225,12 +225,12 @@ MISTAKES = [
     ("%lagsight fit.nope", "AttributeError"),
     ("%lagsight fit --alpha 1.5", "--alpha"),
     ("%lagsight fit --alpha abc", "--alpha"),
-    ("%lagsight fit --alt sideways", "--alt"),
-    ("%lagsight fit --lags 0", "--lags"),
-    ("%lagsight fit --season -2", "--season"),
-    ("%lagsight fit --season 1", "--season"),
+    ("%lagsight fit --alternative sideways", "--alternative"),
+    ("%lagsight fit --max-lag 0", "--max-lag"),
+    ("%lagsight fit --period -2", "--period"),
+    ("%lagsight fit --period 1", "--period"),
     ("%lagsight fit --order nosuchcolumn", "nosuchcolumn"),
-    ("%lagsight gfit --group nosuchcolumn", "nosuchcolumn"),
+    ("%lagsight gfit --groups nosuchcolumn", "nosuchcolumn"),
     ("%lagsight fit --bogus", "--bogus"),
     ("%lagsight fit --static --quiet", "--static"),
     ("%lagsight frame", "--y"),
@@ -273,13 +273,13 @@ def test_bounds_magic_matches_the_published_table(shell):
 
 def test_bounds_magic_options(shell):
     tight = shell.run_line_magic("lagsight_bounds", "50 3 --alpha 0.01")
-    assert tight.bounds.alpha == 0.01 and tight.bounds.n == 50 and tight.bounds.k == 3
+    assert tight.bounds.alpha == 0.01 and tight.bounds.n == 50 and tight.bounds.k_prime == 3
     # Savin & White (1977), n = 50, k' = 3: dL = 1.421 at 5 % (from memory); at 1 % it is lower
     five = shell.run_line_magic("lagsight_bounds", "50 3")
     assert five.lower == pytest.approx(1.421, abs=6e-4)
     assert tight.lower < five.lower
     plain = shell.run_line_magic("lagsight_bounds", "20 1 --no-constant")
-    assert plain.bounds.intercept is False
+    assert plain.bounds.has_constant is False
     assert plain.lower != pytest.approx(1.201, abs=1e-3)
 
 

@@ -131,8 +131,8 @@ def test_sort_by_a_column():
     assert report.order_used == "sorted by column when"
     np.testing.assert_array_equal(report.permutation, [1, 3, 5, 0, 4, 2])
     assert report.apply(data).frame["when"].is_monotonic_increasing
-    auto = check_order(as_residual_data(df, response="y", predictors=["x"], order_by="when"))
-    assert auto.order_used == "sorted by column when"  # order_by given to the adapter is honoured by 'auto'
+    auto = check_order(as_residual_data(df, response="y", predictors=["x"], time="when"))
+    assert auto.order_used == "sorted by column when"  # time given to the adapter is honoured by 'auto'
     with pytest.raises(ValueError, match="column 'date' not found"):
         check_order(data, order="date")
     with pytest.raises(TypeError, match="'order' must be"):

@@ -154,7 +154,7 @@ def test_result_fields_and_text():
     X = _design(40)
     pc = dw_power(X, rhos=[0.0, 0.3, 0.6], n_sim=500, seed=9)
     assert isinstance(pc, PowerCurve)
-    assert (pc.n, pc.k, pc.n_sim, pc.seed, pc.alpha) == (40, 2, 500, 9, 0.05)
+    assert (pc.n, pc.rank, pc.n_sim, pc.seed, pc.alpha) == (40, 2, 500, 9, 0.05)
     assert np.allclose(pc.se, np.sqrt(pc.power * (1 - pc.power) / 500))
     assert pc.method.startswith("Monte Carlo with 500 draws of AR(1) errors per rho, seed 9")
     text = str(pc)
@@ -233,16 +233,23 @@ def test_large_n_runs_in_bounded_memory():
         ({"rhos": [0.1, np.nan]}, r"'rhos' must be finite \(got nan\)"),
         ({"rhos": []}, r"'rhos' must be a non-empty 1-D array"),
         ({"rhos": [[0.1, 0.2]]}, r"'rhos' must be a non-empty 1-D array \(got shape \(1, 2\)\)"),
-        ({"n_sim": 99}, r"'n_sim' must be an integer >= 100 \(got 99\)"),
-        ({"n_sim": 500.0}, r"'n_sim' must be an integer >= 100 \(got 500.0\)"),
-        ({"n_sim": True}, r"'n_sim' must be an integer >= 100 \(got True\)"),
-        ({"seed": -1}, r"'seed' must be an integer >= 0 \(got -1\)"),
+        ({"n_sim": 99}, r"'n_sim' must be an integer ≥ 100 \(got 99\)"),
+        ({"seed": -1}, r"'seed' must be an integer ≥ 0 \(got -1\)"),
         ({"alternative": "up"}, r"'alternative' must be one of"),
-        ({"lag": 0}, r"'lag' must be an integer >= 1 \(got 0\)"),
+        ({"lag": 0}, r"'lag' must be an integer ≥ 1 \(got 0\)"),
     ],
 )
 def test_bad_inputs(kwargs, match):
     with pytest.raises(ValueError, match=match):
+        dw_power(_design(30), **kwargs)
+
+
+@pytest.mark.parametrize("kwargs,match", [
+    ({"n_sim": 500.0}, r"'n_sim' must be an integer ≥ 100 \(got 500.0\)"),
+    ({"n_sim": True}, r"'n_sim' must be an integer ≥ 100 \(got True\)"),
+])
+def test_wrong_types_are_type_errors(kwargs, match):
+    with pytest.raises(TypeError, match=match):
         dw_power(_design(30), **kwargs)
 
 

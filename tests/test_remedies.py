@@ -40,32 +40,32 @@ def _ar1_data(n, rho, seed, beta=(1.0, 2.0)):
 # ----------------------------------------------------------------------- HAC
 def test_newey_west_matches_published_reference(macro_growth):
     y, X = macro_growth
-    nw = newey_west(y, X, maxlags=4, use_correction=False)
+    nw = newey_west(y, X, max_lag=4, use_correction=False)
     # statsmodels test suite (regression/tests/test_glsar_gretl.py, "HAC standard errors,
     # bandwidth 4 (Bartlett kernel)", gretl output): coef, se, t-ratio, p-value with t(199)
     np.testing.assert_almost_equal(nw.params, [-9.48167, 4.37422, -0.613997], 5)
     np.testing.assert_almost_equal(nw.bse, [1.17709, 0.328787, 0.293619], 5)
     np.testing.assert_almost_equal(nw.tvalues, [-8.055, 13.30, -2.091], 2)
     np.testing.assert_allclose(nw.pvalues, [7.17e-14, 2.62e-29, 0.0378], rtol=2e-3)
-    assert nw.maxlags == 4 and nw.rule == "user" and nw.df_resid == 199
+    assert nw.max_lag == 4 and nw.lag_rule == "user" and nw.df_resid == 199
 
 
 def test_newey_west_correction_factor(macro_growth):
     y, X = macro_growth
-    a = newey_west(y, X, maxlags=4, use_correction=False)
-    b = newey_west(y, X, maxlags=4, use_correction=True)
+    a = newey_west(y, X, max_lag=4, use_correction=False)
+    b = newey_west(y, X, max_lag=4, use_correction=True)
     n, k = X.shape
     np.testing.assert_allclose(b.bse, a.bse * np.sqrt(n / (n - k)), rtol=1e-12)
-    z = newey_west(y, X, maxlags=4, use_t=False)
+    z = newey_west(y, X, max_lag=4, use_t=False)
     np.testing.assert_allclose(z.pvalues, 2 * stats.norm.sf(np.abs(z.tvalues)), rtol=1e-10)
 
 
 def test_common_rule_values():
     # common practice: floor(4 (n/100)^(2/9))
-    assert hac_lag(100, "common").lag == 4
-    assert hac_lag(202, "common").lag == 4  # the "bandwidth 4" of the reference HAC output above
-    assert hac_lag(1000, "common").lag == math.floor(4 * 10 ** (2 / 9)) == 6
-    assert hac_lag(202, "common").bandwidth == pytest.approx(4 * 2.02 ** (2 / 9), rel=1e-14)
+    assert hac_lag(100, lag_rule="common").lag == 4
+    assert hac_lag(202, lag_rule="common").lag == 4  # the "bandwidth 4" of the reference HAC output above
+    assert hac_lag(1000, lag_rule="common").lag == math.floor(4 * 10 ** (2 / 9)) == 6
+    assert hac_lag(202, lag_rule="common").bandwidth == pytest.approx(4 * 2.02 ** (2 / 9), rel=1e-14)
 
 
 def test_newey_west_1994_plugin_by_hand(macro_growth):
@@ -81,13 +81,13 @@ def test_newey_west_1994_plugin_by_hand(macro_growth):
     s0 = sig[0] + 2 * sum(sig[1:])
     s1 = 2 * sum(j * sig[j] for j in range(1, m + 1))
     gamma = 1.1447 * (s1 / s0) ** (2 / 3)
-    out = hac_lag(n, "newey-west-1994", resid=e, exog=X)
+    out = hac_lag(n, lag_rule="newey-west-1994", resid=e, exog=X)
     assert out.pilot_lag == m
     assert out.gamma == pytest.approx(gamma, rel=1e-10)
     assert out.bandwidth == pytest.approx(gamma * n ** (1 / 3), rel=1e-10)
     assert out.lag == math.floor(gamma * n ** (1 / 3))
     auto = newey_west(y, X)
-    assert auto.maxlags == out.lag and auto.rule == "newey-west-1994"
+    assert auto.max_lag == out.lag and auto.lag_rule == "newey-west-1994"
 
 
 def test_plugin_lag_grows_with_autocorrelation():
@@ -111,20 +111,20 @@ def test_plugin_lag_grows_with_autocorrelation():
         e = sm.OLS(1 + 2 * x + ar1(rho_e), X).fit().resid
         lags.append(hac_lag(n, resid=e, exog=X).lag)
     assert lags[0] < lags[1] < lags[2]
-    assert lags[0] <= hac_lag(n, "common").lag < lags[2]
+    assert lags[0] <= hac_lag(n, lag_rule="common").lag < lags[2]
 
 
 def test_hac_lag_rejects_bad_input():
-    with pytest.raises(ValueError, match="'rule' must be one of"):
-        hac_lag(100, "andrews")
+    with pytest.raises(ValueError, match="'lag_rule' must be one of"):
+        hac_lag(100, lag_rule="andrews")
     with pytest.raises(ValueError, match="'resid' must be given"):
         hac_lag(100)
     with pytest.raises(ValueError, match="'resid' must have n=100"):
         hac_lag(100, resid=np.ones(99))
-    with pytest.raises(ValueError, match="'n' must be an integer >= 2"):
-        hac_lag(1, "common")
-    with pytest.raises(ValueError, match="'maxlags' must be < n=10"):
-        newey_west(np.arange(10.0) ** 2, np.column_stack([np.ones(10), np.arange(10.0)]), maxlags=10)
+    with pytest.raises(ValueError, match="'n' must be an integer ≥ 2"):
+        hac_lag(1, lag_rule="common")
+    with pytest.raises(ValueError, match="'max_lag' must be < n = 10"):
+        newey_west(np.arange(10.0) ** 2, np.column_stack([np.ones(10), np.arange(10.0)]), max_lag=10)
 
 
 # ---------------------------------------------------------------------- FGLS
@@ -138,7 +138,7 @@ def test_cochrane_orcutt_matches_published_reference(macro_growth):
     np.testing.assert_allclose(co.params, [4.3704012379033, -.5792713864578, -9.509886614971], rtol=1e-10)
     np.testing.assert_allclose(co.bse, [.20815070994319, .26801792119756, .99049648344574], rtol=1e-10)
     np.testing.assert_allclose(co.pvalues, [2.939551581e-52, .03187117882819, 3.656321106e-18], rtol=1e-8)
-    assert co.nobs == 201 and co.df_resid == 198 and co.iterations == 4 and co.converged
+    assert co.n == 201 and co.df_resid == 198 and co.iterations == 4 and co.converged
 
 
 def test_cochrane_orcutt_equals_glsar_at_same_rho(macro_growth):
@@ -166,7 +166,7 @@ def test_prais_winsten_equals_gls_with_ar1_covariance():
     ref = GLS(y, X, sigma=sigma).fit()
     np.testing.assert_allclose(pw.params, ref.params, rtol=1e-9)
     np.testing.assert_allclose(pw.bse, ref.bse, rtol=1e-9)
-    assert pw.nobs == 40 and pw.converged
+    assert pw.n == 40 and pw.converged
 
 
 @pytest.mark.parametrize("fn", [prais_winsten, cochrane_orcutt])

@@ -72,7 +72,7 @@ def test_screen_agrees_with_reference_libraries_and_the_per_model_engine():
     assert sorted(t.index) == sorted(fits)
     for name, fit in fits.items():
         row = t.loc[name]
-        assert (row["n"], row["k"], row["status"]) == (120, 3, "ok")
+        assert (row["n"], row["rank"], row["status"]) == (120, 3, "ok")
         # statistic: statsmodels.stats.stattools.durbin_watson
         assert row["dw"] == pytest.approx(sm_durbin_watson(fit.resid), rel=1e-12)
         # exact p-value and its method: the same model tested alone with lagsight.durbin_watson
@@ -110,7 +110,7 @@ def test_grunfeld_one_ols_per_firm_matches_statsmodels():
         part = part.sort_values("year")
         fit = sm.OLS(part["invest"], sm.add_constant(part[["value", "capital"]])).fit()
         row = t.loc[firm]
-        assert (row["n"], row["k"]) == (20, 3)
+        assert (row["n"], row["rank"]) == (20, 3)
         assert row["order"] == "sorted by column year"
         assert row["dw"] == pytest.approx(sm_durbin_watson(fit.resid), rel=1e-9)
         # order min(10, 20 // 5) = 4 (common practice)
@@ -141,7 +141,7 @@ def test_residual_columns_shared_design_and_models_without_design():
     for name in cols:
         alone = lagsight.durbin_watson(frame[name].to_numpy(), X)
         assert t.loc[name, "dw_pvalue"] == pytest.approx(alone.pvalue, rel=1e-10, abs=1e-300)
-        assert t.loc[name, "k"] == 4
+        assert t.loc[name, "rank"] == 4
     assert res.table["model"].iloc[0] == "sensor 1"  # the positively correlated one leads
 
     # a residual series without its design has bounds only: out of the adjustment, sorted after the rest
@@ -164,7 +164,7 @@ def test_a_scikit_learn_entry_and_a_dataframe_entry():
     y = 2 + X @ np.array([1.0, -1.0]) + _ar1(90, 0.3, rng)
     est = LinearRegression().fit(X, y)
     frame = pd.DataFrame({"load": y, "t1": X[:, 0], "t2": X[:, 1]})
-    res = screen({"sk": {"model": est, "X": X, "y": y}, "frame": frame},
+    res = screen({"sk": {"model": est, "exog": X, "endog": y}, "frame": frame},
                  response="load", predictors=["t1", "t2"], progress=False)
     t = res.table.set_index("model")
     design = sm.add_constant(X)
@@ -318,7 +318,7 @@ def test_progress_bar_and_views(capsys):
     ({"models": {}}, ValueError, "'models' must hold at least one model (got 0)"),
     ({"models": {"a": np.arange(10.0)}, "executor": "pool"}, TypeError,
      "'executor' must be a concurrent.futures.Executor (got str)"),
-    ({"models": {"a": np.arange(10.0)}, "chunksize": 0}, ValueError, "'chunksize' must be a positive integer (got 0)"),
+    ({"models": {"a": np.arange(10.0)}, "chunksize": 0}, ValueError, "'chunksize' must be an integer ≥ 1 (got 0)"),
     ({"models": {"a": np.arange(10.0)}, "groups": "g"}, TypeError, "'groups' applies when 'models' is a DataFrame"),
     ({"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "g"}, TypeError,
      "needs response= and predictors="),

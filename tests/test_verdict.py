@@ -108,7 +108,7 @@ def test_seasonal_test_runs_only_when_the_period_is_known():
     d = lagsight.diagnose(**plain, remedies=False)
     assert SEASONAL not in d.tests and SEASONAL not in d.errors
     assert d.verdict.family == (DW,) and d.verdict.rule == "leading test Durbin-Watson at alpha 0.05"
-    given = lagsight.diagnose(**plain, seasonal_period=12, remedies=False)
+    given = lagsight.diagnose(**plain, period=12, remedies=False)
     assert given.verdict.family == (DW, SEASONAL)
 
 

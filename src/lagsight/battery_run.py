@@ -73,8 +73,8 @@ class BatterySettings:
     alpha: float = 0.05
     alternative: str = "positive"
     max_lag: int | None = None
-    bg_order: int | None = None
-    seasonal_period: int | None = None
+    bg_max_lag: int | None = None
+    period: int | None = None
     lb_lag: int | None = None
     correlogram: bool = True
 
@@ -88,8 +88,8 @@ class BatteryRun:
     correlogram: Correlogram | None
     distribution: DurbinWatsonDistribution | None
     lagged_response: str | None
-    seasonal_period: int | None
-    bg_order: int | None
+    period: int | None
+    bg_max_lag: int | None
     notes: tuple = field(default_factory=tuple)
     plan: LeadPlan | None = None
 
@@ -145,7 +145,7 @@ def _seasonal_fits(n: int, period: int | None, k: int) -> bool:
     return bool(period) and n > 2 * period + k
 
 
-def lead_plan(data: ResidualData, *, lagged_response: str | None, seasonal_period: int | None) -> LeadPlan:
+def lead_plan(data: ResidualData, *, lagged_response: str | None, period: int | None) -> LeadPlan:
     """The one rule for which test leads the verdict; it reads the model's kind, never a p-value."""
     n = data.n
     if data.exog is not None and data.dw_applicable:
@@ -153,7 +153,7 @@ def lead_plan(data: ResidualData, *, lagged_response: str | None, seasonal_perio
         if lagged_response is not None:
             plan = LeadPlan("lagged response", DALT, (DALT,))
         else:
-            if _seasonal_fits(n, seasonal_period, k):
+            if _seasonal_fits(n, period, k):
                 plan = LeadPlan("regression", DW, (DW, SEASONAL), weights=SEASONAL_PAIR_WEIGHTS)
             else:
                 plan = LeadPlan("regression", DW, (DW,))
@@ -177,7 +177,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     errors: dict[str, str] = {}
     notes: list[str] = []
     alt = settings.alternative
-    period = settings.seasonal_period if settings.seasonal_period and settings.seasonal_period > 1 else None
+    period = settings.period if settings.period and settings.period > 1 else None
 
     def attempt(name, fn):
         try:
@@ -192,14 +192,14 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         lag_col = battery.detect_lagged_response(data.exog, data.endog, data.exog_names)
         if lag_col is not None:
             lagged_name = data.exog_names[lag_col] if data.exog_names else f"column {lag_col}"
-    plan = lead_plan(data, lagged_response=lagged_name, seasonal_period=period)
-    bg_order = settings.bg_order or infer_bg_order(data.index)
-    bg_order = int(max(1, min(bg_order, max(1, n // 4))))
+    plan = lead_plan(data, lagged_response=lagged_name, period=period)
+    bg_max_lag = settings.bg_max_lag or infer_bg_order(data.index)
+    bg_max_lag = int(max(1, min(bg_max_lag, max(1, n // 4))))
     if plan.problem is not None:
         for name in (DW, BG, LB, RUNS):
             errors[name] = "not run: the input is degenerate (see the verdict)"
         return BatteryRun(tests=tests, errors=errors, correlogram=None, distribution=None,
-                          lagged_response=lagged_name, seasonal_period=period, bg_order=bg_order,
+                          lagged_response=lagged_name, period=period, bg_max_lag=bg_max_lag,
                           notes=(f"No test was run: {plan.problem}.",), plan=plan)
 
     # every statistic is scale-free: residuals and design columns of unit size keep sums of squares finite
@@ -229,16 +229,16 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
             "towards 2 there, so Durbin's alternative test leads and h is shown beside it."
         )
         attempt(DH, lambda: battery.durbin_h(raw, data.exog, data.endog, lag_column=lag_col, alternative=alt))
-        attempt(DALT, lambda: battery.durbin_alternative(e, exog, order=1, alternative=alt))
+        attempt(DALT, lambda: battery.durbin_alternative(e, exog, max_lag=1, alternative=alt))
 
     # Breusch-Godfrey
-    attempt(BG, lambda: battery.breusch_godfrey(e, np.ones((n, 1)) if exog is None else exog, order=bg_order))
+    attempt(BG, lambda: battery.breusch_godfrey(e, np.ones((n, 1)) if exog is None else exog, max_lag=bg_max_lag))
 
     # Ljung-Box and Box-Pierce
     lb_lag = settings.lb_lag or ljung_box_lag(n, period, leading=plan.leading == LB)
     if data.arma_df and lb_lag <= data.arma_df:
         lb_lag = data.arma_df + max(1, lb_lag)
-    attempt(LB, lambda: battery.ljung_box(e, lags=int(lb_lag), model_df=data.arma_df))
+    attempt(LB, lambda: battery.ljung_box(e, max_lag=int(lb_lag), model_df=data.arma_df))
 
     # seasonal order-s Durbin-Watson: only when the period is known (index frequency or given)
     if period:
@@ -260,13 +260,13 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         nlags = settings.max_lag or default_max_lag(n, period)
         nlags = int(max(1, min(nlags, n // 2 - 1)))
         try:
-            cg = correlogram(e, nlags=nlags, alpha=settings.alpha)
+            cg = correlogram(e, max_lag=nlags, alpha=settings.alpha)
         except ValueError as err:
             errors["Correlogram"] = str(err)
     return BatteryRun(
         tests=tests, errors=errors, correlogram=cg, distribution=dist,
-        lagged_response=lagged_name, seasonal_period=period,
-        bg_order=bg_order, notes=tuple(notes), plan=plan,
+        lagged_response=lagged_name, period=period,
+        bg_max_lag=bg_max_lag, notes=tuple(notes), plan=plan,
     )
 
 

@@ -19,7 +19,8 @@ from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
 from .stats.bounds import dw_bounds
 from .stats.correlogram import Correlogram
-from .stats.durbin_watson import DurbinWatsonDistribution, _check_alpha
+from .stats._arrays import check_alpha, check_choice, check_flag, check_optional_int, check_period
+from .stats.durbin_watson import DurbinWatsonDistribution
 from .stats.power import PowerCurve, dw_power
 from .stats.remedies import InferenceComparison, compare_inference
 from .stats.results import check_alternative, tail_pvalue
@@ -56,7 +57,7 @@ class Diagnosis:
     remedies: InferenceComparison | None = None
     power: PowerCurve | None = None
     groups: GroupSummary | None = None
-    seasonal_period: int | None = None
+    period: int | None = None
     lagged_response: str | None = None
     notes: tuple = ()
     #: which test leads the verdict, fixed from the model's kind (see lagsight.battery_run.lead_plan)
@@ -93,7 +94,7 @@ class Diagnosis:
 
     def reassess(self, *, alpha: float | None = None, alternative: str | None = None) -> "Diagnosis":
         """The same diagnosis at another alpha or alternative, without recomputing distributions."""
-        alpha = self.alpha if alpha is None else _check_alpha(alpha)
+        alpha = self.alpha if alpha is None else check_alpha(alpha)
         alternative = self.alternative if alternative is None else check_alternative(alternative)
         tests = dict(self.tests)
         for name, res in self.tests.items():
@@ -107,7 +108,7 @@ class Diagnosis:
             bounds = getattr(res, "bounds", None)
             if bounds is not None:  # the bounds are for one level: draw them again at this one
                 if bounds.alpha != alpha:
-                    bounds = dw_bounds(bounds.n, bounds.k, alpha=alpha, intercept=bounds.intercept)
+                    bounds = dw_bounds(bounds.n, bounds.k_prime, alpha=alpha, has_constant=bounds.has_constant)
                 changes.update(bounds=bounds, bounds_decision=bounds.decision(res.statistic, alternative),
                                alternative=alternative)
             if changes:
@@ -163,7 +164,7 @@ def _remedies(data: ResidualData, alpha: float):
     if data.endog is None or data.exog is None:
         return None
     try:
-        return compare_inference(data.endog, data.exog, list(data.exog_names) if data.exog_names else None,
+        return compare_inference(data.endog, data.exog, names=list(data.exog_names) if data.exog_names else None,
                                  alpha=alpha)
     except (ValueError, ZeroDivisionError, FloatingPointError, np.linalg.LinAlgError):
         return None
@@ -173,13 +174,13 @@ def _verdict(d: Diagnosis, remedies) -> Verdict:
     return write_verdict(
         d.tests, d.plan, alpha=d.alpha, alternative=d.alternative, errors=d.errors,
         order_warnings=d.order.warnings, shuffled=d.shuffled, lagged_response=d.lagged_response,
-        remedies=remedies, seasonal_period=d.seasonal_period, groups=d.groups,
+        remedies=remedies, period=d.period, groups=d.groups,
     )
 
 
-def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None, groups=None,
-             order="auto", order_by=None, alpha: float = 0.05, alternative: str = "positive",
-             max_lag: int | None = None, bg_order: int | None = None, seasonal_period: int | None = None,
+def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, groups=None,
+             order: str = "auto", time=None, alpha: float = 0.05, alternative: str = "positive",
+             max_lag: int | None = None, bg_max_lag: int | None = None, period: int | None = None,
              remedies: bool | str = "auto", power: bool = False) -> Diagnosis:
     """Diagnose serial correlation in a model's residuals.
 
@@ -187,38 +188,42 @@ def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None
     ----------
     model
         A statsmodels regression or ARIMA/SARIMAX result, a scikit-learn
-        regressor (with ``X`` and ``y``), residuals (array or Series, optionally
-        with ``exog``), or a DataFrame with ``response`` and ``predictors``.
+        regressor (with its X as ``exog`` and y as ``endog``), residuals (array or
+        Series, optionally with their design ``exog``), or a DataFrame with
+        ``response`` and ``predictors``.
     groups : str or array, optional
         Group labels (a column name for DataFrames): the battery runs within each group.
     order : {'auto', 'keep', 'index'} or column name
         Order in which residuals are tested (see :func:`lagsight.order.check_order`).
+    time : str or array, optional
+        Time stamps (a column name for DataFrames, or one value per row) that the
+        order check and ``order='time'`` use.
     alpha, alternative
         Level and direction ('positive', 'negative', 'two-sided').
-    max_lag, bg_order, seasonal_period
-        Correlogram lags, Breusch-Godfrey order, seasonal period s (0 turns the
-        seasonal test off); inferred from the index frequency when omitted.
+    max_lag, bg_max_lag, period
+        Highest lag of the correlogram and Ljung-Box test, highest lag of the
+        Breusch-Godfrey test, seasonal period s (0 turns the seasonal test off);
+        inferred from the index frequency when omitted.
     remedies : 'auto', True or False
         Corrected inference: when correlation is found ('auto'), always, or never.
     power : bool
         Also simulate the power of the exact DW test against AR(1) errors.
     """
-    alpha = _check_alpha(alpha)
+    alpha = check_alpha(alpha)
     check_alternative(alternative)
-    if remedies not in ("auto", True, False):
-        raise ValueError(f"'remedies' must be 'auto', True or False (got {remedies!r})")
-    data = as_residual_data(model, exog=exog, X=X, y=y, response=response, predictors=predictors,
-                            groups=groups, order_by=order_by)
+    max_lag = check_optional_int(max_lag, "max_lag", minimum=1)
+    bg_max_lag = check_optional_int(bg_max_lag, "bg_max_lag", minimum=1)
+    period = check_period(period)
+    check_choice(remedies, "remedies", ("auto", True, False))
+    power = check_flag(power, "power")
+    data = as_residual_data(model, exog=exog, endog=endog, response=response, predictors=predictors,
+                            groups=groups, time=time)
     report = check_order(data, order=order)
     data = report.apply(data)
-    if seasonal_period is None:
+    if period is None:
         period = infer_seasonal_period(data.index)
-    else:
-        if not isinstance(seasonal_period, (int, np.integer)) or seasonal_period < 0:
-            raise ValueError(f"'seasonal_period' must be a non-negative integer (got {seasonal_period!r})")
-        period = int(seasonal_period) or None
-    settings = BatterySettings(alpha=alpha, alternative=alternative, max_lag=max_lag, bg_order=bg_order,
-                               seasonal_period=period)
+    settings = BatterySettings(alpha=alpha, alternative=alternative, max_lag=max_lag, bg_max_lag=bg_max_lag,
+                               period=period or None)
     notes = list(data.notes) + list(report.warnings)
     group_summary = None
     if data.groups is not None and pd.Series(data.groups).nunique() > 1:
@@ -234,7 +239,7 @@ def diagnose(model, *, exog=None, X=None, y=None, response=None, predictors=None
     d = Diagnosis(
         data=data, order=report, tests=tests, errors=dict(run.errors), verdict=None, alpha=alpha,
         alternative=alternative, correlogram=run.correlogram, distribution=run.distribution,
-        groups=group_summary, seasonal_period=run.seasonal_period, lagged_response=run.lagged_response,
+        groups=group_summary, period=run.period, lagged_response=run.lagged_response,
         notes=tuple(notes), plan=run.plan,
     )
     verdict = _verdict(d, None)

@@ -326,8 +326,8 @@ class BoundsView:
     def rows(self) -> list[tuple[str, str]]:
         b = self.bounds
         return [
-            ("n", f"{b.n:,}"), ("k' (regressors without the constant)", str(b.k)), ("alpha", f"{b.alpha:g}"),
-            ("model has a constant", "yes" if b.intercept else "no"),
+            ("n", f"{b.n:,}"), ("k' (regressors without the constant)", str(b.k_prime)), ("alpha", f"{b.alpha:g}"),
+            ("model has a constant", "yes" if b.has_constant else "no"),
             ("dL", f"{b.lower:.3f}"), ("dU", f"{b.upper:.3f}"),
             ("4 - dU", f"{4 - b.upper:.3f}"), ("4 - dL", f"{4 - b.lower:.3f}"), ("method", str(b.method)),
         ]

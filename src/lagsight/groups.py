@@ -134,8 +134,8 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     codes, uniques = pd.factorize(labels, sort=False)
     blocks = [np.flatnonzero(codes == g) for g in range(len(uniques))]
     light = BatterySettings(
-        alpha=settings.alpha, alternative=settings.alternative, bg_order=settings.bg_order,
-        seasonal_period=None, lb_lag=settings.lb_lag, correlogram=False,
+        alpha=settings.alpha, alternative=settings.alternative, bg_max_lag=settings.bg_max_lag,
+        period=None, lb_lag=settings.lb_lag, correlogram=False,
     )
     rows, skipped = [], {}
     for g, rows_g in enumerate(blocks):

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import unit_columns
+from .stats._arrays import has_constant, unit_columns
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -26,7 +26,7 @@ ACCEPTED_KINDS = (
     "a pandas DataFrame with response= and predictors=",
 )
 
-_ARG_KIND = {"exog": "residual arrays", "X": "scikit-learn estimators", "y": "scikit-learn estimators",
+_ARG_KIND = {"exog": "residual arrays and scikit-learn estimators", "endog": "scikit-learn estimators",
              "response": "DataFrames", "predictors": "DataFrames"}
 _ROW_FIELDS = ("resid", "exog", "endog", "groups", "order_values")
 
@@ -121,19 +121,8 @@ class ResidualData:
 
 
 def _detect_constant(X: np.ndarray | None) -> bool | None:
-    """True if a column of ``X`` is constant or the columns span a constant."""
-    if X is None:
-        return None
-    X = X[np.isfinite(X).all(axis=1)]
-    if X.shape[1] == 0 or X.shape[0] == 0:
-        return False
-    if np.any((np.ptp(X, axis=0) == 0) & (X[0] != 0)):
-        return True
-    Xs = unit_columns(X)  # largest entry 1 first, so the norms below cannot overflow
-    Xs = Xs / np.maximum(np.linalg.norm(Xs, axis=0), np.finfo(float).tiny)  # scale columns to unit length
-    ones = np.ones(X.shape[0])
-    r = ones - Xs @ np.linalg.lstsq(Xs, ones, rcond=None)[0]
-    return bool(np.sqrt(r @ r / X.shape[0]) < 1e-9)  # exact spans leave ~1e-15; near-collinear data far more
+    """None without a design, else :func:`lagsight.stats._arrays.has_constant`."""
+    return None if X is None else has_constant(X)
 
 
 def _as_2d(exog, name: str) -> tuple[np.ndarray, tuple | None, pd.Index | None]:
@@ -264,26 +253,27 @@ def _check_fitted(est) -> None:
 
 
 def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
+    """``X`` is the ``exog`` and ``y`` the ``endog`` the estimator is checked on."""
     _check_fitted(est)
     name = type(est).__name__
     yv = np.asarray(y.to_numpy() if isinstance(y, (pd.Series, pd.DataFrame)) else y, dtype=float)
     if yv.ndim == 2 and yv.shape[1] == 1:
         yv = yv.ravel()
     if yv.ndim != 1:
-        raise ValueError(f"'y' must be 1-D (got shape {yv.shape})")
+        raise ValueError(f"'endog' must be 1-D (got shape {yv.shape})")
     n = yv.size
     if len(X) != n:
-        raise ValueError(f"'X' and 'y' must have the same number of rows (got {len(X)} and {n})")
+        raise ValueError(f"'exog' and 'endog' must have the same number of rows (got {len(X)} and {n})")
     index = X.index if isinstance(X, (pd.DataFrame, pd.Series)) else (
         y.index if isinstance(y, (pd.Series, pd.DataFrame)) else pd.RangeIndex(n))
     try:
-        Xv, names, _ = _as_2d(X, "X")
+        Xv, names, _ = _as_2d(X, "exog")
     except ValueError:
         Xv, names = None, None  # e.g. categorical columns handled inside a pipeline
     keep = np.isfinite(yv) & (np.isfinite(Xv).all(axis=1) if Xv is not None else True)
     notes = []
     if (~keep).any():
-        notes.append(f"{_rows(int((~keep).sum()))} with missing or infinite values in X or y were dropped; "
+        notes.append(f"{_rows(int((~keep).sum()))} with missing or infinite values in exog or endog were dropped; "
                      "the time order has gaps there.")
     pos = np.flatnonzero(keep)
     X_kept = X.iloc[pos] if isinstance(X, (pd.DataFrame, pd.Series)) else np.asarray(X)[pos]
@@ -377,7 +367,7 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
 
 
 def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
-    """Resolve ``groups``/``order_by`` to an array with one entry per input row."""
+    """Resolve ``groups``/``time`` to an array with one entry per input row."""
     if value is None:
         return None, None
     if isinstance(value, str):
@@ -393,8 +383,8 @@ def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
     return arr, (str(name) if name is not None else None)
 
 
-def as_residual_data(model, *, exog=None, X=None, y=None, response=None, predictors=None,
-                     groups=None, order_by=None, add_constant: bool = True) -> ResidualData:
+def as_residual_data(model, *, exog=None, endog=None, response=None, predictors=None,
+                     groups=None, time=None, add_constant: bool = True) -> ResidualData:
     """Turn a fitted model or a residual vector into a :class:`ResidualData`.
 
     Parameters
@@ -402,13 +392,14 @@ def as_residual_data(model, *, exog=None, X=None, y=None, response=None, predict
     model : object
         One of :data:`ACCEPTED_KINDS`.
     exog : array-like or DataFrame, optional
-        Design that produced residuals given as an array, list or Series.
-    X, y : array-like, optional
-        Data for a scikit-learn estimator (required for that kind).
+        The design: for residuals given as an array, list or Series, the design
+        that produced them; for a scikit-learn estimator, its X (required).
+    endog : array-like, optional
+        The response y of a scikit-learn estimator (required for that kind).
     response, predictors : str and list of str, optional
         Columns when ``model`` is a DataFrame; lagsight then fits OLS, with an
         intercept if ``add_constant``.
-    groups, order_by : str or array-like, optional
+    groups, time : str or array-like, optional
         A column of the input DataFrame, or values aligned with the input rows.
 
     Raises
@@ -423,28 +414,28 @@ def as_residual_data(model, *, exog=None, X=None, y=None, response=None, predict
         hint = " (an unfitted model? call .fit() first)" if hasattr(model, "fit") else ""
         raise TypeError(f"Unexpected type for 'model': {type(model)!r}; expected one of: "
                         + "; ".join(ACCEPTED_KINDS) + hint)
-    if kind == "sklearn" and (X is None or y is None):
-        lacking = " and ".join(a for a, v in (("X", X), ("y", y)) if v is None)
-        raise TypeError(f"a scikit-learn estimator needs X and y: pass {lacking} "
+    if kind == "sklearn" and (exog is None or endog is None):
+        lacking = " and ".join(a for a, v in (("exog", exog), ("endog", endog)) if v is None)
+        raise TypeError(f"a scikit-learn estimator needs its X and y as exog and endog: give {lacking} "
                         f"(the data {type(model).__name__} is to be checked on)")
-    allowed = {"regression": (), "statespace": (), "sklearn": ("X", "y"), "array": ("exog",),
+    allowed = {"regression": (), "statespace": (), "sklearn": ("exog", "endog"), "array": ("exog",),
                "frame": ("response", "predictors")}[kind]
-    for arg, val in (("exog", exog), ("X", X), ("y", y), ("response", response), ("predictors", predictors)):
+    for arg, val in (("exog", exog), ("endog", endog), ("response", response), ("predictors", predictors)):
         if val is not None and arg not in allowed:
             raise TypeError(f"'{arg}' does not apply when 'model' is {type(model).__name__} "
                             f"(got {type(val).__name__}); it is for {_ARG_KIND[arg]}")
     build = {"regression": lambda: _from_regression(model), "statespace": lambda: _from_statespace(model),
-             "sklearn": lambda: _from_sklearn(model, X, y), "array": lambda: _from_array(model, exog),
+             "sklearn": lambda: _from_sklearn(model, exog, endog), "array": lambda: _from_array(model, exog),
              "frame": lambda: _from_frame(model, response, predictors, add_constant)}[kind]
-    return _finish(*build(), groups, order_by)
+    return _finish(*build(), groups, time)
 
 
-def _finish(raw: ResidualData, keep, groups, order_by) -> ResidualData:
+def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
     n0 = raw.resid.size
     if n0 == 0:
         raise ValueError("'model' has no residuals (got 0 rows)")
     group_arr, _ = _aligned(groups, "groups", n0, raw.frame)
-    order_arr, order_name = _aligned(order_by, "order_by", n0, raw.frame)
+    order_arr, order_name = _aligned(time, "time", n0, raw.frame)
     keep = np.ones(n0, dtype=bool) if keep is None else keep.copy()
     notes = list(raw.notes)
     bad = keep & ~np.isfinite(raw.resid)

@@ -29,10 +29,19 @@ def _unquote(text: str | None) -> str | None:
     return text
 
 
-def _positive_int(name: str, value):
-    if value is not None and value < 1:
-        raise UsageError(f"{name} must be a positive integer (got {value})")
-    return value
+#: API argument -> the magic option that sets it, so an error raised by the library's checks
+#: (the one place for input rules) names what the user typed
+_OPTION_OF = {"alpha": "--alpha", "alternative": "--alternative", "max_lag": "--max-lag",
+              "bg_max_lag": "--bg-max-lag", "period": "--period", "order": "--order", "groups": "--groups",
+              "exog": "--X", "endog": "--y", "response": "--y", "predictors": "--X", "time": "--order"}
+
+
+def _usage(err: BaseException, names: dict = _OPTION_OF) -> UsageError:
+    """The library's one-line message, with API argument names replaced by the magic's options."""
+    text = _first_line(err)
+    for arg, option in names.items():
+        text = text.replace(f"'{arg}'", option)
+    return UsageError(text)
 
 
 @magics_class
@@ -57,16 +66,16 @@ class LagsightMagics(Magics):
 
     @magic_arguments()
     @argument("expr", nargs="*", help="The model or residuals: a name or expression from the notebook.")
-    @argument("--lags", type=int, metavar="N", help="Largest lag of the correlogram.")
-    @argument("--bg", type=int, metavar="P", help="Order of the Breusch-Godfrey test.")
+    @argument("--max-lag", type=int, metavar="N", help="Highest lag of the correlogram and the Ljung-Box test.")
+    @argument("--bg-max-lag", type=int, metavar="P", help="Highest lag of the Breusch-Godfrey test.")
     @argument("--alpha", type=float, metavar="A", help="Significance level, in (0, 1). Default 0.05.")
-    @argument("--alt", choices=_ALTERNATIVES,
+    @argument("--alternative", choices=_ALTERNATIVES,
               help="Direction of the alternative. Default positive.")
     @argument("--order", metavar="HOW",
               help="Row order to test in: keep (as given), index (sort by the index) or a column name "
                    "(sort by that column). Default: keep, with a warning when the rows look out of order.")
-    @argument("--group", metavar="COLUMN", help="Column with group labels: test within each group.")
-    @argument("--season", type=int, metavar="S",
+    @argument("--groups", metavar="COLUMN", help="Column with group labels: test within each group.")
+    @argument("--period", type=int, metavar="S",
               help="Seasonal period for the seasonal Durbin-Watson test; 0 turns it off. "
                    "Default: from the index frequency.")
     @argument("--X", dest="X", metavar="EXPR",
@@ -94,10 +103,10 @@ class LagsightMagics(Magics):
 
             %load_ext lagsight
             %lagsight fit                          # statsmodels results: the full panel
-            d = %lagsight fit --alpha 0.01 --alt two-sided
-            %lagsight fit --order date --lags 30   # sort rows by the 'date' column first
-            %lagsight fit --group store --static   # test within each store, static output
-            %lagsight fit --season 12              # monthly data: seasonal lag 12
+            d = %lagsight fit --alpha 0.01 --alternative two-sided
+            %lagsight fit --order date --max-lag 30  # sort rows by the 'date' column first
+            %lagsight fit --groups store --static  # test within each store, static output
+            %lagsight fit --period 12              # monthly data: seasonal lag 12
             %lagsight reg --X X_test --y y_test    # a scikit-learn regressor
             %lagsight frame --y sales --X price,promo
             %lagsight fit --quiet                  # one verdict line and the sentence to paste
@@ -119,7 +128,7 @@ class LagsightMagics(Magics):
                     warnings.simplefilter("ignore")
                 diag = diagnose(model, **options)
         except (TypeError, ValueError) as err:
-            raise UsageError(_first_line(err)) from None
+            raise _usage(err) from None
         mode = "quiet" if args.quiet else ("static" if args.static else "panel")
         set_preferences(diag, mode=mode)
         if silent:
@@ -129,27 +138,10 @@ class LagsightMagics(Magics):
     def _options(self, args) -> dict:
         if args.static and args.quiet:
             raise UsageError("choose one of --static and --quiet")
-        options = {}
-        if args.alpha is not None:
-            if not 0 < args.alpha < 1:
-                raise UsageError(f"--alpha must be in (0, 1) (got {args.alpha:g})")
-            options["alpha"] = args.alpha
-        if args.alt is not None:
-            options["alternative"] = args.alt
-        options["max_lag"] = _positive_int("--lags", args.lags)
-        options["bg_order"] = _positive_int("--bg", args.bg)
-        if args.season is not None:
-            if args.season < 0 or args.season == 1:
-                raise UsageError(f"--season must be 0 (off) or a period of 2 or more (got {args.season})")
-            options["seasonal_period"] = args.season
-        order = _unquote(args.order)
-        if order is not None:
-            options["order"] = order
-        group = _unquote(args.group)
-        if group is not None:
-            options["groups"] = group
-        if args.power:
-            options["power"] = True
+        # values are checked by diagnose itself (the one place for input rules); see _usage
+        options = {"alpha": args.alpha, "alternative": args.alternative, "max_lag": args.max_lag,
+                   "bg_max_lag": args.bg_max_lag, "period": args.period, "order": _unquote(args.order),
+                   "groups": _unquote(args.groups), "power": True if args.power else None}
         return {k: v for k, v in options.items() if v is not None}
 
     def _design(self, model, args, options) -> None:
@@ -171,9 +163,9 @@ class LagsightMagics(Magics):
                 options["exog"] = self._evaluate(X, "--X")
         elif X is not None or y is not None:
             if X is not None:
-                options["X"] = self._evaluate(X, "--X")
+                options["exog"] = self._evaluate(X, "--X")
             if y is not None:
-                options["y"] = self._evaluate(y, "--y")
+                options["endog"] = self._evaluate(y, "--y")
 
     @magic_arguments()
     @argument("n", type=int, help="Number of observations.")
@@ -195,18 +187,12 @@ class LagsightMagics(Magics):
             %lagsight_bounds 40 1 --no-constant
         """
         args = parse_argstring(self.lagsight_bounds, line.strip().rstrip(";"))
-        if args.n < 1:
-            raise UsageError(f"N must be a positive number of observations (got {args.n})")
-        if args.k < 0:
-            raise UsageError(f"K must be 0 or more regressors (got {args.k})")
-        if not 0 < args.alpha < 1:
-            raise UsageError(f"--alpha must be in (0, 1) (got {args.alpha:g})")
         from .display import BoundsView
         from .stats.bounds import dw_bounds
         try:
-            bounds = dw_bounds(args.n, args.k, alpha=args.alpha, intercept=not args.no_constant)
+            bounds = dw_bounds(args.n, args.k, alpha=args.alpha, has_constant=not args.no_constant)
         except (TypeError, ValueError) as err:
-            raise UsageError(_first_line(err)) from None
+            raise _usage(err, {"n": "N", "k_prime": "K", "alpha": "--alpha"}) from None
         return BoundsView(bounds)
 
 

@@ -15,7 +15,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from lagsight.inputs import ResidualData, _rows
+from .inputs import ResidualData, _rows
+from .stats._arrays import check_order_arg
 
 _MODES = ("auto", "keep", "index")
 _SHUFFLE_FRACTION = 0.2  # share of backward steps above which rows look shuffled (our own threshold)
@@ -79,10 +80,9 @@ def _group_codes(groups) -> np.ndarray | None:
 
 def _resolve_key(data: ResidualData, order):
     """Return (key index, description, whether to sort)."""
-    if not isinstance(order, str):
-        raise TypeError(f"'order' must be 'auto', 'keep', 'index' or a column name (got {type(order).__name__})")
+    check_order_arg(order)
     if order == "auto" and data.order_values is not None:
-        name = data.order_name or "order_by"
+        name = data.order_name or "time"
         return pd.Index(data.order_values), f"column {name}", True
     if order in _MODES:
         return data.index, "the index", order == "index"
@@ -187,7 +187,7 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
     data : ResidualData
     order : {'auto', 'keep', 'index'} or str
         'auto' tests in row order (sorted by ``data.order_values`` when the
-        input named an ``order_by`` column) and warns when the index is not
+        input named a ``time`` column) and warns when the index is not
         increasing; 'keep' tests in row order; 'index' sorts by the index
         (stable); any other string sorts by that column of ``data.frame``.
     groups : str or array-like, optional

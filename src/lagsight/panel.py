@@ -20,6 +20,7 @@ from pathlib import Path
 from . import display as views
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from .display import SNAPSHOT_CLASS, _message, error_box, snapshot_bundle, widget_bundle
+from .stats._arrays import check_int
 
 __all__ = ["DiagnosisPanel", "ALPHAS", "ALTERNATIVES", "BANDS", "TEST_ORDER"]
 
@@ -131,9 +132,8 @@ class DiagnosisPanel:
             raise ValueError(f"'test' must be one of {names} (got {test!r})")
         nlags = len(diag.correlogram.lags) if diag.correlogram is not None else 1
         max_lag = nlags if max_lag is None else max_lag
-        for name, value in (("max_lag", max_lag), ("lag", lag)):
-            if not isinstance(value, int) or isinstance(value, bool) or value < 1:
-                raise ValueError(f"'{name}' must be a positive integer (got {value!r})")
+        max_lag = check_int(max_lag, "max_lag", minimum=1)
+        lag = check_int(lag, "lag", minimum=1)
         self.base = self.current = diag
         self.figure_format = figures
         self.snapshot_delay = float(snapshot_delay)
@@ -281,7 +281,7 @@ class DiagnosisPanel:
             specs["correlogram"] = (
                 ("correlogram", self.max_lag, self.band, cg.alpha),
                 lambda: F.correlogram_figure(cg, max_lag=self.max_lag, band=self.band,
-                                             period=self.base.seasonal_period, caveat=caveat),
+                                             period=self.base.period, caveat=caveat),
                 "ACF and PACF of the residuals")
         specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, h, caveat=caveat),
                         f"Residuals against their lag {h}")

@@ -23,14 +23,13 @@ from statsmodels.stats.multitest import multipletests
 from .battery_run import BG, DW, LB, BatterySettings, ljung_box_lag, run_battery, strength
 from .inputs import ResidualData, as_residual_data
 from .order import check_order, infer_bg_order, infer_seasonal_period
-from .stats.durbin_watson import _check_alpha
-from .stats.results import check_alternative
+from .stats._arrays import check_alpha, check_alternative, check_flag, check_optional_int, check_order_arg
 from .verdict import write_verdict
 
 __all__ = ["ScreenResult", "screen"]
 
 #: columns of :attr:`ScreenResult.table`, in order
-COLUMNS = ("model", "status", "n", "k", "dw", "dw_pvalue", "dw_p_adjusted", "strength", "bg_pvalue",
+COLUMNS = ("model", "status", "n", "rank", "dw", "dw_pvalue", "dw_p_adjusted", "strength", "bg_pvalue",
            "lb_pvalue", "finding", "dw_method", "order", "not_run", "notes")
 _SHOWN = ["model", "n", "dw", "dw_pvalue", "dw_p_adjusted", "strength", "finding", "status"]
 _MAX_CHUNK = 25  # models per chunk at most: small enough to balance the load at the end
@@ -102,15 +101,15 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
         has_constant=item["has_constant"], endog=item["endog"], arma_df=item["arma_df"],
         dw_applicable=item["dw_applicable"],
     )
-    settings = BatterySettings(alpha=alpha, alternative=alternative, bg_order=item["bg_order"],
-                               lb_lag=item["lb_lag"], seasonal_period=None, correlogram=False)
+    settings = BatterySettings(alpha=alpha, alternative=alternative, bg_max_lag=item["bg_max_lag"],
+                               lb_lag=item["lb_lag"], period=None, correlogram=False)
     run = run_battery(data, settings)
     verdict = write_verdict(run.tests, run.plan, alpha=alpha, alternative=alternative, errors=run.errors,
                             shuffled=item["shuffled"], lagged_response=run.lagged_response)
     dw, bg, lb = (run.tests.get(name) for name in (DW, BG, LB))
-    k = dw.k if dw is not None and dw.k is not None else (None if data.exog is None else data.exog.shape[1])
+    k = dw.rank if dw is not None and dw.rank is not None else (None if data.exog is None else data.exog.shape[1])
     return {
-        "n": n, "k": k,
+        "n": n, "rank": k,
         "dw": math.nan if dw is None else dw.statistic,
         "dw_pvalue": math.nan if dw is None else dw.pvalue,
         "bg_pvalue": math.nan if bg is None else bg.pvalue,
@@ -159,7 +158,7 @@ def _plain(data: ResidualData, report, pos: int) -> dict:
     return {
         "pos": pos, "resid": data.resid, "exog": data.exog, "endog": data.endog,
         "exog_names": data.exog_names, "has_constant": data.has_constant, "arma_df": data.arma_df,
-        "dw_applicable": data.dw_applicable, "bg_order": infer_bg_order(data.index),
+        "dw_applicable": data.dw_applicable, "bg_max_lag": infer_bg_order(data.index),
         "lb_lag": ljung_box_lag(data.n, period, leading=data.exog is None or not data.dw_applicable),
         "shuffled": shuffled,
     }
@@ -261,7 +260,7 @@ def screen(models, *, exog=None, response=None, predictors=None, groups=None, or
         Names -> anything :func:`lagsight.diagnose` accepts (a fitted model, a
         residual series, a DataFrame with ``response``/``predictors``, or a dict
         of :func:`~lagsight.as_residual_data` arguments such as
-        ``{"model": est, "X": X, "y": y}``); or a DataFrame with ``groups`` and
+        ``{"model": est, "exog": X, "endog": y}``); or a DataFrame with ``groups`` and
         ``response``/``predictors`` (one OLS per group); or a DataFrame whose
         columns are residual series.
     exog : array-like or mapping, optional
@@ -292,15 +291,13 @@ def screen(models, *, exog=None, response=None, predictors=None, groups=None, or
     that cannot be converted or tested is listed with its reason; the others
     finish.
     """
-    alpha = _check_alpha(alpha)
+    alpha = check_alpha(alpha)
     check_alternative(alternative)
-    if not isinstance(order, str):
-        raise TypeError(f"'order' must be 'auto', 'keep', 'index' or a column name (got {type(order).__name__})")
+    check_order_arg(order)
+    chunksize = check_optional_int(chunksize, "chunksize", minimum=1)
+    progress = check_flag(progress, "progress")
     if executor is not None and not isinstance(executor, cf.Executor):
         raise TypeError(f"'executor' must be a concurrent.futures.Executor (got {type(executor).__name__})")
-    if chunksize is not None and (not isinstance(chunksize, (int, np.integer)) or isinstance(chunksize, bool)
-                                  or chunksize < 1):
-        raise ValueError(f"'chunksize' must be a positive integer (got {chunksize!r})")
     names, notes, build = _specs(models, exog, response, predictors, groups, order)
     if not names:
         raise ValueError("'models' must hold at least one model (got 0)")
@@ -374,7 +371,7 @@ def _assemble(names, rows, metas, failed_at, notes, alpha, alternative) -> Scree
         records.append({"model": name, "status": "ok", **metas[pos], **outcome})
     table = pd.DataFrame.from_records(records, columns=[c for c in COLUMNS if c not in ("dw_p_adjusted", "strength")])
     table = table.astype({"dw": float, "dw_pvalue": float, "bg_pvalue": float, "lb_pvalue": float,
-                          "n": "Int64", "k": "Int64"})
+                          "n": "Int64", "rank": "Int64"})
     for col in ("finding", "dw_method", "order", "not_run", "notes"):
         table[col] = pd.Series([v if isinstance(v, str) else "" for v in table[col]], dtype=str)
     p = table["dw_pvalue"].to_numpy(float)

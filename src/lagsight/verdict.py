@@ -171,10 +171,10 @@ def _p(res) -> float:
     return math.nan if res is None else float(res.pvalue)
 
 
-def _rule(family: tuple, alpha: float, seasonal_period, plan: LeadPlan | None = None) -> str:
+def _rule(family: tuple, alpha: float, period, plan: LeadPlan | None = None) -> str:
     if len(family) == 1:
         return f"leading test {family[0]} at alpha {alpha:g}"
-    names = [f"the order-{seasonal_period} test" if n == SEASONAL else n for n in family]
+    names = [f"the order-{period} test" if n == SEASONAL else n for n in family]
     if plan is not None and plan.weights:
         shares = " : ".join(f"{plan.weight(n):g}" for n in family)
         return f"{' and '.join(names)}, weighted Holm ({shares}) at alpha {alpha:g}"
@@ -185,12 +185,12 @@ def _direction(alternative: str) -> str:
     return {"positive": "positive ", "negative": "negative "}.get(alternative, "")
 
 
-def _what(name: str, res, alternative: str, seasonal_period) -> str:
+def _what(name: str, res, alternative: str, period) -> str:
     """What a family member looks for, in words."""
     if name == DW:
         return f"{_direction(alternative)}lag-1 autocorrelation"
     if name == SEASONAL:
-        return f"{_direction(alternative)}seasonal autocorrelation at lag {seasonal_period}"
+        return f"{_direction(alternative)}seasonal autocorrelation at lag {period}"
     if name == DALT:
         return f"{_direction(alternative)}lag-1 autocorrelation beyond what the lagged response explains"
     top = getattr(res, "lags", None)
@@ -260,7 +260,7 @@ def _problem_key(why: str) -> str | None:
 
 def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str, errors=None,
                   order_warnings=(), shuffled=False, lagged_response=None, remedies=None,
-                  seasonal_period=None, groups=None) -> Verdict:
+                  period=None, groups=None) -> Verdict:
     """Decide the finding from the planned leading test(s) and write the verdict.
 
     Parameters
@@ -277,7 +277,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
         The rows tested are not in time order: the finding is 'not meaningful'.
     """
     errors = errors or {}
-    rule = _rule(plan.family, alpha, seasonal_period, plan)
+    rule = _rule(plan.family, alpha, period, plan)
     blocked = _cannot_judge(plan, tests, errors, alpha, rule)
     if blocked is not None:
         return blocked
@@ -295,7 +295,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
     raw = [_p(tests[name]) for name in family]
     adjusted = holm(raw, [plan.weight(name) for name in family])
-    rule = _rule(family, alpha, seasonal_period, plan)
+    rule = _rule(family, alpha, period, plan)
     p_family = min(adjusted)
     found = p_family < alpha
     level = strength(p_family, alpha)
@@ -325,7 +325,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
                   else f"adjusted {format_p(p_family)}")
     steps = []
     if found:
-        where = " and ".join(_what(name, tests[name], alternative, seasonal_period) for name in significant)
+        where = " and ".join(_what(name, tests[name], alternative, period) for name in significant)
         headline = (f"{_STRENGTH_WORDS[level]} evidence of {where} ({lead_words}; {rule}). "
                     f"{_CONSEQUENCE[plan.kind]}")
         if plan.kind == "arma":
@@ -351,7 +351,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             if given is not None and given.pvalue < alpha:
                 steps.append("Add seasonal terms (dummies or Fourier terms) or a seasonal lag to the model.")
             elif given is not None:
-                details.append(f"The order-{seasonal_period} test is significant, but the lag-{seasonal_period} "
+                details.append(f"The order-{period} test is significant, but the lag-{period} "
                                f"coefficient given lag 1 is not ({format_p(given.pvalue)}): the seasonal signal "
                                "can be the lag-1 correlation carried forward, so no seasonal terms are advised.")
         if plan.kind == "residuals":
@@ -359,7 +359,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
                          "inference.")
         steps.append("Consider modelling the dynamics directly: lagged variables or ARMA errors.")
     else:
-        looked = " or ".join(_what(name, tests[name], alternative, seasonal_period) for name in family)
+        looked = " or ".join(_what(name, tests[name], alternative, period) for name in family)
         headline = (f"No evidence of {looked} at alpha {alpha:g} ({lead_words}; {rule}). "
                     "This does not prove the errors are independent: the test may lack power for this n "
                     "and design.")

@@ -19,6 +19,7 @@ import numpy as np
 
 from ..battery_run import DW
 from ..diagnosis import Diagnosis
+from ..stats._arrays import check_optional_int
 from . import figures as F
 from .style import CSS
 from .text import (TEST_COLUMNS, TEST_GUIDE, diagnosis_text, format_number, format_pvalue, key_figures,
@@ -103,11 +104,8 @@ def _check_options(diag, max_lag, band, lag, test, figures) -> None:
         raise ValueError(f"'band' must be 'white' or 'bartlett' (got {band!r})")
     if figures not in FIGURE_MODES:
         raise ValueError(f"'figures' must be 'svg', 'png' or 'none' (got {figures!r})")
-    if max_lag is not None and (not isinstance(max_lag, (int, np.integer)) or isinstance(max_lag, bool)
-                                or max_lag < 1):
-        raise ValueError(f"'max_lag' must be an integer >= 1 (got {max_lag!r})")
-    if lag is not None and (not isinstance(lag, (int, np.integer)) or isinstance(lag, bool)
-                            or not 1 <= lag <= diag.n - 2):
+    check_optional_int(max_lag, "max_lag", minimum=1)
+    if check_optional_int(lag, "lag", minimum=1) is not None and lag > diag.n - 2:
         raise ValueError(f"'lag' must be an integer from 1 to n - 2 = {diag.n - 2} (got {lag!r})")
     if test is not None and test not in diag.tests and test not in diag.errors:
         known = ", ".join(repr(t) for t in list(diag.tests) + list(diag.errors))
@@ -125,7 +123,7 @@ def remedies_table(rem, caveat: str = "") -> Table:
                      format_number(r["coef_fgls"]), format_number(r["se_fgls"]), format_pvalue(r["p_fgls"]),
                      str(r["changes"]) or "\u2013"))
     rho = "" if math.isnan(rem.rho) else f", estimated \u03c1 = {rem.rho:.3f}"
-    cap = (f"HAC: Newey-West with {rem.hac_lag} lags ({rem.hac_rule}). FGLS: {rem.fgls_method}{rho}. "
+    cap = (f"HAC: Newey-West with {rem.hac_lag} lags ({rem.lag_rule}). FGLS: {rem.fgls_method}{rho}. "
            f"'changes' names the corrections that change significance at \u03b1 = {rem.alpha:g}.")
     if caveat:
         cap = (f"Not meaningful: the rows are not in time order, so these corrections for serial correlation "
@@ -188,7 +186,7 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         if diag.correlogram is not None:
             figs.append(_figure("correlogram", "ACF and PACF of the residuals",
                                 lambda: F.correlogram_figure(diag.correlogram, max_lag=max_lag, band=band,
-                                                             period=diag.seasonal_period, caveat=caveat),
+                                                             period=diag.period, caveat=caveat),
                                 figures))
         if lag is not None:
             figs.append(_figure("lag", f"Residuals against their lag {lag}",

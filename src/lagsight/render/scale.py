@@ -31,7 +31,7 @@ __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
 def _bounds(res, alpha: float):
     b = getattr(res, "bounds", None) if res is not None else None
     if b is not None and abs(b.alpha - alpha) > 1e-12:
-        b = dw_bounds(b.n, b.k, alpha=alpha, intercept=b.intercept)
+        b = dw_bounds(b.n, b.k_prime, alpha=alpha, has_constant=b.has_constant)
     return b
 
 
@@ -51,7 +51,7 @@ def _missing_notes(diag, res, b, dist) -> list[str]:
     if dist is None:
         notes.append("No exact density: the design matrix is not known, so only the bounds apply.")
     if b is None:
-        kp = None if dist is None else dist.k - (1 if dist.has_constant else 0)
+        kp = None if dist is None else dist.k_prime
         if kp == 0:
             notes.append("No bounds dL/dU: the model has no regressor besides the constant (k' = 0); "
                          "the exact p-value does not need them.")
@@ -273,8 +273,8 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
 def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
     parts = [f"n = {diag.n:,}"]
     if b is not None:
-        assumed = res is not None and res.k is None and any("assume" in note for note in res.notes)
-        parts.append(f"k\u2032 = {b.k}" + (" (assumed)" if assumed else ""))
+        assumed = bool(getattr(res, "k_prime_assumed", False))
+        parts.append(f"k\u2032 = {b.k_prime}" + (" (assumed)" if assumed else ""))
         parts.append(f"bounds at \u03b1 = {alpha:g}: dL = {b.lower:.3f}, dU = {b.upper:.3f}")
     else:
         parts.append(f"\u03b1 = {alpha:g}")
@@ -320,7 +320,7 @@ def _caption(res, b, dist, alpha, window, alt) -> str:
 
 def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
     """The five regions of the 0-4 scale for given bounds (a :class:`~lagsight.BoundsResult`), no data."""
-    for attr in ("lower", "upper", "n", "k", "alpha"):
+    for attr in ("lower", "upper", "n", "k_prime", "alpha"):
         if not hasattr(bounds, attr):
             raise TypeError(f"'bounds' must be a BoundsResult (got {type(bounds).__name__})")
     window = None
@@ -346,9 +346,9 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
                        words=True, bound_labels=True, crit_labels=False)
             zax.set_ylabel("")
             zax.set_xlabel(f"close-up of d from {window[0]:.3f} to {window[1]:.3f}", fontsize=8)
-        const = "with" if bounds.intercept else "without"
+        const = "with" if bounds.has_constant else "without"
         fig.text(left, 1 - 0.2 / height, "Durbin-Watson bounds", fontsize=10.5, fontweight="bold", va="center")
-        fig.text(left, 1 - 0.42 / height, f"n = {bounds.n:,}   \u00b7   k\u2032 = {bounds.k} ({const} constant)   "
+        fig.text(left, 1 - 0.42 / height, f"n = {bounds.n:,}   \u00b7   k\u2032 = {bounds.k_prime} ({const} constant)   "
                  f"\u00b7   \u03b1 = {bounds.alpha:g}   \u00b7   dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}",
                  fontsize=8, va="center", color=PALETTE["muted"])
         fig.legend(handles=_legend(bounds, None, bounds.alpha)[:4], loc="lower left",

@@ -15,7 +15,7 @@ from ..verdict import log10_p, tiny_p_text
 
 __all__ = [
     "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
-    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime", "power_text",
+    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime", "k_prime_assumed", "power_text",
 ]
 
 #: one line on how to read each test
@@ -115,15 +115,21 @@ def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
 
 
 def k_prime(diag) -> int | None:
-    """Regressors excluding the constant (k' of published bounds tables), or None if unknown."""
+    """Regressors excluding the constant (k' of published bounds tables), or None if unknown.
+
+    Read from the Durbin-Watson result or the exact distribution, which apply the one k' rule
+    (:func:`lagsight.stats._arrays.k_prime`); see :func:`k_prime_assumed`.
+    """
     res = diag.tests.get(DW)
-    bounds = getattr(res, "bounds", None)
-    if bounds is not None:
-        return int(bounds.k)
+    if getattr(res, "k_prime", None) is not None:
+        return int(res.k_prime)
     dist = diag.distribution
-    if dist is not None:
-        return int(dist.k - (1 if dist.has_constant else 0))
-    return None
+    return None if dist is None else int(dist.k_prime)
+
+
+def k_prime_assumed(diag) -> bool:
+    """True when k' was not known (residuals without a design) and 1 was assumed for the bounds."""
+    return bool(getattr(diag.tests.get(DW), "k_prime_assumed", False))
 
 
 def primary_test(diag) -> str | None:
@@ -161,7 +167,7 @@ def key_figures(diag) -> list[tuple[str, str]]:
     out.append(("n", f"{diag.n:,}"))
     kp = k_prime(diag)
     if kp is not None:
-        out.append(("k'", str(kp)))
+        out.append(("k'", f"{kp} (assumed: no design given)" if k_prime_assumed(diag) else str(kp)))
     out.append(("alpha", f"{diag.alpha:g}"))
     out.append(("alternative", str(diag.alternative)))
     out.append(("order", str(diag.order.order_used)))
@@ -234,7 +240,8 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     if name in (DW, SEASONAL):
         kp = k_prime(diag)
         if kp is not None:
-            sizes.append(f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
+            sizes.append((f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
+                         + (" (assumed)" if k_prime_assumed(diag) else ""))
         if name == SEASONAL:
             sizes.append(f"lag {getattr(res, 'lag', '')}")
         value = _dw_value(res.statistic)

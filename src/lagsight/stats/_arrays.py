@@ -1,7 +1,10 @@
-"""Input checks shared by the battery, correlogram and remedies modules.
+"""The one place for input rules: argument checks, the constant detector and the k' rule.
 
-Every check raises a one-line ValueError/TypeError naming the argument, what
-was expected and what was received.  Nothing here copies an n-by-n matrix.
+Every public entry point (the stats functions, ``diagnose``, ``screen``, the panel, the magic
+and the command line) validates through these functions, so the same mistake gets the same
+exception kind and the same one-line message everywhere: a value of the wrong type is a
+TypeError, a value of the right type outside its range a ValueError, and the message names
+the argument, what was expected and what was received.  Nothing here copies an n-by-n matrix.
 """
 from __future__ import annotations
 
@@ -11,6 +14,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from .results import TestResult, _fmt
+from .results import check_alternative as check_alternative  # re-exported: one place for input rules
 
 
 def _describe(value) -> str:
@@ -75,13 +79,40 @@ def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np
 
 
 def check_int(value, name: str, *, minimum: int) -> int:
-    """Return ``value`` as an int no smaller than ``minimum``."""
-    if isinstance(value, bool) or not isinstance(value, numbers.Integral):
-        raise TypeError(f"'{name}' must be an integer >= {minimum} (got {_describe(value)})")
+    """Return ``value`` as an int no smaller than ``minimum``.
+
+    Booleans and floats are refused (TypeError), even 3.0: an option that counts lags or
+    draws is a whole number, and 2.5 silently becoming 2 hides a mistake.
+    """
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Integral):
+        raise TypeError(f"'{name}' must be an integer ≥ {minimum} (got {_describe(value)})")
     value = int(value)
     if value < minimum:
-        raise ValueError(f"'{name}' must be an integer >= {minimum} (got {value})")
+        raise ValueError(f"'{name}' must be an integer ≥ {minimum} (got {value})")
     return value
+
+
+def check_optional_int(value, name: str, *, minimum: int) -> int | None:
+    """None (meaning: choose for me), or :func:`check_int`."""
+    return None if value is None else check_int(value, name, minimum=minimum)
+
+
+def check_period(value, name: str = "period") -> int | None:
+    """A seasonal period: None (infer from the index), 0 (no seasonal test) or an integer ≥ 2."""
+    if value is None:
+        return None
+    if isinstance(value, (bool, np.bool_)) or not isinstance(value, numbers.Integral):
+        raise TypeError(f"'{name}' must be 0 (off) or an integer ≥ 2 (got {_describe(value)})")
+    if int(value) == 1 or value < 0:
+        raise ValueError(f"'{name}' must be 0 (off) or an integer ≥ 2 (got {int(value)})")
+    return int(value)
+
+
+def check_flag(value, name: str) -> bool:
+    """Return ``value`` if it is True or False (numpy booleans included)."""
+    if not isinstance(value, (bool, np.bool_)):
+        raise TypeError(f"'{name}' must be True or False (got {_describe(value)})")
+    return bool(value)
 
 
 def check_alpha(alpha) -> float:
@@ -94,12 +125,19 @@ def check_alpha(alpha) -> float:
     return alpha
 
 
-def check_choice(value, name: str, choices: tuple) -> str:
+def check_choice(value, name: str, choices: tuple):
     """Return ``value`` if it is one of ``choices``."""
-    if value not in choices:
+    if not isinstance(value, (str, bool, numbers.Number)) or value not in choices:
         opts = ", ".join(repr(c) for c in choices)
         raise ValueError(f"'{name}' must be one of {opts} (got {_describe(value)})")
     return value
+
+
+def check_order_arg(order) -> str:
+    """The ``order`` option: 'auto', 'keep', 'index' or a column name (a string either way)."""
+    if not isinstance(order, str):
+        raise TypeError(f"'order' must be 'auto', 'keep', 'index' or a column name (got {_describe(order)})")
+    return order
 
 
 def check_names(names, k: int, name: str = "names") -> tuple:
@@ -115,8 +153,68 @@ def check_names(names, k: int, name: str = "names") -> tuple:
 
 
 def constant_columns(exog: np.ndarray) -> np.ndarray:
-    """Boolean mask of columns that are constant and non-zero."""
+    """Boolean mask of columns that are constant and non-zero (a literal constant column)."""
+    if exog.shape[0] == 0:
+        return np.zeros(exog.shape[1], bool)
     return (np.ptp(exog, axis=0) == 0) & (exog[0] != 0)
+
+
+#: rows per block in the blocked QR below (about 11 MB per block at k = 10)
+_QR_BLOCK = 131072
+
+
+def _span_gap(X: np.ndarray, v: np.ndarray) -> float:
+    """Distance from ``v`` to the column space of ``X``, relative to ``||v||``.
+
+    The last diagonal entry of the R factor of [X, v] is the norm of the part of v
+    orthogonal to the columns before it.  R is accumulated block by block (a tall-skinny
+    QR), so memory is one block plus (k+1)^2, never n x k beyond the input.
+    """
+    n, k = X.shape
+    R = np.empty((0, k + 1))
+    for start in range(0, n, _QR_BLOCK):
+        stop = min(n, start + _QR_BLOCK)
+        block = np.empty((stop - start, k + 1))
+        block[:, :k] = X[start:stop]
+        block[:, k] = v[start:stop]
+        R = np.linalg.qr(np.vstack([R, block]), mode="r")
+        R = R[: k + 1]
+    norm_v = float(np.linalg.norm(v))
+    return abs(float(R[-1, -1])) / norm_v if norm_v > 0 else 0.0
+
+
+def has_constant(exog) -> bool:
+    """True when a constant lies in the column space of ``exog``.
+
+    This is the one constant detector: a literal column of ones (or any non-zero
+    constant) is found in O(n k); otherwise columns that add up to a constant (a full
+    set of dummies, say) are found by the distance from the ones vector to the column
+    space, with the columns scaled to unit size first.  The tolerance 1e-9 (relative) is
+    far above rounding of an exact span (about 1e-15) and far below any data that merely
+    varies little.  Rows with a non-finite entry are left out.
+    """
+    X = np.asarray(exog, dtype=float)
+    if X.ndim == 1:
+        X = X[:, None]
+    if X.ndim != 2 or X.shape[1] == 0 or X.shape[0] == 0:
+        return False
+    finite = np.isfinite(X).all(axis=1)
+    if not finite.all():
+        X = X[finite]
+        if X.shape[0] == 0:
+            return False
+    if constant_columns(X).any():
+        return True
+    Xs, ones = unit_columns(X), np.ones(X.shape[0])
+    if X.shape[0] <= X.shape[1] + 1:  # too few rows for the blocked R: a tiny least-squares problem
+        r = ones - Xs @ np.linalg.lstsq(Xs, ones, rcond=None)[0]
+        return bool(np.linalg.norm(r) < 1e-9 * np.sqrt(X.shape[0]))
+    return _span_gap(Xs, ones) < 1e-9
+
+
+def k_prime(rank: int, has_const: bool) -> int:
+    """The k' rule: regressors excluding the constant, as the published bounds count them."""
+    return int(rank) - (1 if has_const else 0)
 
 
 def scaled(v) -> tuple[np.ndarray, float]:

@@ -17,7 +17,7 @@ from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.stattools import acf
 
 from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
-                      constant_columns, readonly, scaled, scaled_columns)
+                      constant_columns, has_constant, readonly, scaled, scaled_columns)
 from .results import TestResult, check_alternative, tail_pvalue
 
 __all__ = [
@@ -56,7 +56,7 @@ class BreuschGodfreyResult(TestResult):
     f_statistic: float = math.nan
     f_pvalue: float = math.nan
     f_df: tuple = ()
-    order: int = 0
+    max_lag: int = 0
 
 
 def _bg_by_qr(e, aux, order):
@@ -80,24 +80,24 @@ def _bg_by_qr(e, aux, order):
     return lm, float(f_stat), float(stats.f.sf(f_stat, order, df_denom)), df_denom
 
 
-def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
-    """Breusch-Godfrey test for autocorrelation up to lag ``order``.
+def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
+    """Breusch-Godfrey test for autocorrelation up to lag ``max_lag``.
 
-    The auxiliary regression of ``resid`` on ``[exog, e_{t-1}, ..., e_{t-order}]``
+    The auxiliary regression of ``resid`` on ``[exog, e_{t-1}, ..., e_{t-max_lag}]``
     uses zeros for pre-sample residuals (all n rows kept) and adds a constant
     when ``exog`` has none, as statsmodels' ``acorr_breusch_godfrey`` does.
-    LM = n R^2 ~ chi2(order); F = joint test of the lag coefficients.
+    LM = n R^2 ~ chi2(max_lag); F = joint test of the lag coefficients.
     """
     e, _ = _unit(as_vector(resid, "resid", min_len=3))
     n = e.shape[0]
-    order = check_int(order, "order", minimum=1)
+    order = check_int(max_lag, "max_lag", minimum=1)
     X, _ = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
     lagged = np.zeros((n, order))
     for j in range(1, order + 1):
         lagged[j:, j - 1] = e[:-j]
     parts = [X]
     notes = [f"Pre-sample residuals set to zero; all {n} observations used."]
-    if not OLS(e, X).k_constant:
+    if not has_constant(X):
         parts.append(np.ones((n, 1)))
         notes.append("A constant was added to the auxiliary regression (exog has none).")
     parts.append(lagged)
@@ -105,8 +105,8 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
     k_aux = aux.shape[1]
     if n <= k_aux:
         raise ValueError(
-            f"'order' is too large for n={n}: need n > {k_aux - order} regressors + order "
-            f"(got order={order})"
+            f"'max_lag' is too large for n={n}: need n > {k_aux - order} regressors + max_lag "
+            f"(got {order})"
         )
     fast = _bg_by_qr(e, aux, order)
     if fast is not None:
@@ -128,7 +128,7 @@ def breusch_godfrey(resid, exog, *, order) -> BreuschGodfreyResult:
         f_statistic=f_stat,
         f_pvalue=f_p,
         f_df=(float(order), df_denom),
-        order=order,
+        max_lag=order,
     )
 
 
@@ -150,13 +150,13 @@ class PortmanteauResult(ArrayResult):
     model_df: int = 0
 
 
-def ljung_box(resid, *, lags, model_df=0) -> PortmanteauResult:
+def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
     """Ljung-Box (and Box-Pierce) portmanteau tests.
 
     Parameters
     ----------
     resid : 1-D array
-    lags : int or sequence of int
+    max_lag : int or sequence of int
         An int L tests lags 1..L; a sequence tests exactly those lags.
     model_df : int
         Degrees of freedom used up by a fitted ARMA model; the reference
@@ -165,17 +165,17 @@ def ljung_box(resid, *, lags, model_df=0) -> PortmanteauResult:
     e, _ = _unit(as_vector(resid, "resid", min_len=3))
     n = e.shape[0]
     model_df = check_int(model_df, "model_df", minimum=0)
-    if np.ndim(lags) == 0:
-        maxlag = check_int(lags, "lags", minimum=1)
+    if np.ndim(max_lag) == 0:
+        maxlag = check_int(max_lag, "max_lag", minimum=1)
         lag_arr = np.arange(1, maxlag + 1)
     else:
-        raw = list(np.asarray(lags).ravel())
+        raw = list(np.asarray(max_lag).ravel())
         if not raw:
-            raise ValueError("'lags' must be a positive int or a non-empty sequence of them (got [])")
-        lag_arr = np.array(sorted({check_int(v.item() if hasattr(v, "item") else v, "lags", minimum=1)
+            raise ValueError("'max_lag' must be an integer ≥ 1 or a non-empty sequence of them (got [])")
+        lag_arr = np.array(sorted({check_int(v.item() if hasattr(v, "item") else v, "max_lag", minimum=1)
                                    for v in raw}))
     if lag_arr.max() >= n:
-        raise ValueError(f"'lags' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
+        raise ValueError(f"'max_lag' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
     # statsmodels' acf with FFT (acorr_ljungbox itself correlates in O(n^2));
     # Q_LB = n(n+2) sum r_k^2/(n-k), Q_BP = n sum r_k^2 (Ljung & Box 1978; Box & Pierce 1970)
     r = acf(e, nlags=int(lag_arr.max()), fft=True)[1:]
@@ -250,7 +250,7 @@ class DurbinHResult(TestResult):
     dw: float = math.nan
     var_lag: float = math.nan
     lag_column: int = -1
-    nobs: int = 0
+    n: int = 0
     #: P(H <= h) and P(H >= h) under the null (standard normal)
     lower_tail: float = math.nan
     upper_tail: float = math.nan
@@ -327,7 +327,7 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     return DurbinHResult(
         statistic=float(h), pvalue=float(pval), alternative=alternative, df=None,
         method=method, name="Durbin's h", notes=tuple(notes),
-        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, nobs=n, lower_tail=lower, upper_tail=upper,
+        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, n=n, lower_tail=lower, upper_tail=upper,
     )
 
 
@@ -342,21 +342,21 @@ class DurbinAlternativeResult(TestResult):
     large_means_positive: ClassVar[bool] = True
 
 
-def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> TestResult:
-    """Durbin's alternative test: regress e_t on exog_t and e_{t-1}, ..., e_{t-order}.
+def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two-sided") -> TestResult:
+    """Durbin's alternative test: regress e_t on exog_t and e_{t-1}, ..., e_{t-max_lag}.
 
-    The first ``order`` rows are dropped (their lagged residuals are pre-sample).
-    With ``order=1`` the statistic is the t-ratio of the e_{t-1} coefficient
+    The first ``max_lag`` rows are dropped (their lagged residuals are pre-sample).
+    With ``max_lag=1`` the statistic is the t-ratio of the e_{t-1} coefficient
     (Student t, any alternative; large t means positive autocorrelation); with
-    ``order > 1`` it is the F statistic of the joint test (two-sided only).
+    ``max_lag > 1`` it is the F statistic of the joint test (two-sided only).
     """
     check_alternative(alternative)
     e = as_vector(resid, "resid", min_len=3)
     n = e.shape[0]
-    order = check_int(order, "order", minimum=1)
+    order = check_int(max_lag, "max_lag", minimum=1)
     if order > 1 and alternative != "two-sided":
         raise ValueError(
-            f"'alternative' must be 'two-sided' when order > 1 (got {alternative!r})"
+            f"'alternative' must be 'two-sided' when max_lag > 1 (got {alternative!r})"
         )
     e, _ = _unit(e)
     X, _ = _unit_columns(exog, n, full_rank=True)
@@ -364,7 +364,7 @@ def durbin_alternative(resid, exog, *, order=1, alternative="two-sided") -> Test
     m = n - order
     if m <= k + order:
         raise ValueError(
-            f"'order' is too large for n={n} with {k} regressors: need n - order > k + order (got order={order})"
+            f"'max_lag' is too large for n={n} with {k} regressors: need n - max_lag > k + max_lag (got {order})"
         )
     lagged = np.column_stack([e[order - j: n - j] for j in range(1, order + 1)])
     aux = np.column_stack([X[order:], lagged])

@@ -12,7 +12,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from ._arrays import check_alpha
+from ._arrays import check_alpha, check_flag, check_int
 from .quadform import SpectralForm
 from .results import check_alternative
 from .spectrum import difference_spectrum, form_moments, solve_quantile
@@ -27,15 +27,15 @@ BOUNDS_MAX_N = 200_000
 class BoundsResult:
     """Durbin-Watson bounds dL, dU at level ``alpha`` for n observations.
 
-    ``k`` counts the regressors excluding the constant, as published tables do.
+    ``k_prime`` counts the regressors excluding the constant (k' in published tables).
     """
 
     lower: float
     upper: float
     n: int
-    k: int
+    k_prime: int
     alpha: float
-    intercept: bool = True
+    has_constant: bool = True
     method: str = "exact bounding distributions (Imhof inversion)"
 
     def decision(self, d: float, alternative: str = "positive") -> str:
@@ -51,26 +51,26 @@ class BoundsResult:
         return "inconclusive" if (d <= up or d >= 4 - up) else "no evidence"
 
     def __str__(self) -> str:
-        const = "with" if self.intercept else "without"
+        const = "with" if self.has_constant else "without"
         return (
-            f"Durbin-Watson bounds (n={self.n}, k'={self.k}, alpha={self.alpha:g}, {const} constant)\n"
+            f"Durbin-Watson bounds (n={self.n}, k'={self.k_prime}, alpha={self.alpha:g}, {const} constant)\n"
             f"  dL {self.lower:.4f}   dU {self.upper:.4f}\n"
             f"  method: {self.method}"
         )
 
 
-def bounding_forms(n: int, k: int, intercept: bool = True):
+def bounding_forms(n: int, k_prime: int, has_constant: bool = True):
     """The SpectralForms of the lower and upper bounding statistics.
 
-    With a constant and k' = k regressors (k+1 columns) dL uses nu_1..nu_{n-k-1}
+    With a constant and k' = k_prime regressors (k+1 columns, k = k_prime) dL uses nu_1..nu_{n-k-1}
     and dU uses nu_{k+1}..nu_{n-1} (Durbin & Watson 1950, 1951); without a
     constant (k columns) the lower bound uses nu_0..nu_{n-k-1} and the upper
     nu_k..nu_{n-1} (Farebrother 1980).
     """
     nu = difference_spectrum(n)[0]
-    cols = k + 1 if intercept else k
+    cols = k_prime + 1 if has_constant else k_prime
     idx = np.arange(n)
-    if intercept:
+    if has_constant:
         keep_lo = (idx >= 1) & (idx <= n - cols)
     else:
         keep_lo = idx <= n - cols - 1
@@ -82,8 +82,8 @@ def bounding_forms(n: int, k: int, intercept: bool = True):
 
 
 @lru_cache(maxsize=512)
-def _bounds_cached(n: int, k: int, alpha: float, intercept: bool) -> tuple[float, float]:
-    lo_form, hi_form = bounding_forms(n, k, intercept)
+def _bounds_cached(n: int, k_prime: int, alpha: float, has_constant: bool) -> tuple[float, float]:
+    lo_form, hi_form = bounding_forms(n, k_prime, has_constant)
     out = []
     for form in (lo_form, hi_form):
         mean, var = form_moments(form)
@@ -91,27 +91,26 @@ def _bounds_cached(n: int, k: int, alpha: float, intercept: bool) -> tuple[float
     return out[0], out[1]
 
 
-def dw_bounds(n: int, k: int, *, alpha: float = 0.05, intercept: bool = True) -> BoundsResult:
+def dw_bounds(n: int, k_prime: int, *, alpha: float = 0.05, has_constant: bool = True) -> BoundsResult:
     """Exact Durbin-Watson bounds dL and dU for any n, k' and alpha.
 
     Parameters
     ----------
     n : int
         Number of observations.
-    k : int
+    k_prime : int
         Number of regressors excluding the constant (k' in published tables).
     alpha : float
         Level of the one-sided test against positive autocorrelation.
-    intercept : bool
+    has_constant : bool
         Whether the regression has a constant.
     """
-    if not isinstance(k, (int, np.integer)) or isinstance(k, bool) or k < 1:
-        raise ValueError(f"'k' must be an integer >= 1 (got {k!r})")
-    if not isinstance(n, (int, np.integer)) or isinstance(n, bool):
-        raise ValueError(f"'n' must be an integer (got {n!r})")
-    cols = k + 1 if intercept else k
+    k_prime = check_int(k_prime, "k_prime", minimum=1)
+    n = check_int(n, "n", minimum=1)
+    has_constant = check_flag(has_constant, "has_constant")
+    cols = k_prime + 1 if has_constant else k_prime
     if n <= cols + 1:
         raise ValueError(f"'n' must exceed the number of columns + 1 = {cols + 1} (got {n})")
     alpha = check_alpha(alpha)
-    lower, upper = _bounds_cached(int(n), int(k), alpha, bool(intercept))
-    return BoundsResult(lower, upper, int(n), int(k), alpha, bool(intercept))
+    lower, upper = _bounds_cached(n, k_prime, alpha, has_constant)
+    return BoundsResult(lower, upper, n, k_prime, alpha, has_constant)

@@ -97,22 +97,22 @@ def _pacf_yw_adjusted(e: np.ndarray, nlags: int) -> np.ndarray:
     return out
 
 
-def correlogram(resid, *, nlags, alpha=0.05) -> Correlogram:
+def correlogram(resid, *, max_lag: int, alpha: float = 0.05) -> Correlogram:
     """ACF, PACF and the white-noise and Bartlett bands of ``resid``.
 
     Parameters
     ----------
     resid : 1-D array
-    nlags : int
-        Largest lag, 1 <= nlags <= n // 2 (the Yule-Walker PACF needs that).
+    max_lag : int
+        Largest lag, 1 <= max_lag <= n // 2 (the Yule-Walker PACF needs that).
     alpha : float
         Two-sided level of the bands.
     """
     e = as_vector(resid, "resid", min_len=4)
     n = e.shape[0]
-    nlags = check_int(nlags, "nlags", minimum=1)
+    nlags = check_int(max_lag, "max_lag", minimum=1)
     if nlags > n // 2:
-        raise ValueError(f"'nlags' must be <= n // 2 = {n // 2} for the PACF (got {nlags})")
+        raise ValueError(f"'max_lag' must be ≤ n // 2 = {n // 2} for the PACF (got {nlags})")
     alpha = check_alpha(alpha)
     if np.ptp(e) == 0:
         raise ValueError(f"'resid' must not be constant (got all values equal to {e[0]})")
@@ -129,28 +129,28 @@ def correlogram(resid, *, nlags, alpha=0.05) -> Correlogram:
 
 @dataclass(frozen=True, eq=False)
 class LagPairs:
-    """Pairs (e_{t-h}, e_t) for a lag scatter plot, with their Pearson correlation."""
+    """Pairs (e_{t-lag}, e_t) for a lag scatter plot, with their Pearson correlation."""
 
-    h: int
+    lag: int
     lagged: np.ndarray
     current: np.ndarray
     correlation: float
 
 
-def lag_pairs(resid, h) -> LagPairs:
-    """Return the n - h pairs (e_{t-h}, e_t) and their Pearson correlation.
+def lag_pairs(resid, lag: int) -> LagPairs:
+    """Return the n - lag pairs (e_{t-lag}, e_t) and their Pearson correlation.
 
     The correlation is that of the pairs themselves (each side centred on its
     own mean), so it differs slightly from the ACF value at lag h.
     """
     e = as_vector(resid, "resid", min_len=3)
     n = e.shape[0]
-    h = check_int(h, "h", minimum=1)
+    h = check_int(lag, "lag", minimum=1)
     if h > n - 2:
-        raise ValueError(f"'h' must be <= n - 2 = {n - 2} to leave two pairs (got {h})")
+        raise ValueError(f"'lag' must be ≤ n - 2 = {n - 2} to leave two pairs (got {h})")
     lagged, current = e[:-h], e[h:]
     if np.ptp(lagged) == 0 or np.ptp(current) == 0:
         corr = float("nan")
     else:
         corr = float(np.corrcoef(lagged, current)[0, 1])
-    return LagPairs(h=h, lagged=readonly(lagged), current=readonly(current), correlation=corr)
+    return LagPairs(lag=h, lagged=readonly(lagged), current=readonly(current), correlation=corr)

@@ -14,7 +14,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import fft
 
-from ._arrays import as_design, as_vector, check_alpha, scaled, unit_columns, unit_scale
+from ._arrays import (as_design, as_vector, check_alpha, check_int, check_optional_int, has_constant, k_prime, scaled,
+                      unit_columns, unit_scale)
 from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
 from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
@@ -47,14 +48,12 @@ def _as_design(exog, n: int) -> np.ndarray:
 
 
 def _check_lag(lag, n: int) -> int:
-    if not isinstance(lag, (int, np.integer)) or isinstance(lag, bool) or lag < 1:
-        raise ValueError(f"'lag' must be an integer >= 1 (got {lag!r})")
+    lag = check_int(lag, "lag", minimum=1)
     if lag >= n:
         raise ValueError(f"'lag' must be smaller than the number of residuals {n} (got {lag})")
     return int(lag)
 
 
-_check_alpha = check_alpha
 
 
 # ----------------------------------------------------------------------------
@@ -115,14 +114,6 @@ def _orthonormal_basis(X: np.ndarray):
     return np.ascontiguousarray(Q.T), rank
 
 
-def _has_constant(X: np.ndarray) -> bool:
-    """True when a column is constant and non-zero."""
-    if X.shape[0] < 2:
-        return False
-    first = X[0]
-    return bool(np.any((first != 0) & np.all(X == first, axis=0)))
-
-
 # ----------------------------------------------------------------------------
 # the exact distribution for a design
 # ----------------------------------------------------------------------------
@@ -156,11 +147,11 @@ class DurbinWatsonDistribution:
                 )
         else:
             Qt, rank = np.empty((0, n)), 0
-        self.k = rank
-        self.has_constant = _has_constant(X) if X.shape[1] else False
+        self.rank = rank
+        self.has_constant = has_constant(X)
         if n - rank < 2:
             raise ValueError(
-                f"need more residuals than regressors + 1 (n = {n}, k = {rank})"
+                f"need more residuals than the design's rank + 1 (n = {n}, rank = {rank})"
             )
         nu, chains = difference_spectrum(n, self.lag, blocks)
         single = blocks is None and self.lag == 1
@@ -176,6 +167,11 @@ class DurbinWatsonDistribution:
         self._basis_t = Qt
         self.form = SpectralForm(nu, Wt)
         self.df = n - rank
+
+    @property
+    def k_prime(self) -> int:
+        """Regressors excluding the constant (k' of the published bounds)."""
+        return k_prime(self.rank, self.has_constant)
 
     # moments (Durbin & Watson 1950) ------------------------------------------------
     @property
@@ -313,7 +309,9 @@ class DurbinWatsonResult(TestResult):
     numerator: float = float("nan")
     denominator: float = float("nan")
     n: int = 0
-    k: int | None = None
+    rank: int | None = None
+    k_prime: int | None = None
+    k_prime_assumed: bool = False
     lag: int = 1
     null_mean: float = float("nan")
     null_var: float = float("nan")
@@ -347,7 +345,8 @@ class DurbinWatsonResult(TestResult):
         lines = [
             f"{self.name} test (alternative: {self.alternative} autocorrelation)"
             if self.alternative != "two-sided" else f"{self.name} test (two-sided)",
-            f"  d = {self.statistic:.4f}   n = {self.n}" + ("" if self.k is None else f"   k = {self.k}"),
+            f"  d = {self.statistic:.4f}   n = {self.n}"
+            + ("" if self.k_prime is None else f"   k' = {self.k_prime}" + (" (assumed)" if self.k_prime_assumed else "")),
             f"  p-value {p}   method: {self.method}",
         ]
         if not math.isnan(self.null_mean):
@@ -368,7 +367,7 @@ def durbin_watson(
     alternative: str = "positive",
     lag: int = 1,
     alpha: float = 0.05,
-    regressors: int | None = None,
+    k_prime: int | None = None,
 ) -> DurbinWatsonResult:
     """The Durbin-Watson test with the exact p-value for the design ``exog``.
 
@@ -386,34 +385,38 @@ def durbin_watson(
         Order s of the statistic: 1 is Durbin-Watson, 4 is Wallis's quarterly test.
     alpha : float
         Level used for the bounds decision.
-    regressors : int, optional
+    k_prime : int, optional
         Without ``exog``: the number of regressors excluding the constant, used
-        for the bounds (default 1, with a note).
+        for the bounds (default 1, marked as assumed, with a note).
     """
     if exog is not None:
+        if k_prime is not None:
+            raise TypeError("give either 'exog' or 'k_prime', not both (k' comes from the design)")
         return durbin_watson_exact(resid, exog, alternative=alternative, lag=lag, alpha=alpha)[0]
     check_alternative(alternative)
-    alpha = _check_alpha(alpha)
+    alpha = check_alpha(alpha)
+    k_given = check_optional_int(k_prime, "k_prime", minimum=1)
     d, num, den = dw_statistic(resid, lag)
     n = _as_vector(resid, "resid").size
     notes: list[str] = []
-    kp = 1 if regressors is None else int(regressors)
-    if regressors is None:
-        notes.append("no design given: bounds assume one regressor besides a constant; pass exog for an exact p-value")
+    kp = 1 if k_given is None else k_given
+    if k_given is None:
+        notes.append("no design given: k' = 1 was assumed for the bounds (one regressor besides a constant); "
+                     "give the design for an exact p-value")
     else:
         notes.append("no design given: no exact p-value, only the bounds dL and dU")
     bounds = None
     decision = None
     if lag == 1 and n > kp + 2:
-        bounds = dw_bounds(n, kp, alpha=alpha, intercept=True)
+        bounds = dw_bounds(n, kp, alpha=alpha, has_constant=True)
         decision = bounds.decision(d, alternative)
     elif lag != 1:
         notes.append(f"bounds are tabulated for lag 1 only; the order-{lag} statistic needs the design")
     return DurbinWatsonResult(
         statistic=d, pvalue=float("nan"), alternative=alternative, df=None,
         method="bounds only", name=_name(lag), notes=tuple(notes),
-        numerator=num, denominator=den, n=n, k=None, lag=lag,
-        bounds=bounds, bounds_decision=decision,
+        numerator=num, denominator=den, n=n, rank=None, k_prime=kp, k_prime_assumed=k_given is None,
+        lag=lag, bounds=bounds, bounds_decision=decision,
     )
 
 
@@ -423,14 +426,14 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     Pass ``distribution`` to reuse one built earlier for the same design and lag.
     """
     check_alternative(alternative)
-    alpha = _check_alpha(alpha)
+    alpha = check_alpha(alpha)
     d, num, den = dw_statistic(resid, lag)
     e = _as_vector(resid, "resid")
     n = e.size
     notes: list[str] = []
     X = _as_design(exog, n)
     if n - X.shape[1] < 2:
-        raise ValueError(f"need more residuals than regressors + 1 (n = {n}, k = {X.shape[1]})")
+        raise ValueError(f"need more residuals than design columns + 1 (n = {n}, columns = {X.shape[1]})")
     dist = distribution if distribution is not None else DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
     u = unit_scale(e)
@@ -443,17 +446,17 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     lower, upper, method, (log_lower, log_upper) = dist.tails_with_logs(d)
     pvalue = tail_pvalue(lower, upper, alternative)
     bounds = decision = None
-    kp = dist.k - 1 if dist.has_constant else dist.k
-    if lag == 1 and kp >= 1 and n > dist.k + 1:
+    kp = dist.k_prime
+    if lag == 1 and kp >= 1 and n > dist.rank + 1:
         if n <= BOUNDS_MAX_N:
-            bounds = dw_bounds(n, kp, alpha=alpha, intercept=dist.has_constant)
+            bounds = dw_bounds(n, kp, alpha=alpha, has_constant=dist.has_constant)
             decision = bounds.decision(d, alternative)
         else:
             notes.append(f"bounds dL/dU not computed for n > {BOUNDS_MAX_N}; the exact p-value replaces them")
     result = DurbinWatsonResult(
-        statistic=d, pvalue=pvalue, alternative=alternative, df=(n, dist.k),
+        statistic=d, pvalue=pvalue, alternative=alternative, df=(n, dist.rank),
         method=method, name=_name(lag), notes=tuple(notes),
-        numerator=num, denominator=den, n=n, k=dist.k, lag=lag,
+        numerator=num, denominator=den, n=n, rank=dist.rank, k_prime=kp, lag=lag,
         null_mean=dist.mean, null_var=dist.var, lower_tail=lower, upper_tail=upper,
         log_lower_tail=log_lower, log_upper_tail=log_upper,
         bounds=bounds, bounds_decision=decision,

@@ -17,7 +17,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import signal
 
-from .durbin_watson import _check_alpha, dw_distribution
+from ._arrays import check_alpha, check_int
+from .durbin_watson import dw_distribution
 from .results import check_alternative
 
 __all__ = ["PowerCurve", "dw_power"]
@@ -70,7 +71,7 @@ class PowerCurve:
     critical_value: float | tuple
     alpha: float
     n: int
-    k: int
+    rank: int
     n_sim: int
     seed: int
     method: str
@@ -90,7 +91,7 @@ class PowerCurve:
         name = "Durbin-Watson" if self.lag == 1 else f"Durbin-Watson, order {self.lag}"
         lines = [
             f"Power of the {name} test ({side}, alpha {self.alpha:g})",
-            f"  n = {self.n}   k = {self.k}   {self._rule()} (exact critical value)",
+            f"  n = {self.n}   rank = {self.rank}   {self._rule()} (exact critical value)",
             f"  {'rho':>7}  {'power':>7}  {'se':>7}",
         ]
         rows = list(range(self.rhos.size))
@@ -127,12 +128,6 @@ def _check_rhos(rhos) -> np.ndarray:
     if bad.size:
         raise ValueError(f"'rhos' must lie in (-1, 1) for stationary AR(1) errors (got {bad[0]:g})")
     return r
-
-
-def _check_int(value, name: str, minimum: int) -> int:
-    if isinstance(value, bool) or not isinstance(value, numbers.Integral) or value < minimum:
-        raise ValueError(f"'{name}' must be an integer >= {minimum} (got {value!r})")
-    return int(value)
 
 
 # ----------------------------------------------------------------------------
@@ -243,14 +238,14 @@ def dw_power(
     """
     if exog is None:
         raise TypeError("'exog' must be a 2-D array of numbers (got None)")
-    alpha = _check_alpha(alpha)
+    alpha = check_alpha(alpha)
     r = _check_rhos(rhos)
     check_alternative(alternative)
-    n_sim = _check_int(n_sim, "n_sim", _MIN_SIM)
-    seed = _check_int(seed, "seed", 0)
+    n_sim = check_int(n_sim, "n_sim", minimum=_MIN_SIM)
+    seed = check_int(seed, "seed", minimum=0)
 
     dist = dw_distribution(exog, lag=lag)
-    n, k, lag = dist.n, dist.k, dist.lag
+    n, k, lag = dist.n, dist.rank, dist.lag
     notes = list(dist.notes)
     if alternative == "positive":
         crit = dist.ppf(alpha)
@@ -303,6 +298,6 @@ def dw_power(
     return PowerCurve(
         rhos=_readonly(r), power=_readonly(power), se=_readonly(se),
         critical_value=crit if isinstance(crit, tuple) else float(crit),
-        alpha=alpha, n=n, k=k, n_sim=n_sim, seed=seed, method=method,
+        alpha=alpha, n=n, rank=k, n_sim=n_sim, seed=seed, method=method,
         min_detectable_rho=mdr, notes=tuple(notes), alternative=alternative, lag=lag,
     )

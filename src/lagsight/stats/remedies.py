@@ -38,7 +38,7 @@ class HacLag:
     pre-set lag and the estimated constant: bandwidth = gamma * n**(1/3).
     """
 
-    rule: str
+    lag_rule: str
     lag: int
     n: int
     bandwidth: float
@@ -51,14 +51,14 @@ def _common_lag(n: int) -> float:
     return 4.0 * (n / 100.0) ** (2.0 / 9.0)
 
 
-def hac_lag(n, rule="newey-west-1994", resid=None, exog=None) -> HacLag:
+def hac_lag(n: int, *, lag_rule: str = "newey-west-1994", resid=None, exog=None) -> HacLag:
     """Choose the Bartlett-kernel HAC lag.
 
     Parameters
     ----------
     n : int
         Number of observations.
-    rule : {'newey-west-1994', 'common'}
+    lag_rule : {'newey-west-1994', 'common'}
         'common' is floor(4 (n/100)^(2/9)) (common practice).  'newey-west-1994'
         is the Newey & West (1994) plug-in: with the pre-set pilot lag
         m = floor(4 (n/100)^(2/9)), sigma_j = (1/n) sum_t h_t h_{t-j},
@@ -70,11 +70,11 @@ def hac_lag(n, rule="newey-west-1994", resid=None, exog=None) -> HacLag:
         h_t = e_t.
     """
     n = check_int(n, "n", minimum=2)
-    check_choice(rule, "rule", HAC_RULES)
+    rule = check_choice(lag_rule, "lag_rule", HAC_RULES)
     pilot = int(math.floor(_common_lag(n)))
     if rule == "common":
         bw = _common_lag(n)
-        return HacLag(rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
+        return HacLag(lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
                       notes=("floor(4 (n/100)^(2/9)): a common-practice rule of thumb.",))
     if resid is None:
         raise ValueError("'resid' must be given for rule 'newey-west-1994' (got None)")
@@ -98,13 +98,13 @@ def hac_lag(n, rule="newey-west-1994", resid=None, exog=None) -> HacLag:
     if not s0 > 0:
         bw = _common_lag(n)
         notes.append("Plug-in failed (s0 <= 0); fell back to the common rule.")
-        return HacLag(rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
+        return HacLag(lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
                       pilot_lag=m, notes=tuple(notes))
     gamma = 1.1447 * ((s1 / s0) ** 2) ** (1.0 / 3.0)
     bw = gamma * n ** (1.0 / 3.0)
     lag = min(int(math.floor(bw)), n - 1)
     notes.append(f"Newey-West (1994) plug-in with pilot lag {m}, Bartlett kernel.")
-    return HacLag(rule=rule, lag=lag, n=n, bandwidth=float(bw), pilot_lag=m,
+    return HacLag(lag_rule=rule, lag=lag, n=n, bandwidth=float(bw), pilot_lag=m,
                   gamma=float(gamma), notes=tuple(notes))
 
 
@@ -118,12 +118,12 @@ class NeweyWestResult:
     tvalues: np.ndarray
     pvalues: np.ndarray
     names: tuple
-    maxlags: int
-    rule: str
+    max_lag: int
+    lag_rule: str
     use_correction: bool
     use_t: bool
     df_resid: float
-    nobs: int
+    n: int
     method: str = ""
     notes: tuple = ()
 
@@ -140,11 +140,11 @@ def _xy(endog, exog):
     return y, X
 
 
-def newey_west(endog, exog, *, maxlags=None, rule="newey-west-1994", use_correction=False,
-               use_t=True, names=None) -> NeweyWestResult:
+def newey_west(endog, exog, *, max_lag: int | None = None, lag_rule: str = "newey-west-1994",
+               use_correction: bool = False, use_t: bool = True, names=None) -> NeweyWestResult:
     """OLS with HAC (Newey-West, Bartlett kernel) standard errors via statsmodels.
 
-    ``maxlags=None`` picks the lag with :func:`hac_lag` and ``rule`` on the OLS
+    ``max_lag=None`` picks the lag with :func:`hac_lag` and ``lag_rule`` on the OLS
     residuals.  ``use_correction`` applies the n/(n-k) small-sample factor;
     ``use_t`` gives Student-t p-values with n - k df instead of normal ones.
     """
@@ -152,21 +152,21 @@ def newey_west(endog, exog, *, maxlags=None, rule="newey-west-1994", use_correct
     n, k = X.shape
     labels = check_names(names, k)
     ols = OLS(y, X).fit()
-    if maxlags is None:
-        chosen = hac_lag(n, rule, resid=ols.resid, exog=X)
-        lag, used_rule, notes = chosen.lag, rule, list(chosen.notes)
+    if max_lag is None:
+        chosen = hac_lag(n, lag_rule=lag_rule, resid=ols.resid, exog=X)
+        lag, used_rule, notes = chosen.lag, lag_rule, list(chosen.notes)
     else:
-        lag = check_int(maxlags, "maxlags", minimum=0)
+        lag = check_int(max_lag, "max_lag", minimum=0)
         if lag >= n:
-            raise ValueError(f"'maxlags' must be < n={n} (got {lag})")
+            raise ValueError(f"'max_lag' must be < n = {n} (got {lag})")
         used_rule, notes = "user", []
     fit = OLS(y, X).fit(cov_type="HAC", use_t=bool(use_t),
                         cov_kwds={"maxlags": lag, "use_correction": bool(use_correction)})
     return NeweyWestResult(
         params=readonly(fit.params), bse=readonly(fit.bse), tvalues=readonly(fit.tvalues),
-        pvalues=readonly(fit.pvalues), names=labels, maxlags=lag, rule=used_rule,
+        pvalues=readonly(fit.pvalues), names=labels, max_lag=lag, lag_rule=used_rule,
         use_correction=bool(use_correction), use_t=bool(use_t), df_resid=float(fit.df_resid),
-        nobs=n, method=f"HAC, Bartlett kernel, {lag} lags, "
+        n=n, method=f"HAC, Bartlett kernel, {lag} lags, "
                        f"{'t' if use_t else 'normal'} p-values", notes=tuple(notes),
     )
 
@@ -190,7 +190,7 @@ class FGLSResult:
     names: tuple
     method: str
     notes: tuple = ()
-    nobs: int = 0
+    n: int = 0
     df_resid: float = math.nan
 
     def to_frame(self) -> pd.DataFrame:
@@ -260,7 +260,7 @@ def _fgls(endog, exog, *, keep_first, tol, maxiter, names, rho_method) -> FGLSRe
         rho=float(rho), rho_se=math.sqrt(s2 / lag_ss), iterations=it, converged=converged,
         params=readonly(fit.params), bse=readonly(fit.bse), pvalues=readonly(fit.pvalues), names=labels,
         method=f"{name} iterated FGLS, AR(1); {how}; Student-t inference",
-        notes=tuple(notes), nobs=int(ys.shape[0]), df_resid=float(fit.df_resid),
+        notes=tuple(notes), n=int(ys.shape[0]), df_resid=float(fit.df_resid),
     )
 
 
@@ -306,7 +306,7 @@ class InferenceComparison:
     table: pd.DataFrame
     alpha: float
     hac_lag: int
-    hac_rule: str
+    lag_rule: str
     fgls_method: str
     rho: float
     notes: tuple = ()
@@ -332,7 +332,7 @@ def _flag_changes(t: pd.DataFrame, alpha: float) -> pd.DataFrame:
     return t
 
 
-def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-west-1994",
+def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule: str = "newey-west-1994",
                       fgls="prais-winsten") -> InferenceComparison:
     """Coefficients, standard errors and p-values under OLS, HAC and AR(1) FGLS.
 
@@ -350,7 +350,7 @@ def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-we
     if rescale:
         y, X = y / s_y, X / s_x
     ols = OLS(y, X).fit()
-    hac = newey_west(y, X, rule=hac_rule, names=labels)
+    hac = newey_west(y, X, lag_rule=lag_rule, names=labels)
     extra = []
     try:
         gls = (prais_winsten if fgls == "prais-winsten" else cochrane_orcutt)(y, X, names=labels)
@@ -368,6 +368,6 @@ def compare_inference(endog, exog, names=None, *, alpha=0.05, hac_rule="newey-we
             t[col] = t[col] * (s_y / s_x)
     t = _flag_changes(t, alpha)
     notes = (*extra, f"HAC: {hac.method}.", f"FGLS: {gls.method}.", *gls.notes)
-    return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.maxlags, hac_rule=hac_rule,
+    return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.max_lag, lag_rule=lag_rule,
                                fgls_method="Prais-Winsten" if fgls == "prais-winsten" else "Cochrane-Orcutt",
                                rho=gls.rho, notes=notes)

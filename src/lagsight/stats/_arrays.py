@@ -127,7 +127,8 @@ def check_alpha(alpha) -> float:
 
 def check_choice(value, name: str, choices: tuple):
     """Return ``value`` if it is one of ``choices``."""
-    if not isinstance(value, (str, bool, numbers.Number)) or value not in choices:
+    # equal and of the same kind: 1 is not True, and an array is never a choice
+    if not any(isinstance(value, type(c)) and value == c for c in choices):
         opts = ", ".join(repr(c) for c in choices)
         raise ValueError(f"'{name}' must be one of {opts} (got {_describe(value)})")
     return value

@@ -30,7 +30,7 @@ def residuals(X, rng):
 
 
 def exact_pvalue(e, X):
-    d, _, _ = lagsight.stats.dw_statistic(e)
+    d = lagsight.stats.dw_statistic(e)
     dist = lagsight.dw_distribution(X)
     lower, _, _ = dist.tails(d)
     return lower

@@ -239,7 +239,8 @@ def _brute_force_runs(n1, n2):
 @pytest.mark.parametrize("n1,n2", [(1, 1), (1, 4), (3, 3), (4, 6), (7, 5)])
 def test_runs_distribution_equals_brute_force(n1, n2):
     bf = _brute_force_runs(n1, n2)
-    r, pmf = runs_distribution(n1, n2)
+    dist = runs_distribution(n1, n2)
+    r, pmf = dist.runs, dist.pmf
     for runs, p in zip(r, pmf):
         assert p == pytest.approx(bf.get(int(runs), 0.0), abs=1e-12)
 
@@ -248,7 +249,8 @@ def test_runs_distribution_equals_brute_force(n1, n2):
 @given(st.integers(1, 300), st.integers(1, 300))
 def test_runs_distribution_moments_match_closed_form(n1, n2):
     # Wald & Wolfowitz (1940): E[R] = 2 n1 n2 / N + 1, Var[R] = 2 n1 n2 (2 n1 n2 - N) / (N^2 (N - 1))
-    r, pmf = runs_distribution(n1, n2)
+    dist = runs_distribution(n1, n2)
+    r, pmf = dist.runs, dist.pmf
     N = n1 + n2
     mean = 2 * n1 * n2 / N + 1
     var = 2 * n1 * n2 * (2 * n1 * n2 - N) / (N ** 2 * (N - 1))

@@ -74,15 +74,15 @@ def test_outside_band_and_str(macro_resid):
 
 def test_lag_pairs():
     e = np.array([0.5, -1.0, 2.0, 0.3, -0.7, 1.1, -0.2, 0.9])
-    lp = lag_pairs(e, 2)
+    lp = lag_pairs(e, lag=2)
     np.testing.assert_array_equal(lp.lagged, e[:-2])
     np.testing.assert_array_equal(lp.current, e[2:])
     # reference library: scipy.stats.pearsonr on the same pairs
     assert lp.correlation == pytest.approx(stats.pearsonr(e[:-2], e[2:])[0], rel=1e-12)
     with pytest.raises(ValueError, match="'lag' must be ≤ n - 2 = 6"):
-        lag_pairs(e, 7)
+        lag_pairs(e, lag=7)
     with pytest.raises(ValueError, match="'lag' must be an integer ≥ 1"):
-        lag_pairs(e, 0)
+        lag_pairs(e, lag=0)
 
 
 @pytest.mark.parametrize("kwargs,match", [

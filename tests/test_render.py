@@ -219,14 +219,14 @@ def test_correlogram_figure_shows_statsmodels_acf(water):
 def test_lag_scatter_reports_the_pair_correlation_and_thins_for_display():
     rng = np.random.default_rng(9)
     e = rng.normal(size=10_000).cumsum() * 0.05 + rng.normal(size=10_000)
-    fig = F.lag_scatter_figure(e, 3)
+    fig = F.lag_scatter_figure(e, lag=3)
     r = np.corrcoef(e[:-3], e[3:])[0, 1]  # numpy reference
     assert f"r = {r:.3f}" in fig.axes[0].get_title(loc="left")
     (pts,) = _by_gid(fig, "lgs-lag-points")
     assert len(pts.get_xdata()) <= F.MAX_POINTS
     assert pts.get_rasterized()
     assert "for display" in fig.lagsight_caption and "9,997" in fig.lagsight_caption
-    small = F.lag_scatter_figure(e[:200], 1)
+    small = F.lag_scatter_figure(e[:200], lag=1)
     assert len(_by_gid(small, "lgs-lag-points")[0].get_xdata()) == 199
 
 

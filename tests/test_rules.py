@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 from IPython.core.error import UsageError
-from IPython.testing.globalipapp import get_ipython
+from IPython.core.interactiveshell import InteractiveShell
 
 import lagsight
 from lagsight.panel import DiagnosisPanel
@@ -66,7 +66,7 @@ def test_diagnose_refuses_what_the_magic_refuses(fit, kwargs, kind, message):
     lambda e, X: durbin_alternative(e, X, max_lag=True),
     lambda e, X: ljung_box(e, max_lag=2.5),
     lambda e, X: correlogram(e, max_lag=2.5),
-    lambda e, X: lag_pairs(e, 1.0),
+    lambda e, X: lag_pairs(e, lag=1.0),
     lambda e, X: lagsight.durbin_watson(e, X, lag=2.5),
     lambda e, X: lagsight.dw_distribution(X, lag=True),
     lambda e, X: lagsight.dw_bounds(50, 2.5),
@@ -97,7 +97,7 @@ def test_screen_uses_the_same_checks(fit):
 
 @pytest.fixture(scope="module")
 def shell(fit):
-    ip = get_ipython()
+    ip = InteractiveShell.instance()  # the same singleton tests/test_magic.py uses
     ip.run_line_magic("load_ext", "lagsight")
     ip.user_ns["rules_fit"] = fit
     return ip

@@ -185,7 +185,7 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
             method = "pooled within-group d, exact p-value for the pooled design (Imhof inversion)"
         except ValueError as err:
             notes.append(f"No exact p-value for the pooled statistic: {err}")
-    naive = dw_statistic(e)[0] if data.n > 1 else math.nan
+    naive = dw_statistic(e) if data.n > 1 else math.nan
     level_note = _group_level_note(e, tested)
     if level_note:
         notes.append(level_note)

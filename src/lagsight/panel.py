@@ -283,7 +283,7 @@ class DiagnosisPanel:
                 lambda: F.correlogram_figure(cg, max_lag=self.max_lag, band=self.band,
                                              period=self.base.period, caveat=caveat),
                 "ACF and PACF of the residuals")
-        specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, h, caveat=caveat),
+        specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, lag=h, caveat=caveat),
                         f"Residuals against their lag {h}")
         specs["residuals"] = (("residuals",), lambda: F.residuals_figure(self.base), "Residuals in test order")
         if d.groups is not None:

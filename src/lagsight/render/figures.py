@@ -141,7 +141,7 @@ def _thin_even(m: int, max_points: int) -> np.ndarray:
     return np.unique(np.linspace(0, m - 1, max_points).round().astype(np.intp))
 
 
-def lag_scatter_figure(resid, lag: int, *, max_points: int = MAX_POINTS, width: float = 3.9,
+def lag_scatter_figure(resid, *, lag: int, max_points: int = MAX_POINTS, width: float = 3.9,
                        caveat: str = "") -> Figure:
     """e_t against e_{t-lag}, with the correlation of the pairs in the title.
 
@@ -151,7 +151,7 @@ def lag_scatter_figure(resid, lag: int, *, max_points: int = MAX_POINTS, width: 
     """
     data = getattr(resid, "data", None)
     e = data.resid if data is not None and hasattr(data, "resid") else resid
-    pairs = lag_pairs(e, lag)
+    pairs = lag_pairs(e, lag=lag)
     h = pairs.lag
     m = pairs.lagged.size
     keep = _thin_even(m, max_points)

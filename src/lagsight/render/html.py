@@ -190,7 +190,7 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
                                 figures))
         if lag is not None:
             figs.append(_figure("lag", f"Residuals against their lag {lag}",
-                                lambda: F.lag_scatter_figure(diag.data.resid, int(lag), caveat=caveat), figures))
+                                lambda: F.lag_scatter_figure(diag.data.resid, lag=int(lag), caveat=caveat), figures))
         if residuals:
             figs.append(_figure("residuals", "Residuals in test order", lambda: F.residuals_figure(diag), figures))
         if diag.groups is not None:

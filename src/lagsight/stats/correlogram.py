@@ -137,7 +137,7 @@ class LagPairs:
     correlation: float
 
 
-def lag_pairs(resid, lag: int) -> LagPairs:
+def lag_pairs(resid, *, lag: int) -> LagPairs:
     """Return the n - lag pairs (e_{t-lag}, e_t) and their Pearson correlation.
 
     The correlation is that of the pairs themselves (each side centred on its

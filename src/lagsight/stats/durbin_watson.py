@@ -59,7 +59,12 @@ def _check_lag(lag, n: int) -> int:
 # ----------------------------------------------------------------------------
 # statistic
 # ----------------------------------------------------------------------------
-def dw_statistic(resid, lag: int = 1) -> tuple[float, float, float]:
+def dw_statistic(resid, *, lag: int = 1) -> float:
+    """The order-``lag`` Durbin-Watson statistic d = sum (e_t - e_{t-lag})^2 / sum e_t^2."""
+    return _dw_parts(resid, lag)[0]
+
+
+def _dw_parts(resid, lag: int) -> tuple[float, float, float]:
     """(d, numerator, denominator) of the order-``lag`` Durbin-Watson statistic."""
     e = _as_vector(resid, "resid")
     lag = _check_lag(lag, e.size)
@@ -396,7 +401,7 @@ def durbin_watson(
     check_alternative(alternative)
     alpha = check_alpha(alpha)
     k_given = check_optional_int(k_prime, "k_prime", minimum=1)
-    d, num, den = dw_statistic(resid, lag)
+    d, num, den = _dw_parts(resid, lag)
     n = _as_vector(resid, "resid").size
     notes: list[str] = []
     kp = 1 if k_given is None else k_given
@@ -427,7 +432,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     """
     check_alternative(alternative)
     alpha = check_alpha(alpha)
-    d, num, den = dw_statistic(resid, lag)
+    d, num, den = _dw_parts(resid, lag)
     e = _as_vector(resid, "resid")
     n = e.size
     notes: list[str] = []

@@ -16,7 +16,7 @@ from scipy import integrate
 __all__ = ["imhof_cdf"]
 
 
-def imhof_cdf(weights, x: float = 0.0, df=1, nc=0.0) -> float:
+def imhof_cdf(weights, x: float = 0.0, *, df=1, nc=0.0) -> float:
     """P(Q <= x) for Q = sum_j w_j * chi2(df_j, nc_j), by Imhof's (1961) formula.
 
     Meant for short lists of weights (up to a few thousand).  Accuracy is about

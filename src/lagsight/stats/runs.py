@@ -11,10 +11,10 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special, stats
 
-from ._arrays import as_vector, check_int
+from ._arrays import as_vector, check_int, readonly
 from .results import TestResult, check_alternative, tail_pvalue
 
-__all__ = ["RunsResult", "runs_distribution", "runs_test"]
+__all__ = ["RunsDistribution", "RunsResult", "runs_distribution", "runs_test"]
 
 
 @dataclass(frozen=True)
@@ -41,10 +41,18 @@ def _log_comb(a, b):
     return out
 
 
-def runs_distribution(n1: int, n2: int):
+@dataclass(frozen=True, eq=False)
+class RunsDistribution:
+    """Exact null distribution of the number of runs: P(R = ``runs[i]``) = ``pmf[i]``."""
+
+    runs: np.ndarray
+    pmf: np.ndarray
+
+
+def runs_distribution(n1: int, n2: int) -> RunsDistribution:
     """Exact null pmf of the number of runs for n1 of one sign and n2 of the other.
 
-    Returns (r, pmf) with r = 2..n1+n2.  P(R=2k) = 2 C(n1-1,k-1) C(n2-1,k-1) / C(n,n1);
+    The runs go from 2 to n1 + n2.  P(R=2k) = 2 C(n1-1,k-1) C(n2-1,k-1) / C(n,n1);
     P(R=2k+1) = [C(n1-1,k) C(n2-1,k-1) + C(n1-1,k-1) C(n2-1,k)] / C(n,n1).
     """
     n1 = check_int(n1, "n1", minimum=1)
@@ -58,7 +66,7 @@ def runs_distribution(n1: int, n2: int):
         od = np.logaddexp(_log_comb(n1 - 1, k) + _log_comb(n2 - 1, k - 1),
                           _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k))
     pmf = np.exp(np.where(even, ev, od) - log_total)
-    return r, pmf
+    return RunsDistribution(readonly(r), readonly(pmf))
 
 
 def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
@@ -88,7 +96,8 @@ def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
     z = (runs - mean) / math.sqrt(var) if var > 0 else math.nan
     use_exact = method == "exact" or (method == "auto" and min(n1, n2) <= 20) or var <= 0
     if use_exact:
-        r, pmf = runs_distribution(n1, n2)
+        dist = runs_distribution(n1, n2)
+        r, pmf = dist.runs, dist.pmf
         lower = min(1.0, float(pmf[r <= runs].sum()))
         upper = min(1.0, float(pmf[r >= runs].sum()))
         how = "exact runs distribution"

@@ -5,7 +5,7 @@ import pytest
 import statsmodels.api as sm
 
 from lagsight.inputs import as_residual_data
-from lagsight.order import OrderReport, apply_order, check_order, infer_bg_order, infer_seasonal_period
+from lagsight.order import OrderReport, check_order, infer_bg_order, infer_seasonal_period
 
 
 @pytest.fixture(scope="module")
@@ -51,7 +51,7 @@ def test_order_index_restores_time_order():
     data = as_residual_data(shuffled)
     report = check_order(data, order="index")
     assert report.order_used == "sorted by the index" and report.flags["sorted"]
-    restored = apply_order(data, report)
+    restored = report.apply(data)
     assert restored.index.equals(s.index)
     np.testing.assert_array_equal(restored.resid, s.to_numpy())
     assert "sorted by it for testing" in report.warnings[0]

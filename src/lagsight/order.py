@@ -56,11 +56,6 @@ class OrderReport:
         return data.reorder(self.permutation).with_notes(f"The rows were {self.order_used} before testing.")
 
 
-def apply_order(data: ResidualData, report: OrderReport) -> ResidualData:
-    """Reorder ``data`` as ``report`` says; same as ``report.apply(data)``."""
-    return report.apply(data)
-
-
 def _ranks(key: pd.Index) -> tuple[np.ndarray | None, int]:
     """Dense ranks of ``key`` (ties share a rank, missing ones rank last) and the missing count."""
     if key.dtype == object and pd.api.types.infer_dtype(key, skipna=True).startswith("mixed"):

@@ -67,7 +67,6 @@ class View:
     warnings: tuple
     focus_test: str | None
     focus_guide: str
-    sentence_markdown: str
     sentence_text: str
     tests: Table
     figures: tuple = ()
@@ -82,7 +81,7 @@ class View:
 
 
 # ---------------------------------------------------------------------------
-def _markup(fig, key: str, title: str, figures: str) -> str:
+def _markup(fig, title: str, figures: str) -> str:
     if figures == "png":
         uri = F.figure_to_png_data_uri(fig, dpi=96)
         return f'<img src="{uri}" alt="{escape(title, quote=True)}">'
@@ -94,7 +93,7 @@ def _figure(key: str, title: str, build, figures: str) -> FigureView:
         fig = build()
     except Exception as err:  # a figure that fails must not take the report down with it
         return FigureView(key, title, "", "", f"{title} could not be drawn: {str(err).splitlines()[0]}")
-    return FigureView(key, title, _markup(fig, key, title, figures), getattr(fig, "lagsight_caption", ""))
+    return FigureView(key, title, _markup(fig, title, figures), getattr(fig, "lagsight_caption", ""))
 
 
 def _check_options(diag, max_lag, band, lag, test, figures) -> None:
@@ -208,7 +207,7 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         source=str(diag.data.source), finding=str(v.finding), headline=str(v.headline),
         key_figures=tuple(key_figures(diag)), warnings=tuple(diag.order.warnings), focus_test=focus,
         focus_guide=TEST_GUIDE.get(focus, "") if focus else "",
-        sentence_markdown=report_sentence(diag, "markdown"), sentence_text=report_sentence(diag, "text"),
+        sentence_text=report_sentence(diag, "text"),
         tests=tests, figures=tuple(figs),
         remedies=remedies_table(diag.remedies, caveat) if diag.remedies is not None else None,
         groups=groups_table(diag.groups) if diag.groups is not None else None,

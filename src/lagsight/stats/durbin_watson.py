@@ -425,11 +425,8 @@ def durbin_watson(
     )
 
 
-def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.05, distribution=None):
-    """:func:`durbin_watson` with a design, also returning the distribution it built.
-
-    Pass ``distribution`` to reuse one built earlier for the same design and lag.
-    """
+def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.05):
+    """:func:`durbin_watson` with a design, also returning the distribution it built (for the views)."""
     check_alternative(alternative)
     alpha = check_alpha(alpha)
     d, num, den = _dw_parts(resid, lag)
@@ -439,7 +436,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     X = _as_design(exog, n)
     if n - X.shape[1] < 2:
         raise ValueError(f"need more residuals than design columns + 1 (n = {n}, columns = {X.shape[1]})")
-    dist = distribution if distribution is not None else DurbinWatsonDistribution(X, lag)
+    dist = DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
     u = unit_scale(e)
     proj = dist._basis_t @ u

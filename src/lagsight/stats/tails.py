@@ -148,13 +148,13 @@ class _Line:
             q = self.e_incl / D
             return float(np.sum(np.log(D))), float(-2.0 * q.sum()), float(-4.0 * np.dot(q, q)), True
         bad = self.bad_set(s)
-        if not self.bordered(s, bad):
+        if not self.bordered(s):
             return self._real_fast(s)
         if bad.size > _MAX_BAD or self.expensive:
             raise _Underflow(s)
         return self._real_bordered(s, bad)
 
-    def bordered(self, s0: float, bad: np.ndarray) -> bool:
+    def bordered(self, s0: float) -> bool:
         """Whether to evaluate through the bordered matrix: some factor 1 - 2 s e_j is below
         _SMALL_D (the engine's identity would lose digits or its branch), or the scale is one
         at which those unscaled factors would lose range.  Otherwise the engine's evaluate
@@ -228,7 +228,7 @@ class _Line:
         returns the raw phase data (phase of the bordered determinant and its derivative in y)
         for unwrapping."""
         s = s0 + 1j * np.asarray(y, float)
-        if not self.bordered(s0, bad):
+        if not self.bordered(s0):
             ld, _ = self.form.evaluate(2.0 * s, self.c, nats=nats)
             return ld, None, None
         out = np.empty(s.size, complex)
@@ -404,7 +404,7 @@ def _line_integral(line: _Line, s0: float, L0: float, a: float, bad: np.ndarray,
 
     Returns (J, relative error estimate).
     """
-    unwrap = line.bordered(s0, bad)
+    unwrap = line.bordered(s0)
     cols = {"u": [], "y": [], "ld": [], "ph": [], "dp": [], "g": []}
 
     def magnitude(y, ld):

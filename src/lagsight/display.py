@@ -21,6 +21,10 @@ import html
 import warnings
 import weakref
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .stats.bounds import BoundsResult
 
 __all__ = [
     "MODES", "SNAPSHOT_CLASS", "BoundsView", "mimebundle", "static_html", "snapshot_bundle", "quiet_bundle",
@@ -313,7 +317,7 @@ class BoundsView:
     ``bounds`` is the :class:`~lagsight.stats.durbin_watson.BoundsResult`.
     """
 
-    bounds: object
+    bounds: BoundsResult
 
     @property
     def lower(self) -> float:

@@ -53,7 +53,9 @@ class LagsightMagics(Magics):
         if not expr:
             raise UsageError(f"{what} is missing")
         try:
-            return eval(expr, self.shell.user_global_ns, self.shell.user_ns)  # the user's own expression
+            shell = self.shell
+            assert shell is not None  # a registered magic always has its shell
+            return eval(expr, shell.user_global_ns, shell.user_ns)  # the user's own expression
         except NameError as err:
             name = getattr(err, "name", None)
             detail = f"name {name!r} is not defined" if name else _first_line(err)

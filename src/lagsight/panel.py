@@ -273,7 +273,7 @@ class DiagnosisPanel:
         d = self.current if diag is None else diag
         h, cg = self.lag, self._correlogram(d.alpha)
         caveat = order_caveat(self.base)  # rows out of time order: the same at every alpha and alternative
-        specs = {}
+        specs: dict[str, tuple] = {}
         if DW in d.tests:
             specs["scale"] = (("scale", d.alpha, d.alternative), lambda: F.scale_figure(d, alpha=d.alpha),
                               "Durbin-Watson d on its 0-4 scale")

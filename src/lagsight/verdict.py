@@ -250,12 +250,12 @@ _ADVICE = {
 }
 
 
-def _problem_key(why: str) -> str | None:
+def _problem_key(why: str) -> str:
     for key in ("fits the data exactly", "response is constant", "residuals are constant", "residuals are all zero",
                 "not finite", "k + 1", "Ljung-Box"):
         if key in why:
             return key
-    return None
+    return ""
 
 
 def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str, errors=None,
@@ -286,10 +286,11 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
         why = "the rows are not in time order, so no serial-correlation test measures anything here"
         headline = (f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time "
                     "(order='index' or a time column) and run again.")
-        details = ("The tests were computed on the rows as given; their p-values do not measure serial "
-                   "correlation.",) + order_details
-        steps = ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",)
-        return Verdict("not meaningful", "unknown", headline, details, steps, leading=plan.leading,
+        return Verdict("not meaningful", "unknown", headline,
+                       ("The tests were computed on the rows as given; their p-values do not measure serial "
+                        "correlation.", *order_details),
+                       ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",),
+                       leading=plan.leading,
                        family=plan.family, rule=rule, alpha=alpha, reason=why)
 
     family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
@@ -301,7 +302,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     level = strength(p_family, alpha)
     significant = [name for name, a in zip(family, adjusted) if a < alpha]
 
-    details = [f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
+    details: list[str] = [f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
                + ("this test." if len(family) == 1 else "these two tests, adjusted by weighted Holm.")]
     for name, p, a in zip(family, raw, adjusted):
         res = tests[name]
@@ -323,7 +324,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
         )
     lead_words = (format_p(raw[0], log10_p(tests[family[0]])) if len(family) == 1
                   else f"adjusted {format_p(p_family)}")
-    steps = []
+    steps: list[str] = []
     if found:
         where = " and ".join(_what(name, tests[name], alternative, period) for name in significant)
         headline = (f"{_STRENGTH_WORDS[level]} evidence of {where} ({lead_words}; {rule}). "

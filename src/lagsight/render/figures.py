@@ -47,7 +47,7 @@ def _finish(fig: Figure, caption: str, caveat: str = "") -> Figure:
         fig.text(0.99, 0.99, _plain(caveat), ha="right", va="top", fontsize=7, style="italic",
                  color=PALETTE["orange"], wrap=True).set_gid("lgs-caveat")
         caption = f"{caveat} {caption}"
-    fig.lagsight_caption = caption
+    fig.lagsight_caption = caption  # type: ignore[attr-defined]
     return fig
 
 

@@ -265,8 +265,8 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
         for i, note in enumerate(reversed(notes)):
             fig.text(left, (yb + 0.19 * legend_rows + 0.1 + 0.2 * i) / height, note, fontsize=7.5,
                      style="italic", color=PALETTE["orange"], va="bottom")
-        fig.lagsight_caption = " ".join(filter(None, [caveat, _caption(res, b, dist, alpha, window, alt)]))
-        fig.lagsight_notes = tuple(notes)
+        fig.lagsight_caption = " ".join(filter(None, [caveat, _caption(res, b, dist, alpha, window, alt)]))  # type: ignore[attr-defined]
+        fig.lagsight_notes = tuple(notes)  # type: ignore[attr-defined]
     return fig
 
 
@@ -284,7 +284,7 @@ def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
 
 
 def _legend(b, dist, alpha: float) -> list:
-    handles = []
+    handles: list = []
     if b is not None:
         texts = {"positive": "evidence of positive correlation: d < dL",
                  "inconclusive": "inconclusive: dL to dU and 4\u2212dU to 4\u2212dL",
@@ -354,6 +354,7 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
         fig.legend(handles=_legend(bounds, None, bounds.alpha)[:4], loc="lower left",
                    bbox_to_anchor=(left - 0.01, 0.06 / height), ncol=2, fontsize=7.5, handlelength=2.2,
                    columnspacing=1.5, borderaxespad=0, frameon=False)
-        fig.lagsight_caption = (f"Classical bounds decision for a test against positive correlation at "
+        fig.lagsight_caption = (  # type: ignore[attr-defined]
+            f"Classical bounds decision for a test against positive correlation at "
                                 f"\u03b1 = {bounds.alpha:g}; mirrored above 2 for negative correlation.")
     return fig

@@ -94,7 +94,7 @@ def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
     diagnosis's own alpha; another ``alpha`` reads each p-value on its own.
     """
     v = diag.verdict
-    rows = []
+    rows: list[tuple[str, ...]] = []
     for name, res in diag.tests.items():
         p = res.pvalue
         if math.isnan(p) and v.finding != "not meaningful":

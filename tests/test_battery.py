@@ -324,3 +324,15 @@ def test_seasonal_lag_test_is_the_t_ratio_of_the_lag_s_coefficient():
     assert abs(res.pvalue - stats.t.sf(t, A.shape[0] - A.shape[1])) < 1e-12
     with pytest.raises(ValueError, match="'period'"):
         seasonal_lag_test(e, X, period=1)
+
+
+# --- residuals without variation ---------------------------------------------------------------
+@pytest.mark.parametrize("value", [0.0, 3.5])
+def test_constant_residuals_are_a_one_line_value_error(value):
+    # autocorrelations of a constant are 0/0: one clear ValueError, never a ZeroDivisionError or NaN
+    e = np.full(40, value)
+    X = np.column_stack([np.ones(40), np.arange(40.0)])
+    for run in (lambda: breusch_godfrey(e, X, max_lag=2), lambda: ljung_box(e, max_lag=4)):
+        with pytest.raises(ValueError, match="'resid' must vary") as err:
+            run()
+        assert "\n" not in str(err.value)

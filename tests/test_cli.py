@@ -78,3 +78,91 @@ def test_degenerate_data_exits_three(tmp_path, capsys):
     assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "e.html")]) == 3
     captured = capsys.readouterr()
     assert captured.out.startswith("Cannot judge: ") and captured.err == ""
+
+
+# --- hostile paths, time columns and notes ---------------------------------------------------------
+def _frame(n=80, seed=2):
+    rng = np.random.default_rng(seed)
+    x = rng.normal(size=n)
+    return pd.DataFrame({"x": x, "y": 1 + x + rng.normal(size=n)})
+
+
+@pytest.mark.parametrize("where", ["missing folder", "a folder"])
+def test_output_that_cannot_be_a_file_exits_two_with_one_line(tmp_path, capsys, where):
+    path = tmp_path / "d.csv"
+    _frame().to_csv(path, index=False)
+    out = tmp_path / "no such folder" / "r.html" if where == "missing folder" else tmp_path
+    assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(out)]) == 2
+    captured = capsys.readouterr()
+    assert captured.err.startswith("lagsight: error: -o ") and captured.err.count("\n") == 1
+    assert captured.out == ""
+
+
+@pytest.mark.parametrize("stamps,first", [
+    (lambda d: d.strftime("%d/%m/%Y"), "'01/01/2021'"),                # day first: never guessed
+    (lambda d: [f"t{i + 1}" for i in range(len(d))], "'t1'"),          # labels
+    (lambda d: [s.strftime("%Y-%m-%d") if i % 2 else s.strftime("%d %b %Y") for i, s in enumerate(d)],
+     "'01 Jan 2021'"),                                                 # mixed forms
+])
+def test_time_values_that_are_not_unambiguous_exit_two(tmp_path, capsys, stamps, first):
+    frame = _frame()
+    frame.insert(0, "t", stamps(pd.date_range("2021-01-01", periods=len(frame), freq="D")))
+    path = tmp_path / "t.csv"
+    frame.to_csv(path, index=False)
+    assert main(["report", str(path), "--y", "y", "--x", "x", "--time", "t", "-o", str(tmp_path / "r.html")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and first in err and "--time-format" in err
+
+
+def test_time_format_sorts_day_first_dates_in_calendar_order(tmp_path, capsys):
+    frame = _frame()
+    days = pd.date_range("2021-01-01", periods=len(frame), freq="D")
+    frame.insert(0, "t", days.strftime("%d/%m/%Y"))
+    path = tmp_path / "t.csv"
+    frame.sample(frac=1.0, random_state=1).to_csv(path, index=False)   # rows shuffled in the file
+    code = main(["report", str(path), "--y", "y", "--x", "x", "--time", "t", "--time-format", "%d/%m/%Y",
+                 "-o", str(tmp_path / "r.html")])
+    assert code in (0, 1)
+    out = capsys.readouterr().out
+    assert "irregular gaps" not in out          # read as the 80 consecutive days they are
+    assert "not in order of the index" in out and "sorted by it for testing" in out
+
+
+def test_iso_and_numeric_time_columns_are_accepted(tmp_path, capsys):
+    frame = _frame()
+    for values in (pd.date_range("2021-01-01", periods=len(frame), freq="D").strftime("%Y-%m-%d"),
+                   np.arange(len(frame)) * 2.5):
+        frame["t"] = values
+        path = tmp_path / "t.csv"
+        frame.to_csv(path, index=False)
+        args = ["report", str(path), "--y", "y", "--x", "x", "--time", "t", "-o", str(tmp_path / "r.html")]
+        assert main(args) in (0, 1)
+        captured = capsys.readouterr()
+        assert captured.err == "" and "irregular gaps" not in captured.out
+
+
+def test_notes_and_cautions_are_printed_and_quiet_prints_the_headline(tmp_path, capsys):
+    frame = _frame()
+    frame.loc[[3, 9], "y"] = np.nan
+    frame["g"] = ["a"] * 35 + ["b"] * 35 + [""] * 10                  # empty cells: no group label
+    path = tmp_path / "d.csv"
+    frame.to_csv(path, index=False)
+    args = ["report", str(path), "--y", "y", "--x", "x", "--group", "g", "-o", str(tmp_path / "r.html")]
+    main(args)
+    out = capsys.readouterr().out.splitlines()
+    assert "note: 2 rows with missing or infinite values in 'y' or the predictors were dropped before " \
+           "fitting; the time order has gaps there." in out
+    assert "note: 10 rows have no group label and were left out." in out
+    assert any(line.startswith("test note, Breusch-Godfrey: ") for line in out)
+    assert any(line.startswith("caution: ") for line in out)
+    main(args + ["--quiet"])
+    quiet = capsys.readouterr().out.splitlines()
+    assert len(quiet) == 1 and quiet[0] == out[0]
+
+
+def test_a_repeated_column_name_in_the_header_exits_two(tmp_path, capsys):
+    path = tmp_path / "d.csv"
+    path.write_text("y,x,x\n1,2,3\n2,3,1\n3,1,2\n4,5,6\n")
+    assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "r.html")]) == 2
+    err = capsys.readouterr().err
+    assert "more than one column named 'x'" in err and err.count("\n") == 1

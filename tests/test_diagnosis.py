@@ -194,3 +194,151 @@ def test_bad_options():
         diagnose(fit, alternative="up")
     with pytest.raises(ValueError, match="'remedies'"):
         diagnose(fit, remedies="maybe")
+
+
+# --- hostile inputs: failing tests, missing group labels, library warnings, assumed k' ----------
+def _ar1_resid(n, rho=0.5, seed=0):
+    rng = np.random.default_rng(seed)
+    e = np.zeros(n)
+    eps = rng.normal(size=n)
+    for t in range(1, n):
+        e[t] = rho * e[t - 1] + eps[t]
+    return e
+
+
+@pytest.mark.parametrize("kind", [FloatingPointError, IndexError, RuntimeError, ZeroDivisionError])
+def test_a_test_that_fails_in_any_way_becomes_an_error_entry(monkeypatch, kind):
+    from lagsight.stats import battery
+
+    def broken(*args, **kwargs):
+        raise kind("went wrong\nsecond line")
+
+    monkeypatch.setattr(battery, "breusch_godfrey", broken)
+    d = diagnose(_ar1_resid(60), exog=np.ones((60, 1)))
+    assert d.errors["Breusch-Godfrey"] == f"{kind.__name__}: went wrong"   # one line, the kind named
+    assert "Durbin-Watson" in d.tests and "Ljung-Box" in d.tests           # the others still ran
+    assert "not run: " in d.to_frame().set_index("test").loc["Breusch-Godfrey", "reading"]
+
+
+def test_failing_corrections_say_why(monkeypatch):
+    import lagsight.diagnosis as D
+
+    def broken(*args, **kwargs):
+        raise np.linalg.LinAlgError("SVD did not converge")
+
+    monkeypatch.setattr(D, "compare_inference", broken)
+    fit = smf.ols("y ~ x", data=_ar1_frame(80)).fit()
+    d = diagnose(fit, remedies=True)
+    assert d.remedies is None
+    assert "No corrected inference: SVD did not converge." in d.notes
+    assert not any("needs the response and the design" in n for n in d.notes)
+
+
+def _labelled_frame(labels, seed=3):
+    rng = np.random.default_rng(seed)
+    n = len(labels)
+    frame = pd.DataFrame({"x": rng.normal(size=n), "g": labels})
+    frame["y"] = 1 + frame["x"] + _ar1_resid(n, 0.3, seed)
+    return frame
+
+
+@pytest.mark.parametrize("missing", [None, np.nan])
+def test_rows_without_a_group_label_are_left_out_with_a_count(missing):
+    labels = ["a"] * 35 + ["b"] * 35 + [missing] * 10
+    frame = _labelled_frame(np.array(labels, dtype=object))
+    d = diagnose(frame, response="y", predictors=["x"], groups="g")
+    assert "10 rows have no group label and were left out." in d.notes
+    assert d.n == 70 and d.groups.table["n"].sum() == 70         # 70 used + 10 noted = 80 given
+    assert d.groups.n_groups == d.groups.n_tested == len(d.groups.table) == 2
+    # the OLS is fitted on the labelled rows only: same residuals as fitting those rows directly
+    kept = frame[frame["g"].notna()]
+    direct = smf.ols("y ~ x", data=kept).fit()
+    np.testing.assert_allclose(d.data.resid, direct.resid.to_numpy(), atol=1e-10)
+    # the group count in every note and detail matches the table
+    counts = [int(m) for text in list(d.notes) + list(d.verdict.details)
+              for m in __import__("re").findall(r"(\d+) groups", text)]
+    assert counts and set(counts) == {2}
+    assert "10 rows have no group label" in str(d)
+
+
+def test_group_labels_missing_with_residual_arrays_and_all_missing():
+    e = _ar1_resid(60)
+    labels = np.array(["p"] * 25 + ["q"] * 25 + [None] * 10, dtype=object)
+    d = diagnose(e, exog=np.ones((60, 1)), groups=labels)
+    assert d.n == 50 and "10 rows have no group label and were left out." in d.notes
+    with pytest.raises(ValueError, match="all 60 group labels are missing") as err:
+        diagnose(e, groups=[None] * 60)
+    assert "\n" not in str(err.value)
+    with pytest.raises(ValueError, match="all 60 group labels are missing"):
+        diagnose(e, groups=np.full(60, np.nan))
+
+
+def test_a_single_group_label_is_said():
+    d = diagnose(_ar1_resid(40), groups=["only"] * 40)
+    assert d.groups is None
+    assert any("same label ('only')" in n for n in d.notes)
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_pooled_within_group_d_is_scale_free(scale):
+    # d is a ratio of quadratic forms in the residuals: any positive factor leaves it unchanged
+    rng = np.random.default_rng(5)
+    X = sm.add_constant(rng.normal(size=80))
+    e = _ar1_resid(80, 0.4, 5)
+    g = np.repeat(["a", "b"], 40)
+    base = diagnose(e, exog=X, groups=g).groups
+    mixed = X * np.array([1.0, scale])  # a constant of 1 beside a regressor in other units
+    for design in (X * scale, mixed):
+        big = diagnose(e * scale, exog=design, groups=g).groups
+        assert big.pooled_dw == pytest.approx(base.pooled_dw, rel=1e-12)
+        assert big.pooled_pvalue == pytest.approx(base.pooled_pvalue, rel=1e-9)
+        assert big.naive_dw == pytest.approx(base.naive_dw, rel=1e-12)
+
+
+def test_library_warnings_become_notes_and_none_escapes():
+    import warnings
+    rng = np.random.default_rng(2)
+    x = rng.normal(size=60)
+    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x})   # collinear predictors
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")          # any warning that escapes fails the test
+        d = diagnose(frame, response="y", predictors=["x", "x2"])
+        alternating = diagnose(np.tile([1.0, -1.0], 30))                   # a singular PACF system
+    assert any(n.startswith("statsmodels warned: The design matrix is rank-deficient") for n in d.notes)
+    assert any("statsmodels warned: The design matrix is rank-deficient" in n for n in d.test_notes)
+    assert any(n.startswith("Correlogram: statsmodels warned: Matrix is singular") for n in alternating.notes)
+
+
+def test_assumed_k_prime_is_said_wherever_it_is_shown():
+    from lagsight.render.text import key_figures, report_sentence
+    d = diagnose(_ar1_resid(60, 0.0))
+    assert dict(key_figures(d))["k'"] == "1 (assumed: no design given)"
+    assert any("assume k' = 1" in n for n in d.notes)
+    fit = smf.ols("y ~ x", data=_ar1_frame(80)).fit()
+    assert dict(key_figures(diagnose(fit)))["k'"] == "1"
+    assert "k' = 1)" in report_sentence(diagnose(fit), "text")
+    assert "k' = 1 (assumed: no design given)" in report_sentence(d, "text", test="Durbin-Watson")
+
+
+def test_test_notes_reach_the_text_view():
+    rng = np.random.default_rng(2)
+    x = rng.normal(size=60)
+    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x})
+    d = diagnose(frame, response="y", predictors=["x", "x2"])
+    assert "test note, Durbin-Watson: the design has rank 2 < 3 columns" in str(d)
+
+
+def test_a_group_dummy_does_not_push_the_other_group_out_of_the_table():
+    # the pooled model's group-level column is zero throughout group b and is dropped there; its name
+    # must go with it (group b was skipped with "'names' must have one entry per column" before)
+    from statsmodels.stats.stattools import durbin_watson as sm_dw
+    rng = np.random.default_rng(4)
+    n = 80
+    frame = pd.DataFrame({"x": rng.normal(size=n), "g": np.repeat(["a", "b"], n // 2)})
+    frame["a_level"] = (frame["g"] == "a").astype(float)
+    frame["y"] = 1 + frame["x"] + 2 * frame["a_level"] + _ar1_resid(n, 0.5, 4)
+    d = diagnose(frame, response="y", predictors=["x", "a_level"], groups="g")
+    assert d.groups.skipped == {} and sorted(d.groups.table["group"]) == ["a", "b"]
+    resid = smf.ols("y ~ x + a_level", data=frame).fit().resid.to_numpy()
+    row = d.groups.table.set_index("group").loc["b"]
+    assert row["dw"] == pytest.approx(sm_dw(resid[n // 2:]), rel=1e-10)   # statsmodels' d on group b

@@ -279,3 +279,30 @@ def test_reorder_and_subset_move_every_row_field_together():
         data.subset(np.array([True, False]))
     with pytest.raises(ValueError, match=r"'selector' positions must lie in \[0, 5\)"):
         data.subset([7])
+
+
+# --- hostile DataFrames ----------------------------------------------------------------------------
+def test_duplicated_column_names_are_a_one_line_value_error(longley):
+    frame = longley[["TOTEMP", "GNP", "UNEMP"]].set_axis(["TOTEMP", "GNP", "GNP"], axis=1)
+    for kwargs in ({"response": "TOTEMP", "predictors": ["GNP"]}, {"response": "GNP", "predictors": ["TOTEMP"]}):
+        with pytest.raises(ValueError, match="the DataFrame has 2 columns named 'GNP'") as err:
+            as_residual_data(frame, **kwargs)
+        assert "\n" not in str(err.value)
+    grouped = longley[["TOTEMP", "GNP"]].assign(g=1, h=2).set_axis(["TOTEMP", "GNP", "g", "g"], axis=1)
+    with pytest.raises(ValueError, match="'groups': the DataFrame has 2 columns named 'g'"):
+        as_residual_data(grouped, response="TOTEMP", predictors=["GNP"], groups="g")
+
+
+def test_response_may_be_a_one_item_list(longley):
+    plain = as_residual_data(longley, response="TOTEMP", predictors=LONGLEY_X)
+    listed = as_residual_data(longley, response=["TOTEMP"], predictors=LONGLEY_X)
+    np.testing.assert_array_equal(plain.resid, listed.resid)
+    assert listed.endog_name == "TOTEMP"
+    with pytest.raises(ValueError, match="'response' must be one column name \\(got a list of 2"):
+        as_residual_data(longley, response=["TOTEMP", "GNP"], predictors=["YEAR"])
+    with pytest.raises(TypeError, match="'response' must be a column name \\(got dict\\)"):
+        as_residual_data(longley, response={"TOTEMP": 1}, predictors=["YEAR"])
+    with pytest.raises(ValueError, match="'predictors' names column 'GNP' more than once"):
+        as_residual_data(longley, response="TOTEMP", predictors=["GNP", "GNP"])
+    one = as_residual_data(longley, response="TOTEMP", predictors=pd.Index(["GNP"]))
+    assert one.exog_names == ("const", "GNP")

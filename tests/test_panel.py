@@ -406,3 +406,15 @@ def test_png_figures(diag):
     panel = DiagnosisPanel(diag, figures="png", snapshot_delay=0)
     assert 'src="data:image/png;base64,' in panel.correlogram_view.value
     assert "<svg" not in panel.correlogram_view.value
+
+
+def test_notes_show_in_the_headline_and_test_notes_in_the_test_view():
+    rng = np.random.default_rng(2)
+    x = rng.normal(size=60)
+    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x,
+                          "g": np.array(["a<"] * 25 + ["b&"] * 25 + [None] * 10, dtype=object)})
+    d = lagsight.diagnose(frame, response="y", predictors=["x", "x2"], groups="g")
+    panel = DiagnosisPanel(d, test=DW, snapshot_delay=0)
+    assert "10 rows have no group label and were left out." in panel.headline.value
+    assert "the design has rank 2 &lt; 3 columns" in panel.test_view.value
+    assert "10 rows have no group label" in panel.snapshot()["text/html"]

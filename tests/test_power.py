@@ -260,3 +260,17 @@ def test_bad_designs():
         dw_power(_design(3))
     with pytest.raises(TypeError, match="'rhos'"):
         dw_power(_design(30), rhos=["a"])
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_power_depends_on_the_column_space_not_the_units(scale):
+    # the DW test (and its power) depend on the design only through its column space: a constant of 1
+    # beside a regressor in other units is the same design (before: the constant was dropped as
+    # 'rank 1 < 2' and the power was that of another design)
+    rng = np.random.default_rng(3)
+    n = 60
+    X = np.column_stack([np.ones(n), rng.normal(size=n)])
+    base = dw_power(X, n_sim=400)
+    mixed = dw_power(X * np.array([1.0, scale]), n_sim=400)
+    assert mixed.rank == 2 and not mixed.notes
+    np.testing.assert_array_equal(mixed.power, base.power)

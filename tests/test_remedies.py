@@ -274,3 +274,27 @@ def test_corrections_are_scale_free(scale):
     assert scaled.hac_lag == base.hac_lag and abs(scaled.rho - base.rho) < 1e-10
     for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls", "p_ols", "p_hac", "p_fgls"):
         np.testing.assert_allclose(scaled.table[col], base.table[col], rtol=1e-8)
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_corrections_with_a_unit_constant_beside_extreme_regressors(scale):
+    # a DataFrame (or CSV) at 1e200 gets a constant of 1 added beside its regressors: the constant must
+    # not vanish next to them (before: "'exog' must have full column rank 2 (got rank 1)" and no table).
+    # Equivariance: with y and x in new units the slope stays, the intercept scales with y, and the
+    # t-ratios, p-values, HAC lag and rho do not change
+    from lagsight.stats.remedies import compare_inference
+    rng = np.random.default_rng(41)
+    n = 120
+    x = rng.normal(size=n)
+    u = np.zeros(n)
+    for t in range(1, n):
+        u[t] = 0.6 * u[t - 1] + rng.normal()
+    y = 1.0 + 0.5 * x + u
+    base = compare_inference(y, np.column_stack([np.ones(n), x]))
+    scaled = compare_inference(y * scale, np.column_stack([np.ones(n), x * scale]))
+    assert scaled.hac_lag == base.hac_lag and abs(scaled.rho - base.rho) < 1e-10
+    units = np.array([scale, 1.0])  # intercept in y's units; slope unchanged
+    for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls"):
+        np.testing.assert_allclose(scaled.table[col] / units, base.table[col], rtol=1e-8)
+    for col in ("p_ols", "p_hac", "p_fgls"):
+        np.testing.assert_allclose(scaled.table[col], base.table[col], rtol=1e-8)

@@ -514,3 +514,54 @@ def test_plain_text_view_lists_every_test(water):
         assert name in txt
     assert "To report: Durbin-Watson d = 0.889" in txt
     assert not math.isnan(water.tests[DW].pvalue)
+
+
+# ---------------------------------------------------------------------------
+# notes reach every view
+# ---------------------------------------------------------------------------
+def test_test_notes_and_data_notes_reach_the_static_html():
+    rng = np.random.default_rng(2)
+    x = rng.normal(size=60)
+    frame = pd.DataFrame({"y<&": rng.normal(size=60), "x": x, "x2": 2 * x,
+                          "g": np.array(["a"] * 25 + ["b"] * 25 + [None] * 10, dtype=object)})
+    d = lagsight.diagnose(frame, response="y<&", predictors=["x", "x2"], groups="g")
+    page = H.diagnosis_html(d, figures="none")
+    assert escape("Durbin-Watson: the design has rank 2 < 3 columns; it was reduced to its column space") in page
+    assert "10 rows have no group label and were left out." in page
+    assert "y<&" not in page
+
+
+def test_assumed_k_prime_in_the_key_figures_and_the_scale_subtitle():
+    e = np.random.default_rng(4).normal(size=60)
+    d = lagsight.diagnose(e)
+    page = H.diagnosis_html(d, figures="none")
+    assert "k&#x27;:</b> 1 (assumed: no design given)" in page
+    fig = F.scale_figure(d)
+    texts = [t.get_text() for t in fig.texts]
+    assert any("k\u2032 = 1 (assumed: no design given)" in t for t in texts)
+
+
+@pytest.mark.parametrize("scale", [1e200, 1e-200])
+def test_lag_scatter_correlation_is_scale_free(scale):
+    # Pearson's correlation does not depend on the units; numpy's corrcoef on unit data is the reference
+    from lagsight.stats.correlogram import lag_pairs
+    e = np.random.default_rng(8).normal(size=50)
+    ref = float(np.corrcoef(e[:-1], e[1:])[0, 1])
+    assert lag_pairs(e * scale, lag=1).correlation == pytest.approx(ref, rel=1e-12)
+
+
+def test_a_warning_while_drawing_becomes_a_caption_note(water, monkeypatch):
+    # e.g. matplotlib on a glyph its font lacks (a label in a script the font does not cover)
+    import warnings
+    real = F.residuals_figure
+
+    def warns(diag, **kwargs):
+        warnings.warn("Glyph 26085 missing from font(s) DejaVu Sans.", UserWarning, stacklevel=2)
+        return real(diag, **kwargs)
+
+    monkeypatch.setattr(F, "residuals_figure", warns)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        view = H.build_view(water, figures="png")
+    caption = next(f.caption for f in view.figures if f.key == "residuals")
+    assert "Glyph 26085 missing from font(s) DejaVu Sans." in caption

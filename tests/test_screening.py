@@ -123,7 +123,7 @@ def test_rows_without_a_group_label_are_left_out_with_a_note():
     data = sm.datasets.grunfeld.load_pandas().data
     data.loc[data.index[5], "firm"] = None
     res = screen(data, response="invest", predictors=["value", "capital"], groups="firm", progress=False)
-    assert "1 row(s) without a group label were left out." in res.notes
+    assert "1 row has no group label and was left out." in res.notes
     assert sorted(res.table["n"]) == [19] + [20] * 10
 
 
@@ -333,3 +333,32 @@ def test_bad_arguments_get_one_line_messages(kwargs, error, message):
     with pytest.raises(error) as info:
         screen(progress=False, **kwargs)
     assert message in str(info.value) and "\n" not in str(info.value)
+
+
+def test_all_group_labels_missing_is_a_one_line_error():
+    data = sm.datasets.grunfeld.load_pandas().data.assign(firm=None)
+    with pytest.raises(ValueError, match="all 220 group labels are missing"):
+        screen(data, response="invest", predictors=["value", "capital"], groups="firm", progress=False)
+
+
+def test_library_warnings_become_notes_in_the_table():
+    import warnings
+    rng = np.random.default_rng(3)
+    x = rng.normal(size=50)
+    frame = pd.DataFrame({"y": rng.normal(size=50), "x": x, "x2": 2 * x})          # collinear
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        res = screen({"collinear": {"model": frame, "response": "y", "predictors": ["x", "x2"]}}, progress=False)
+    assert "statsmodels warned: The design matrix is rank-deficient" in res.table.loc[0, "notes"]
+
+
+def test_response_and_predictors_are_checked_as_in_diagnose():
+    data = sm.datasets.grunfeld.load_pandas().data
+    listed = screen(data, response=["invest"], predictors=["value"], groups="firm", progress=False)
+    plain = screen(data, response="invest", predictors=["value"], groups="firm", progress=False)
+    pd.testing.assert_frame_equal(listed.table, plain.table)
+    with pytest.raises(ValueError, match="'response' must be one column name"):
+        screen(data, response=["invest", "value"], predictors=["capital"], groups="firm", progress=False)
+    twice = data[["invest", "value", "capital", "firm"]].set_axis(["invest", "value", "value", "firm"], axis=1)
+    with pytest.raises(ValueError, match="2 columns named 'value'"):
+        screen(twice, response="invest", predictors=["value"], groups="firm", progress=False)

@@ -19,6 +19,7 @@ from .stats import battery, runs
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
 from .stats._arrays import scaled, unit_columns, unit_scale
+from .stats._caught import caught_warnings
 from .stats.results import TestResult
 
 __all__ = ["SEASONAL_GIVEN", "BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
@@ -92,6 +93,8 @@ class BatteryRun:
     bg_max_lag: int | None
     notes: tuple = field(default_factory=tuple)
     plan: LeadPlan | None = None
+    #: test name -> notes made from the library warnings raised while it ran (also in the test's notes)
+    warned: dict = field(default_factory=dict)
 
 
 def ljung_box_lag(n: int, period: int | None, *, leading: bool = False) -> int:
@@ -179,11 +182,22 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     alt = settings.alternative
     period = settings.period if settings.period and settings.period > 1 else None
 
+    warned: dict[str, tuple] = {}
+
     def attempt(name, fn):
-        try:
-            tests[name] = fn()
-        except (ValueError, TypeError, ZeroDivisionError, np.linalg.LinAlgError) as err:
-            errors[name] = str(err).splitlines()[0] or type(err).__name__
+        # a test that fails for any reason is recorded with a one-line reason; the others still run
+        with caught_warnings() as caught:
+            try:
+                res = fn()
+            except Exception as err:
+                errors[name] = failure_reason(err)
+                res = None
+        if caught:
+            warned[name] = caught.notes()
+            if res is not None:
+                res = dataclasses.replace(res, notes=tuple(res.notes) + warned[name])
+        if res is not None:
+            tests[name] = res
 
     # which regressor is the lagged response, if any
     lag_col = None
@@ -218,6 +232,12 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
             attempt(DW, dw)
         else:
             attempt(DW, lambda: durbin_watson(e, alternative=alt, alpha=settings.alpha))
+            res = tests.get(DW)
+            assumed = getattr(res, "k_prime", None) if getattr(res, "k_prime_assumed", False) else None
+            if assumed is not None and getattr(res, "bounds", None) is not None:
+                notes.append(f"No design was given, so the Durbin-Watson bounds dL/dU assume k' = "
+                             f"{assumed} (one regressor besides a constant); pass the fitted model "
+                             "or exog= for the exact p-value of the real design.")
     else:
         errors[DW] = (
             "not applicable: the exact Durbin-Watson distribution assumes fixed regressors "
@@ -259,15 +279,28 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     if settings.correlogram and n >= 4:
         nlags = settings.max_lag or default_max_lag(n, period)
         nlags = int(max(1, min(nlags, n // 2 - 1)))
-        try:
-            cg = correlogram(e, max_lag=nlags, alpha=settings.alpha)
-        except ValueError as err:
-            errors["Correlogram"] = str(err)
+        with caught_warnings() as caught:
+            try:
+                cg = correlogram(e, max_lag=nlags, alpha=settings.alpha)
+            except Exception as err:
+                errors["Correlogram"] = failure_reason(err)
+        if caught:
+            warned["Correlogram"] = caught.notes()
+            notes += [f"Correlogram: {note}" for note in warned["Correlogram"]]
     return BatteryRun(
         tests=tests, errors=errors, correlogram=cg, distribution=dist,
         lagged_response=lagged_name, period=period,
-        bg_max_lag=bg_max_lag, notes=tuple(notes), plan=plan,
+        bg_max_lag=bg_max_lag, notes=tuple(notes), plan=plan, warned=warned,
     )
+
+
+def failure_reason(err: BaseException) -> str:
+    """One line on why a computation failed: its message's first line, with the kind of error when
+    the message alone would not say it (a bare ZeroDivisionError, an index error deep in a library)."""
+    first = (str(err).strip().splitlines() or [""])[0]
+    if isinstance(err, (ValueError, TypeError)) and first:
+        return first
+    return f"{type(err).__name__}: {first}" if first else type(err).__name__
 
 
 def default_max_lag(n: int, period: int | None) -> int:

@@ -10,13 +10,13 @@ import dataclasses
 import math
 from dataclasses import dataclass, field
 
-import numpy as np
 import pandas as pd
 
-from .battery_run import DW, BatterySettings, LeadPlan, run_battery
+from .battery_run import DW, BatterySettings, LeadPlan, failure_reason, run_battery
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
+from .stats._caught import caught_warnings
 from .stats.bounds import dw_bounds
 from .stats.correlogram import Correlogram
 from .stats._arrays import check_alpha, check_choice, check_flag, check_optional_int, check_period
@@ -72,6 +72,11 @@ class Diagnosis:
     def shuffled(self) -> bool:
         """True when the rows tested are not in time order (a shuffle that was not sorted away)."""
         return bool(self.order.flags.get("shuffled")) and not self.order.flags.get("sorted")
+
+    @property
+    def test_notes(self) -> tuple:
+        """The notes of the individual tests, each as 'test name: note'."""
+        return tuple(f"{name}: {note}" for name, res in self.tests.items() for note in res.notes)
 
     def to_frame(self) -> pd.DataFrame:
         """The test table: one row per test."""
@@ -136,6 +141,9 @@ class Diagnosis:
         if self.notes:
             lines.append("")
             lines += [f"note: {n}" for n in self.notes]
+        if self.test_notes:
+            lines.append("")
+            lines += [f"test note, {n}" for n in self.test_notes]
         return "\n".join(lines)
 
     __repr__ = __str__
@@ -160,14 +168,21 @@ class Diagnosis:
         return DiagnosisPanel(self, **options)
 
 
-def _remedies(data: ResidualData, alpha: float):
+def _remedies(data: ResidualData, alpha: float, notes: list | None = None):
+    """The corrections table, or None; why there is none goes into ``notes`` when given."""
     if data.endog is None or data.exog is None:
         return None
-    try:
-        return compare_inference(data.endog, data.exog, names=list(data.exog_names) if data.exog_names else None,
-                                 alpha=alpha)
-    except (ValueError, ZeroDivisionError, FloatingPointError, np.linalg.LinAlgError):
-        return None
+    with caught_warnings() as caught:
+        try:
+            fixes = compare_inference(data.endog, data.exog,
+                                      names=list(data.exog_names) if data.exog_names else None, alpha=alpha)
+        except Exception as err:
+            fixes = None
+            if notes is not None:
+                notes.append(f"No corrected inference: {failure_reason(err)}.")
+    if notes is not None:
+        notes += [f"Corrected inference: {note}" for note in caught.notes()]
+    return fixes
 
 
 def _verdict(d: Diagnosis, remedies) -> Verdict:
@@ -216,6 +231,18 @@ def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, gr
     period = check_period(period)
     check_choice(remedies, "remedies", ("auto", True, False))
     power = check_flag(power, "power")
+    # the libraries underneath warn as they compute: those warnings become notes, none escapes
+    with caught_warnings() as caught:
+        d = _diagnose(model, exog=exog, endog=endog, response=response, predictors=predictors, groups=groups,
+                      order=order, time=time, alpha=alpha, alternative=alternative, max_lag=max_lag,
+                      bg_max_lag=bg_max_lag, period=period, remedies=remedies, power=power)
+    if caught:
+        d = dataclasses.replace(d, notes=d.notes + caught.notes())
+    return d
+
+
+def _diagnose(model, *, exog, endog, response, predictors, groups, order, time, alpha, alternative,
+              max_lag, bg_max_lag, period, remedies, power) -> Diagnosis:
     data = as_residual_data(model, exog=exog, endog=endog, response=response, predictors=predictors,
                             groups=groups, time=time)
     report = check_order(data, order=order)
@@ -230,6 +257,10 @@ def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, gr
         group_summary = run_groups(data, settings)
         notes += list(group_summary.notes)
         # the pooled series is still tested, but never across group boundaries for DW
+    elif data.groups is not None:
+        label = pd.Series(data.groups).iloc[0]
+        notes.append(f"'groups' gives every row the same label ({label!r}), so the rows were tested as one "
+                     "series.")
     run = run_battery(data, settings)
     notes += list(run.notes)
     tests = dict(run.tests)
@@ -247,8 +278,8 @@ def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, gr
     if remedies is True and verdict.finding == "cannot judge":
         notes.append("No corrected inference: the input is degenerate (see the verdict).")
     elif remedies is True or (remedies == "auto" and verdict.finding == "evidence"):
-        fixes = _remedies(data, alpha)
-        if fixes is None and remedies is True:
+        fixes = _remedies(data, alpha, notes)
+        if fixes is None and remedies is True and (data.endog is None or data.exog is None):
             notes.append("Corrected inference needs the response and the design (a fitted regression).")
         verdict = _verdict(d, fixes)
     curve = None
@@ -258,6 +289,10 @@ def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, gr
         if data.exog is None:
             notes.append("The power curve needs the design matrix.")
         else:
-            curve = dw_power(data.exog, alpha=alpha,
-                             alternative=alternative)
+            with caught_warnings() as caught:
+                try:
+                    curve = dw_power(data.exog, alpha=alpha, alternative=alternative)
+                except Exception as err:
+                    notes.append(f"No power curve: {failure_reason(err)}.")
+            notes += [f"Power curve: {note}" for note in caught.notes()]
     return dataclasses.replace(d, verdict=verdict, remedies=fixes, power=curve, notes=tuple(notes))

@@ -265,6 +265,10 @@ def headline_html(diag) -> str:
     if v.next_steps:
         parts.append('<ul class="lgs-list">' + "".join(f"<li>{_esc(s)}</li>" for s in v.next_steps) + "</ul>")
     parts.append(f'<div class="lgs-sentence">{_esc(report_sentence(diag, "text"))}</div>')
+    notes = [n for n in diag.notes if n not in diag.order.warnings]
+    if notes:
+        parts.append('<div class="lgs-caption"><b>Notes</b></div><ul class="lgs-list lgs-notes">'
+                     + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     return "".join(parts)
 
 

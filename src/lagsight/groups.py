@@ -14,8 +14,10 @@ import pandas as pd
 from scipy.stats import f_oneway
 from statsmodels.stats.multitest import multipletests
 
-from .battery_run import BG, DW, LB, RUNS, BatterySettings, run_battery, strength
+from .battery_run import BG, DW, LB, RUNS, BatterySettings, failure_reason, run_battery, strength
 from .inputs import ResidualData
+from .stats._arrays import unit_columns, unit_scale
+from .stats._caught import caught_warnings
 from .stats.durbin_watson import DurbinWatsonDistribution, dw_statistic
 from .stats.results import tail_pvalue
 
@@ -23,6 +25,8 @@ __all__ = ["GroupSummary", "MIN_GROUP_SIZE", "run_groups"]
 
 #: groups with fewer observations are skipped and listed
 MIN_GROUP_SIZE = 3
+#: columns of the per-group table (before the adjustment adds dw_p_adjusted and finding)
+_COLUMNS = ("group", "n", "dw", "rho_hat", "dw_pvalue", "bg_pvalue", "lb_pvalue", "runs_pvalue", "errors")
 
 
 @dataclass(frozen=True, eq=False)
@@ -60,9 +64,15 @@ class GroupSummary:
         pooled = _p(self.pooled_lower_tail, 1 - self.pooled_lower_tail, alternative)
         return dataclasses.replace(self, table=table, pooled_pvalue=pooled, alpha=alpha, alternative=alternative)
 
+    @property
+    def n_tested(self) -> int:
+        """Groups in the table (tested); the pooled statistic is taken over these."""
+        return int(len(self.table))
+
     def __str__(self) -> str:
         head = (
-            f"{self.n_groups} groups; pooled within-group d = {self.pooled_dw:.4f} "
+            f"{self.n_groups} groups ({self.n_tested} tested, {len(self.skipped)} skipped); "
+            f"pooled within-group d = {self.pooled_dw:.4f} "
             f"(p {self.pooled_pvalue:.4g}); stacked d across boundaries = {self.naive_dw:.4f}"
         )
         lines = [head, self.table.to_string(max_rows=20)]
@@ -106,7 +116,17 @@ def _row(label, part: ResidualData, settings: BatterySettings) -> dict:
     row["runs_pvalue"] = runs.pvalue if runs is not None else math.nan
     row["errors"] = "; ".join(f"{k}: {v}" for k, v in run.errors.items() if k != "Correlogram")
     row["tails"] = (*_tails(dw), *_tails(runs))
+    row["warned"] = tuple(f"{name}: {note}" for name, notes in run.warned.items() for note in notes)
     return row
+
+
+def _warning_notes(warned: dict) -> list[str]:
+    """One note per library warning, naming the groups it came from (the first five)."""
+    out = []
+    for note, labels in warned.items():
+        shown = ", ".join(map(str, labels[:5])) + (", \u2026" if len(labels) > 5 else "")
+        out.append(f"In {len(labels)} group(s) ({shown}), {note}")
+    return out
 
 
 def _group_level_note(e: np.ndarray, blocks) -> str | None:
@@ -137,7 +157,9 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
         alpha=settings.alpha, alternative=settings.alternative, bg_max_lag=settings.bg_max_lag,
         period=None, lb_lag=settings.lb_lag, correlogram=False,
     )
-    rows, skipped = [], {}
+    rows: list = []
+    skipped: dict = {}
+    warned: dict[str, list] = {}  # note -> labels of the groups it came from
     for g, rows_g in enumerate(blocks):
         label = uniques[g]
         if rows_g.size < MIN_GROUP_SIZE:
@@ -146,25 +168,34 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
         part = data.subset(rows_g)
         if part.exog is not None:
             # columns that are zero throughout the group (other groups' dummies) carry nothing
-            part = part.replace(exog=part.exog[:, np.any(part.exog != 0, axis=0)])
-            if part.n - np.linalg.matrix_rank(part.exog) < 3:
-                part = part.replace(exog=None)
+            used = np.any(part.exog != 0, axis=0)
+            names = None if part.exog_names is None else tuple(nm for nm, u in zip(part.exog_names, used) if u)
+            part = part.replace(exog=part.exog[:, used], exog_names=names)
+            if not used.any() or part.n - np.linalg.matrix_rank(unit_columns(part.exog)) < 3:
+                part = part.replace(exog=None, exog_names=None)
         try:
-            rows.append(_row(label, part, light))
-        except (ValueError, TypeError) as err:
-            skipped[label] = str(err).splitlines()[0]
+            with caught_warnings() as caught:
+                rows.append(_row(label, part, light))
+        except Exception as err:  # the group is listed as skipped with its reason; the others go on
+            skipped[label] = failure_reason(err)
+        for note in caught.notes():
+            warned.setdefault(note, []).append(label)
     tails = {row["group"]: row.pop("tails") for row in rows}
-    table = pd.DataFrame(rows)
-    notes = []
+    for row in rows:
+        for note in row.pop("warned"):
+            warned.setdefault(note, []).append(row["group"])
+    table = pd.DataFrame(rows, columns=_COLUMNS) if not rows else pd.DataFrame(rows)
+    notes = _warning_notes(warned)
     if len(table):
         table = _adjust(table, settings.alpha)
         notes.append(
             "Adjusted p-values control the false discovery rate across groups (Benjamini-Hochberg)."
         )
-    # pooled within-group statistic, exact for the pooled design
-    tested = [b for b in blocks if b.size >= MIN_GROUP_SIZE]
+    # pooled within-group statistic, exact for the pooled design, over the groups in the table
+    in_table = {row["group"] for row in rows}
+    tested = [b for g, b in enumerate(blocks) if uniques[g] in in_table]
     pooled_dw = pooled_p = pooled_lower = math.nan
-    e = data.resid
+    e = unit_scale(data.resid)  # d is scale-free; unit size keeps the sums finite near 1e200 and 1e-200
     num = sum(float(np.sum(np.diff(e[b]) ** 2)) for b in tested)
     den = float(sum(np.dot(e[b], e[b]) for b in tested))
     if den > 0:
@@ -179,12 +210,14 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
             local.append(np.arange(start, start + b.size))
             start += b.size
         try:
-            dist = DurbinWatsonDistribution(X, blocks=local)
-            pooled_lower = dist.cdf(pooled_dw)
+            with caught_warnings() as caught:
+                dist = DurbinWatsonDistribution(X, blocks=local)
+                pooled_lower = dist.cdf(pooled_dw)
             pooled_p = tail_pvalue(pooled_lower, 1 - pooled_lower, settings.alternative)
             method = "pooled within-group d, exact p-value for the pooled design (Imhof inversion)"
-        except ValueError as err:
-            notes.append(f"No exact p-value for the pooled statistic: {err}")
+        except Exception as err:
+            notes.append(f"No exact p-value for the pooled statistic: {failure_reason(err)}")
+        notes += [f"Pooled statistic: {note}" for note in caught.notes()]
     naive = dw_statistic(e) if data.n > 1 else math.nan
     level_note = _group_level_note(e, tested)
     if level_note:

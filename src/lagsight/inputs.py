@@ -16,7 +16,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import has_constant, unit_columns
+from .stats._arrays import check_label, check_labels, has_constant, unit_columns
+from .stats._caught import caught_warnings
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -33,6 +34,35 @@ _ROW_FIELDS = ("resid", "exog", "endog", "groups", "order_values")
 
 def _rows(k: int) -> str:
     return f"{k} row" if k == 1 else f"{k} rows"
+
+
+def frame_column(frame: pd.DataFrame, column, arg: str) -> pd.Series:
+    """The column ``column`` of ``frame``; a one-line ValueError when it is absent or not unique."""
+    if column not in frame.columns:
+        raise ValueError(f"'{arg}': column {column!r} is not in the DataFrame (columns: {list(frame.columns)})")
+    picked = frame.loc[:, frame.columns == column] if not isinstance(frame.columns, pd.MultiIndex) else None
+    if picked is not None and picked.shape[1] > 1:
+        raise ValueError(f"'{arg}': the DataFrame has {picked.shape[1]} columns named {column!r}; "
+                         "column names must be unique (rename the duplicates)")
+    col = frame[column]
+    if isinstance(col, pd.DataFrame):  # a MultiIndex level names several columns
+        raise ValueError(f"'{arg}': {column!r} names {col.shape[1]} columns of the DataFrame; name one column")
+    return col
+
+
+def unlabelled(labels) -> np.ndarray:
+    """Mask of the group labels that are missing (NaN, None, NaT); a ValueError when all are."""
+    missing = np.asarray(pd.isna(pd.Series(labels, dtype=object)), dtype=bool)
+    if missing.size and missing.all():
+        raise ValueError(f"'groups': all {missing.size} group labels are missing (NaN or None); "
+                         "give each row a label, or leave groups out")
+    return missing
+
+
+def unlabelled_note(k: int) -> str:
+    """The note for rows left out because they have no group label (one wording everywhere)."""
+    return (f"{_rows(k)} {'has' if k == 1 else 'have'} no group label and "
+            f"{'was' if k == 1 else 'were'} left out.")
 
 
 _NO_DW_NOTE = (
@@ -323,24 +353,28 @@ def _from_array(values, exog) -> tuple[ResidualData, np.ndarray | None]:
                         source=f"residual {kind}" + (" with exog" if X is not None else "")), None
 
 
-def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> tuple[ResidualData, np.ndarray | None]:
+def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
+                left_out=None) -> tuple[ResidualData, np.ndarray | None]:
+    """OLS of ``response`` on ``predictors``; rows in ``left_out`` (no group label) are not fitted."""
     import statsmodels.api as sm
     if response is None or predictors is None:
         raise TypeError("a DataFrame needs response= (the response column) and predictors= "
                         f"(a list of column names) (got response={response!r}, predictors={predictors!r})")
-    preds = [predictors] if isinstance(predictors, str) else list(predictors)
-    for arg, col in [("response", response)] + [("predictors", c) for c in preds]:
-        if col not in df.columns:
-            raise ValueError(f"'{arg}': column {col!r} is not in the DataFrame (columns: {list(df.columns)})")
-        if not pd.api.types.is_numeric_dtype(df[col]):
-            raise ValueError(f"'{arg}': column {col!r} must be numeric (got dtype {df[col].dtype})")
+    response = check_label(response, "response")
+    preds = check_labels(predictors, "predictors")
+    columns = [("response", response)] + [("predictors", c) for c in preds]
+    picked = {col: frame_column(df, col, arg) for arg, col in columns}
+    for arg, col in columns:
+        if not pd.api.types.is_numeric_dtype(picked[col]):
+            raise ValueError(f"'{arg}': column {col!r} must be numeric (got dtype {picked[col].dtype})")
     if response in preds:
         raise ValueError(f"'predictors' must not contain the response {response!r}")
-    values = df[[response] + preds].to_numpy(dtype=float)
-    ok = np.isfinite(values).all(axis=1)
+    values = np.column_stack([picked[c].to_numpy(dtype=float) for c in [response] + preds])
+    finite = np.isfinite(values).all(axis=1)
+    ok = finite if left_out is None else finite & ~left_out  # the rows fitted
     X, names, notes = values[:, 1:], tuple(str(c) for c in preds), []
-    if (~ok).any():
-        notes.append(f"{_rows(int((~ok).sum()))} with missing or infinite values in {response!r} or the "
+    if (~finite).any():
+        notes.append(f"{_rows(int((~finite).sum()))} with missing or infinite values in {response!r} or the "
                      "predictors were dropped before fitting; the time order has gaps there.")
     has_const = _detect_constant(X[ok]) if X.shape[1] else False
     if add_constant and has_const:
@@ -352,18 +386,23 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
     if ok.sum() <= X.shape[1]:
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
-    fit = sm.OLS(values[ok, 0], X[ok]).fit()
+    with caught_warnings() as raw_caught:
+        fit = sm.OLS(values[ok, 0], X[ok]).fit()
     # the residuals from the same fit on unit-scaled columns: pinv's cut-off treats every column alike,
     # and nothing overflows for data near 1e200 (OLS residuals do not depend on column scales)
     y_ok = values[ok, 0]
     top = float(np.max(np.abs(y_ok))) or 1.0
     resid = np.full(len(df), np.nan)
-    resid[ok] = sm.OLS(y_ok / top, unit_columns(X[ok])).fit().resid * top
+    with caught_warnings() as caught:
+        resid[ok] = sm.OLS(y_ok / top, unit_columns(X[ok])).fit().resid * top
+    notes += caught.notes()  # e.g. a design that is rank-deficient whatever the scale
+    notes += [f"The OLS fit on the original scale (kept as 'fitted'): {note}; the residuals tested come from "
+              "the same fit on unit-scaled columns." for note in raw_caught.notes() if note not in caught.notes()]
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
         resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=values[:, 0],
         endog_name=str(response), notes=tuple(notes), frame=df, fitted=fit,
-        source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight"), ok
+        source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight"), finite
 
 
 def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
@@ -373,9 +412,7 @@ def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
     if isinstance(value, str):
         if frame is None:
             raise ValueError(f"'{arg}' names a column ({value!r}) but the input has no DataFrame to take it from")
-        if value not in frame.columns:
-            raise ValueError(f"'{arg}': column {value!r} is not in the DataFrame (columns: {list(frame.columns)})")
-        return frame[value].to_numpy(), value
+        return frame_column(frame, value, arg).to_numpy(), value
     name = getattr(value, "name", None)
     arr = np.asarray(value.to_numpy() if isinstance(value, (pd.Series, pd.Index)) else value)
     if arr.ndim != 1 or arr.size != n:
@@ -424,9 +461,12 @@ def as_residual_data(model, *, exog=None, endog=None, response=None, predictors=
         if val is not None and arg not in allowed:
             raise TypeError(f"'{arg}' does not apply when 'model' is {type(model).__name__} "
                             f"(got {type(val).__name__}); it is for {_ARG_KIND[arg]}")
+    left_out = None
+    if kind == "frame" and groups is not None:  # rows without a group label are not fitted
+        left_out = unlabelled(_aligned(groups, "groups", len(model), model)[0])
     build = {"regression": lambda: _from_regression(model), "statespace": lambda: _from_statespace(model),
              "sklearn": lambda: _from_sklearn(model, exog, endog), "array": lambda: _from_array(model, exog),
-             "frame": lambda: _from_frame(model, response, predictors, add_constant)}[kind]
+             "frame": lambda: _from_frame(model, response, predictors, add_constant, left_out)}[kind]
     return _finish(*build(), groups, time)
 
 
@@ -438,6 +478,11 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
     order_arr, order_name = _aligned(time, "time", n0, raw.frame)
     keep = np.ones(n0, dtype=bool) if keep is None else keep.copy()
     notes = list(raw.notes)
+    if group_arr is not None:
+        missing = keep & unlabelled(group_arr)  # rows dropped for another reason are counted there
+        if missing.any():
+            notes.append(unlabelled_note(int(missing.sum())))
+            keep &= ~missing
     bad = keep & ~np.isfinite(raw.resid)
     if bad.any():
         notes.append(f"{_rows(int(bad.sum()))} with missing or infinite residuals were dropped; "

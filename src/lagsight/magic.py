@@ -44,6 +44,14 @@ def _usage(err: BaseException, names: dict = _OPTION_OF) -> UsageError:
     return UsageError(text)
 
 
+def _parse(magic, line: str):
+    """The magic's arguments, or a UsageError for a line that cannot be split (an unclosed quote)."""
+    try:
+        return parse_argstring(magic, line)
+    except ValueError as err:  # shlex's 'No closing quotation' and the like
+        raise UsageError(f"the line cannot be read: {_first_line(err)} (quote names with spaces: \"a b\")") from None
+
+
 @magics_class
 class LagsightMagics(Magics):
     """The lagsight magics."""
@@ -115,7 +123,7 @@ class LagsightMagics(Magics):
         """
         line = line.strip()
         silent = line.endswith(";")
-        args = parse_argstring(self.lagsight, line.rstrip(";"))
+        args = _parse(self.lagsight, line.rstrip(";"))
         expr = " ".join(args.expr)
         if not expr:
             raise UsageError("give the model to diagnose, e.g. %lagsight fit (see %lagsight?)")
@@ -188,7 +196,7 @@ class LagsightMagics(Magics):
             %lagsight_bounds 120 2 --alpha 0.01
             %lagsight_bounds 40 1 --no-constant
         """
-        args = parse_argstring(self.lagsight_bounds, line.strip().rstrip(";"))
+        args = _parse(self.lagsight_bounds, line.strip().rstrip(";"))
         from .display import BoundsView
         from .stats.bounds import dw_bounds
         try:

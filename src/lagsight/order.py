@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from .inputs import ResidualData, _rows
+from .inputs import ResidualData, _rows, frame_column
 from .stats._arrays import check_order_arg
 
 _MODES = ("auto", "keep", "index")
@@ -82,7 +82,7 @@ def _resolve_key(data: ResidualData, order):
     if order in _MODES:
         return data.index, "the index", order == "index"
     if data.frame is not None and order in data.frame.columns:
-        return pd.Index(data.frame[order]), f"column {order}", True
+        return pd.Index(frame_column(data.frame, order, "order")), f"column {order}", True
     if data.order_values is not None and order == data.order_name:
         return pd.Index(data.order_values), f"column {order}", True
     columns = list(data.frame.columns) if data.frame is not None else (
@@ -98,7 +98,7 @@ def _resolve_groups(data: ResidualData, groups):
         if data.frame is None or groups not in data.frame.columns:
             raise ValueError(f"'groups': column {groups!r} not found (columns: "
                              f"{list(data.frame.columns) if data.frame is not None else []})")
-        return data.frame[groups].to_numpy()
+        return frame_column(data.frame, groups, "groups").to_numpy()
     arr = np.asarray(groups)
     if arr.shape != (data.n,):
         raise ValueError(f"'groups' must have one label per row ({data.n}) (got shape {arr.shape})")

@@ -21,6 +21,7 @@ from . import display as views
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from .display import SNAPSHOT_CLASS, _message, error_box, snapshot_bundle, widget_bundle
 from .stats._arrays import check_int
+from .stats._caught import caught_warnings
 
 __all__ = ["DiagnosisPanel", "ALPHAS", "ALTERNATIVES", "BANDS", "TEST_ORDER"]
 
@@ -304,12 +305,15 @@ class DiagnosisPanel:
         entry = self._entry(key)
         markups = entry[1]
         if fmt not in markups:
-            fig = entry[0] if entry[0] is not None else self._draw_figure(make, entry)
-            if fmt == "png":
-                uri = export.figure_to_png_data_uri(fig, dpi=SNAPSHOT_DPI)
-                markups[fmt] = f'<img src="{uri}" alt="{_esc(title)}">'
-            else:
-                markups[fmt] = export.figure_to_svg(fig, title=title)
+            with caught_warnings() as caught:  # e.g. matplotlib on a missing glyph: said in the caption
+                fig = entry[0] if entry[0] is not None else self._draw_figure(make, entry)
+                if fmt == "png":
+                    uri = export.figure_to_png_data_uri(fig, dpi=SNAPSHOT_DPI)
+                    markups[fmt] = f'<img src="{uri}" alt="{_esc(title)}">'
+                else:
+                    markups[fmt] = export.figure_to_svg(fig, title=title)
+            extra = [f"({n})" for n in caught.notes() if f"({n})" not in entry[2]]
+            entry[2] = " ".join([entry[2], *extra]).strip()
         if diag is None:
             old = self._shown_keys.get(name)
             if old != key and old in self._cache:

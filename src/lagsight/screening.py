@@ -21,9 +21,18 @@ import pandas as pd
 from statsmodels.stats.multitest import multipletests
 
 from .battery_run import BG, DW, LB, BatterySettings, ljung_box_lag, run_battery, strength
-from .inputs import ResidualData, as_residual_data
+from .inputs import ResidualData, as_residual_data, frame_column, unlabelled, unlabelled_note
 from .order import check_order, infer_bg_order, infer_seasonal_period
-from .stats._arrays import check_alpha, check_alternative, check_flag, check_optional_int, check_order_arg
+from .stats._arrays import (
+    check_alpha,
+    check_alternative,
+    check_flag,
+    check_label,
+    check_labels,
+    check_optional_int,
+    check_order_arg,
+)
+from .stats._caught import caught_warnings
 from .verdict import write_verdict
 
 __all__ = ["ScreenResult", "screen"]
@@ -103,9 +112,11 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
     )
     settings = BatterySettings(alpha=alpha, alternative=alternative, bg_max_lag=item["bg_max_lag"],
                                lb_lag=item["lb_lag"], period=None, correlogram=False)
-    run = run_battery(data, settings)
-    verdict = write_verdict(run.tests, run.plan, alpha=alpha, alternative=alternative, errors=run.errors,
-                            shuffled=item["shuffled"], lagged_response=run.lagged_response)
+    with caught_warnings() as caught:
+        run = run_battery(data, settings)
+        verdict = write_verdict(run.tests, run.plan, alpha=alpha, alternative=alternative, errors=run.errors,
+                                shuffled=item["shuffled"], lagged_response=run.lagged_response)
+    warned = [f"{name}: {note}" for name, notes in run.warned.items() for note in notes] + list(caught.notes())
     dw, bg, lb = (run.tests.get(name) for name in (DW, BG, LB))
     k = dw.rank if dw is not None and dw.rank is not None else (None if data.exog is None else data.exog.shape[1])
     return {
@@ -117,6 +128,7 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
         "finding": _finding_words(verdict),
         "dw_method": "" if dw is None else dw.method,
         "not_run": "; ".join(f"{name}: {why}" for name, why in run.errors.items()),
+        "warned": " ".join(warned),
     }
 
 
@@ -166,11 +178,12 @@ def _plain(data: ResidualData, report, pos: int) -> dict:
 
 def _prepare(pos: int, kwargs: dict, order) -> tuple[dict, dict]:
     """Convert one model in this process: (item for a worker, columns kept here)."""
-    data = as_residual_data(**kwargs)
-    report = check_order(data, order=order)
-    data = report.apply(data)
-    item = _plain(data, report, pos)
-    meta = {"order": report.order_used, "notes": " ".join(data.notes + tuple(report.warnings)),
+    with caught_warnings() as caught:
+        data = as_residual_data(**kwargs)
+        report = check_order(data, order=order)
+        data = report.apply(data)
+        item = _plain(data, report, pos)
+    meta = {"order": report.order_used, "notes": " ".join(data.notes + tuple(report.warnings) + caught.notes()),
             "shuffled": item["shuffled"]}
     return item, meta
 
@@ -201,23 +214,21 @@ def _specs(models, exog, response, predictors, groups, order):
                             f"{type(exog).__name__}); the design is built from 'predictors'")
         if order not in ("auto", "keep", "index") and order not in columns:
             raise ValueError(f"'order': column {order!r} is not in the DataFrame (columns: {columns})")
-        preds = [predictors] if isinstance(predictors, str) else list(predictors)
+        response = check_label(response, "response")
+        preds = check_labels(predictors, "predictors")
         for arg, col in [("response", response)] + [("predictors", c) for c in preds]:
-            if col not in columns:
-                raise ValueError(f"'{arg}': column {col!r} is not in the DataFrame (columns: {columns})")
+            frame_column(models, col, arg)  # present and named once
         if isinstance(groups, str):
-            if groups not in columns:
-                raise ValueError(f"'groups': column {groups!r} is not in the DataFrame (columns: {columns})")
-            labels = models[groups].to_numpy()
+            labels = frame_column(models, groups, "groups").to_numpy()
         else:
             labels = np.asarray(groups)
             if labels.shape != (len(models),):
                 raise ValueError(f"'groups' must be a column name or have one label per row ({len(models)}) "
                                  f"(got shape {labels.shape})")
-        labels = pd.Series(labels)
-        missing = int(labels.isna().sum())
+        missing = int(unlabelled(labels).sum())
         if missing:
-            notes.append(f"{missing} row(s) without a group label were left out.")
+            notes.append(unlabelled_note(missing))
+        labels = pd.Series(labels)
         blocks = labels.groupby(labels, sort=False, dropna=True).indices
         names = list(blocks)
         return names, notes, lambda i: {"model": models.iloc[blocks[names[i]]], "response": response,
@@ -367,8 +378,12 @@ def _submit(executor, chunk, alpha, alternative) -> cf.Future:
 def _assemble(names, rows, metas, failed_at, notes, alpha, alternative) -> ScreenResult:
     records = []
     for pos, name in enumerate(names):
-        outcome = {"status": f"failed: {failed_at[pos]}"} if pos in failed_at else rows[pos]
-        records.append({"model": name, "status": "ok", **metas[pos], **outcome})
+        outcome = {"status": f"failed: {failed_at[pos]}"} if pos in failed_at else dict(rows[pos])
+        warned = outcome.pop("warned", "")
+        record = {"model": name, "status": "ok", **metas[pos], **outcome}
+        if warned:  # library warnings raised while testing this model
+            record["notes"] = " ".join(filter(None, [record.get("notes", ""), warned]))
+        records.append(record)
     table = pd.DataFrame.from_records(records, columns=[c for c in COLUMNS if c not in ("dw_p_adjusted", "strength")])
     table = table.astype({"dw": float, "dw_pvalue": float, "bg_pvalue": float, "lb_pvalue": float,
                           "n": "Int64", "rank": "Int64"})

@@ -318,7 +318,7 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
         )
     if groups is not None and not math.isnan(groups.pooled_dw):
         details.append(
-            f"Across {groups.n_groups} groups the pooled within-group d is {groups.pooled_dw:.3f}"
+            f"Across the {groups.n_tested} groups tested the pooled within-group d is {groups.pooled_dw:.3f}"
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )

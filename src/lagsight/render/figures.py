@@ -16,6 +16,7 @@ from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ..order import _time_axis
+from ..stats._arrays import scaled
 from ..stats.correlogram import Correlogram, lag_pairs
 from ..stats.power import TARGET_POWER
 from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
@@ -166,9 +167,11 @@ def lag_scatter_figure(resid, *, lag: int, max_points: int = MAX_POINTS, width: 
             pts.set_rasterized(True)
         ax.axhline(0, color=PALETTE["rule"], lw=0.8, zorder=1)
         ax.axvline(0, color=PALETTE["rule"], lw=0.8, zorder=1)
-        if not math.isnan(r) and np.std(pairs.lagged) > 0:
-            slope = r * np.std(pairs.current) / np.std(pairs.lagged)
-            mx, my = float(np.mean(pairs.lagged)), float(np.mean(pairs.current))
+        lagged, top_l = scaled(pairs.lagged)  # unit scale: the spreads stay finite near 1e200
+        current, top_c = scaled(pairs.current)
+        if not math.isnan(r) and np.std(lagged) > 0:
+            slope = r * (np.std(current) / np.std(lagged)) * (top_c / top_l)
+            mx, my = float(np.mean(lagged)) * top_l, float(np.mean(current)) * top_c
             xs = np.array([np.min(pairs.lagged), np.max(pairs.lagged)])
             (fit,) = ax.plot(xs, my + slope * (xs - mx), color=PALETTE["orange"], lw=1.5, zorder=3)
             fit.set_gid("lgs-lag-fit")
@@ -366,9 +369,17 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
                         Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], label="no evidence")]
         fig.legend(handles=handles, loc="lower center", ncol=len(handles), fontsize=7.5,
                    bbox_to_anchor=(0.5, 0.0), frameon=False)
-        fig.text(0.02, 1 - 0.22 / height, f"Durbin-Watson d by group ({summary.n_groups} groups)", fontsize=10,
+        fig.text(0.02, 1 - 0.22 / height, f"Durbin-Watson d by group ({_groups_count(summary)})", fontsize=10,
                  fontweight="bold", va="center")
     cap = ("Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
            "Benjamini-Hochberg adjustment." if few else
            f"Distribution of the per-group d over {len(table)} tested groups.")
     return _finish(fig, cap)
+
+
+def _groups_count(summary) -> str:
+    """'2 groups', or '2 of 3 groups tested' when some were skipped (the table lists them)."""
+    if summary.n_tested == summary.n_groups:
+        return f"{summary.n_groups} groups"
+    return f"{summary.n_tested} of {summary.n_groups} groups tested"
+

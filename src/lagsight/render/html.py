@@ -20,6 +20,7 @@ import numpy as np
 from ..battery_run import DW
 from ..diagnosis import Diagnosis
 from ..stats._arrays import check_optional_int
+from ..stats._caught import caught_warnings
 from . import figures as F
 from .style import CSS
 from .text import (TEST_COLUMNS, TEST_GUIDE, diagnosis_text, format_number, format_pvalue, key_figures,
@@ -76,6 +77,7 @@ class View:
     next_steps: tuple = ()
     cautions: tuple = ()
     notes: tuple = ()
+    test_notes: tuple = ()
     text: str = ""
     options: dict = field(default_factory=dict)
 
@@ -89,11 +91,14 @@ def _markup(fig, title: str, figures: str) -> str:
 
 
 def _figure(key: str, title: str, build, figures: str) -> FigureView:
-    try:
-        fig = build()
-    except Exception as err:  # a figure that fails must not take the report down with it
-        return FigureView(key, title, "", "", f"{title} could not be drawn: {str(err).splitlines()[0]}")
-    return FigureView(key, title, _markup(fig, title, figures), getattr(fig, "lagsight_caption", ""))
+    with caught_warnings() as caught:  # e.g. matplotlib on a glyph its font lacks: said in the caption
+        try:
+            fig = build()
+            markup = _markup(fig, title, figures)
+        except Exception as err:  # a figure that fails must not take the report down with it
+            return FigureView(key, title, "", "", f"{title} could not be drawn: {str(err).splitlines()[0]}")
+    caption = " ".join([getattr(fig, "lagsight_caption", ""), *(f"({n})" for n in caught.notes())]).strip()
+    return FigureView(key, title, markup, caption)
 
 
 def _check_options(diag, max_lag, band, lag, test, figures) -> None:
@@ -212,7 +217,8 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
         remedies=remedies_table(diag.remedies, caveat) if diag.remedies is not None else None,
         groups=groups_table(diag.groups) if diag.groups is not None else None,
         details=tuple(v.details), next_steps=tuple(v.next_steps), cautions=tuple(v.cautions),
-        notes=tuple(n for n in notes if n not in diag.order.warnings), text=diagnosis_text(diag),
+        notes=tuple(n for n in notes if n not in diag.order.warnings), test_notes=diag.test_notes,
+        text=diagnosis_text(diag),
         options={"max_lag": max_lag, "band": band, "lag": lag, "test": test, "figures": figures},
     )
 
@@ -300,6 +306,8 @@ def render_html(view: View) -> str:
         more.append("<b>Findings</b>" + _list(view.details))
     if view.notes:
         more.append("<b>Notes</b>" + _list(view.notes))
+    if view.test_notes:
+        more.append("<b>Notes on the tests</b>" + _list(view.test_notes))
     if view.cautions:
         more.append("<b>Cautions</b>" + _list(view.cautions))
     if more:

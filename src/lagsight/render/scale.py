@@ -22,7 +22,7 @@ from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
 from .density import density_grid, exact_point, grid_entry
 from .style import FIG_WIDTH, PALETTE, REGION_STYLE, figure_rc
 from ..verdict import log10_p
-from .text import format_pvalue, order_caveat
+from .text import K_PRIME_ASSUMED, format_pvalue, order_caveat
 
 __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
 
@@ -274,7 +274,7 @@ def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
     parts = [f"n = {diag.n:,}"]
     if b is not None:
         assumed = bool(getattr(res, "k_prime_assumed", False))
-        parts.append(f"k\u2032 = {b.k_prime}" + (" (assumed)" if assumed else ""))
+        parts.append(f"k\u2032 = {b.k_prime}" + (f" ({K_PRIME_ASSUMED})" if assumed else ""))
         parts.append(f"bounds at \u03b1 = {alpha:g}: dL = {b.lower:.3f}, dU = {b.upper:.3f}")
     else:
         parts.append(f"\u03b1 = {alpha:g}")

@@ -15,7 +15,8 @@ from ..verdict import log10_p, tiny_p_text
 
 __all__ = [
     "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
-    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime", "k_prime_assumed", "power_text",
+    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime",
+    "k_prime_assumed", "k_prime_text", "K_PRIME_ASSUMED", "power_text",
 ]
 
 #: one line on how to read each test
@@ -132,6 +133,18 @@ def k_prime_assumed(diag) -> bool:
     return bool(getattr(diag.tests.get(DW), "k_prime_assumed", False))
 
 
+#: how an assumed k' is shown, wherever k' is shown
+K_PRIME_ASSUMED = "assumed: no design given"
+
+
+def k_prime_text(diag) -> str | None:
+    """k' for display: '3', or '1 (assumed: no design given)'; None when unknown."""
+    kp = k_prime(diag)
+    if kp is None:
+        return None
+    return f"{kp} ({K_PRIME_ASSUMED})" if k_prime_assumed(diag) else str(kp)
+
+
 def primary_test(diag) -> str | None:
     """The test the verdict leads with (``diag.verdict.leading``), or the first test run."""
     lead = diag.verdict.leading
@@ -165,9 +178,9 @@ def key_figures(diag) -> list[tuple[str, str]]:
     if v.rule and v.finding != "cannot judge":
         out.append(("rule", v.rule))
     out.append(("n", f"{diag.n:,}"))
-    kp = k_prime(diag)
+    kp = k_prime_text(diag)
     if kp is not None:
-        out.append(("k'", f"{kp} (assumed: no design given)" if k_prime_assumed(diag) else str(kp)))
+        out.append(("k'", kp))
     out.append(("alpha", f"{diag.alpha:g}"))
     out.append(("alternative", str(diag.alternative)))
     out.append(("order", str(diag.order.order_used)))
@@ -238,10 +251,9 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     exact, method = _method_phrase(str(res.method))
     sizes = [f"{it('n')} = {diag.n:,}"]
     if name in (DW, SEASONAL):
-        kp = k_prime(diag)
+        kp = k_prime_text(diag)
         if kp is not None:
-            sizes.append((f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
-                         + (" (assumed)" if k_prime_assumed(diag) else ""))
+            sizes.append(f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
         if name == SEASONAL:
             sizes.append(f"lag {getattr(res, 'lag', '')}")
         value = _dw_value(res.statistic)

@@ -70,7 +70,8 @@ def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np
         raise ValueError(
             f"'{name}' must be finite (got {arr[row, col]} at row {row}, column {col})"
         )
-    rank = np.linalg.matrix_rank(arr) if full_rank else arr.shape[1]
+    # the rank of columns of comparable size: a constant beside a regressor near 1e200 is not 'dependent'
+    rank = np.linalg.matrix_rank(unit_columns(arr)) if full_rank else arr.shape[1]
     if rank < arr.shape[1]:
         raise ValueError(
             f"'{name}' must have full column rank {arr.shape[1]} (got rank {rank})"
@@ -285,3 +286,36 @@ class ArrayResult(TestResult):
             lines.append(f"  {key:<12} {text}")
         lines.extend(f"  note: {note}" for note in self.notes)
         return "\n".join(lines)
+
+
+def check_label(value, name: str):
+    """Return one column label: ``value`` itself, or the single item of a one-item list or tuple."""
+    if isinstance(value, (list, tuple)):
+        if len(value) != 1:
+            raise ValueError(f"'{name}' must be one column name (got a {type(value).__name__} of "
+                             f"{len(value)}: {_describe(value)})")
+        value = value[0]
+    try:
+        hash(value)
+    except TypeError:
+        raise TypeError(f"'{name}' must be a column name (got {type(value).__name__})") from None
+    if value is None or isinstance(value, (float, np.floating)) and value != value:
+        raise ValueError(f"'{name}' must be a column name (got {value!r})")
+    return value
+
+
+def check_labels(value, name: str) -> list:
+    """Return a list of column labels from one label or a list/tuple of them, each named once."""
+    many = hasattr(value, "__iter__") and not isinstance(value, (str, bytes))
+    items = list(value) if many else [value]
+    labels = []
+    for item in items:
+        try:
+            hash(item)
+        except TypeError:
+            raise TypeError(f"'{name}' must be a column name or a list of column names (got an item of "
+                            f"type {type(item).__name__})") from None
+        if item in labels:
+            raise ValueError(f"'{name}' names column {item!r} more than once (got {_describe(value)})")
+        labels.append(item)
+    return labels

@@ -48,6 +48,13 @@ def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndar
     return X, top
 
 
+def _check_varies(e: np.ndarray) -> None:
+    """A ValueError for residuals without variation: their correlations are 0/0."""
+    if not np.any(e - e.mean()):
+        raise ValueError(f"'resid' must vary (got {e.shape[0]} equal values): the autocorrelations of a "
+                         "constant are undefined")
+
+
 # --------------------------------------------------------------------------- BG
 @dataclass(frozen=True)
 class BreuschGodfreyResult(TestResult):
@@ -71,11 +78,13 @@ def _bg_by_qr(e, aux, order):
     diag = np.abs(np.diag(R))
     if diag.min() <= 1e-10 * diag.max():
         return None
-    rss = float(e @ e - coef @ coef)
+    rss = max(float(e @ e - coef @ coef), 0.0)
     dev = e - e.mean()
     lm = float(n * (1.0 - rss / float(dev @ dev)))
     df_denom = float(n - k_aux)
     gain = float(coef[k_aux - order:] @ coef[k_aux - order:])
+    if rss <= 1e-13 * float(e @ e):  # the lags and the design explain the residuals exactly
+        return lm, math.inf, 0.0, df_denom
     f_stat = (gain / order) / (rss / df_denom)
     return lm, float(f_stat), float(stats.f.sf(f_stat, order, df_denom)), df_denom
 
@@ -89,6 +98,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     LM = n R^2 ~ chi2(max_lag); F = joint test of the lag coefficients.
     """
     e, _ = _unit(as_vector(resid, "resid", min_len=3))
+    _check_varies(e)
     n = e.shape[0]
     order = check_int(max_lag, "max_lag", minimum=1)
     X, _ = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
@@ -163,6 +173,7 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
         chi-square has lags - model_df df, and lags with df <= 0 get NaN p-values.
     """
     e, _ = _unit(as_vector(resid, "resid", min_len=3))
+    _check_varies(e)
     n = e.shape[0]
     model_df = check_int(model_df, "model_df", minimum=0)
     if np.ndim(max_lag) == 0:

@@ -14,7 +14,7 @@ from scipy import stats
 from statsmodels.tsa.stattools import acf as _sm_acf
 from statsmodels.tsa.stattools import pacf as _sm_pacf
 
-from ._arrays import as_vector, check_alpha, check_int, readonly
+from ._arrays import as_vector, check_alpha, check_int, readonly, unit_scale
 
 __all__ = ["Correlogram", "LagPairs", "correlogram", "lag_pairs", "PACF_METHOD", "FFT_MIN_N"]
 
@@ -152,5 +152,5 @@ def lag_pairs(resid, *, lag: int) -> LagPairs:
     if np.ptp(lagged) == 0 or np.ptp(current) == 0:
         corr = float("nan")
     else:
-        corr = float(np.corrcoef(lagged, current)[0, 1])
+        corr = float(np.corrcoef(unit_scale(lagged), unit_scale(current))[0, 1])  # scale-free; no overflow
     return LagPairs(lag=h, lagged=readonly(lagged), current=readonly(current), correlation=corr)

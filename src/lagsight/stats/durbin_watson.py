@@ -110,7 +110,9 @@ def _orthonormal_basis(X: np.ndarray):
                 # second pass restores orthogonality to rounding
                 L2 = np.linalg.cholesky(Qt @ Qt.T)
                 return np.linalg.inv(L2) @ Qt, k
-    Q, R = np.linalg.qr(X, mode="reduced")
+    # columns of comparable size: the rank decided below is the column space's, not the units' (a
+    # constant of 1 beside a regressor near 1e200 is not negligible); the basis is the same
+    Q, R = np.linalg.qr(unit_columns(X), mode="reduced")
     U, s, _ = np.linalg.svd(R)
     tol = s[0] * max(X.shape) * np.finfo(float).eps if s.size and s[0] > 0 else 0.0
     rank = int(np.count_nonzero(s > tol))

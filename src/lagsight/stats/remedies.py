@@ -343,12 +343,17 @@ def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule:
     y, X = _xy(endog, exog)
     labels = check_names(names, X.shape[1])
     # data of extreme magnitude (1e200, 1e-200) is fitted on unit scale: one factor for the
-    # response and one for the whole design keep every estimator's choices (the HAC lag rule
-    # included) as they are, and coefficients and standard errors scale back by s_y / s_X
-    s_y, s_x = float(np.max(np.abs(y))), float(np.max(np.abs(X)))
-    rescale = all(v > 0 for v in (s_y, s_x)) and not all(1e-100 < v < 1e100 for v in (s_y, s_x))
+    # response and one for all the non-constant columns keep every estimator's choices (the HAC
+    # lag rule, which gives constant columns no weight, included) as they are; each constant column
+    # is divided by its own value, so a constant of 1 beside regressors near 1e200 does not vanish.
+    # Coefficients and standard errors scale back by s_y / (the column's factor).
+    const = constant_columns(X)
+    s_y = float(np.max(np.abs(y)))
+    s_x = float(np.max(np.abs(X[:, ~const]))) if (~const).any() else 1.0
+    col_factor = np.where(const, np.abs(X[0]), s_x)
+    rescale = s_y > 0 and s_x > 0 and not all(1e-100 < v < 1e100 for v in (s_y, *col_factor))
     if rescale:
-        y, X = y / s_y, X / s_x
+        y, X = y / s_y, X / col_factor
     ols = OLS(y, X).fit()
     hac = newey_west(y, X, lag_rule=lag_rule, names=labels)
     extra = []
@@ -365,7 +370,7 @@ def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule:
     }, index=pd.Index(list(labels), name="term"))
     if rescale:
         for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls"):
-            t[col] = t[col] * (s_y / s_x)
+            t[col] = t[col].to_numpy() * (s_y / col_factor)
     t = _flag_changes(t, alpha)
     notes = (*extra, f"HAC: {hac.method}.", f"FGLS: {gls.method}.", *gls.notes)
     return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.max_lag, lag_rule=lag_rule,

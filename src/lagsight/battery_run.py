@@ -18,7 +18,7 @@ from .order import infer_bg_order
 from .stats import battery, runs
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
-from .stats._arrays import scaled, unit_columns, unit_scale
+from .stats._arrays import scaled, unit_scale
 from .stats.results import TestResult
 
 __all__ = ["SEASONAL_GIVEN", "BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
@@ -202,10 +202,11 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
                           lagged_response=lagged_name, period=period, bg_max_lag=bg_max_lag,
                           notes=(f"No test was run: {plan.problem}.",), plan=plan)
 
-    # every statistic is scale-free: residuals and design columns of unit size keep sums of squares finite
+    # every statistic is scale-free: residuals of unit size keep sums of squares finite; the tests
+    # bring the design's columns to unit size a block of rows at a time (no copy of the design)
     raw = e
     e = unit_scale(e)
-    exog = None if data.exog is None else unit_columns(data.exog)
+    exog = data.exog
 
     # Durbin-Watson, exact when the design is known
     dist = None

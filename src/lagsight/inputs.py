@@ -16,7 +16,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import has_constant, unit_columns
+from .stats._arrays import has_constant
+from .stats.tall import column_tops, r_factor, solve_r
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -56,7 +57,8 @@ class ResidualData:
     number of ARMA parameters to subtract from Ljung-Box degrees of freedom;
     ``dw_applicable`` is False for ARIMA-type models; ``source`` describes the
     input; ``notes`` say what was done to it; ``fitted`` is the statsmodels
-    results object when there is one.
+    results object the input was (None when lagsight fitted the OLS of a DataFrame itself:
+    it keeps only the residuals, not a results object with its copies of the design).
     """
 
     resid: np.ndarray
@@ -284,7 +286,7 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
     fit_intercept = bool(getattr(est, "fit_intercept", False))
     if hasattr(est, "coef_") and Xv is not None and np.size(est.coef_) == Xv.shape[1]:
         names = names or tuple(f"x{j + 1}" for j in range(Xv.shape[1]))
-        exog, has_const = Xv, _detect_constant(Xv[keep])
+        exog, has_const = Xv, _detect_constant(Xv if keep.all() else Xv[keep])
         if fit_intercept and not has_const:
             exog, names, has_const = np.column_stack([np.ones(n), Xv]), ("const",) + names, True
         if name != "LinearRegression":
@@ -324,7 +326,6 @@ def _from_array(values, exog) -> tuple[ResidualData, np.ndarray | None]:
 
 
 def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> tuple[ResidualData, np.ndarray | None]:
-    import statsmodels.api as sm
     if response is None or predictors is None:
         raise TypeError("a DataFrame needs response= (the response column) and predictors= "
                         f"(a list of column names) (got response={response!r}, predictors={predictors!r})")
@@ -336,34 +337,56 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
             raise ValueError(f"'{arg}': column {col!r} must be numeric (got dtype {df[col].dtype})")
     if response in preds:
         raise ValueError(f"'predictors' must not contain the response {response!r}")
-    values = df[[response] + preds].to_numpy(dtype=float)
-    ok = np.isfinite(values).all(axis=1)
-    X, names, notes = values[:, 1:], tuple(str(c) for c in preds), []
-    if (~ok).any():
+    # the design is built once, column by column (no copy of the frame as a whole), with room
+    # for the constant in front
+    n = len(df)
+    lead = 1 if add_constant else 0
+    X = np.empty((n, lead + len(preds)))
+    for j, col in enumerate(preds):
+        X[:, lead + j] = df[col].to_numpy(dtype=float)
+    y = np.array(df[response].to_numpy(dtype=float), dtype=float)
+    ok = np.isfinite(y)
+    for j in range(lead, X.shape[1]):
+        ok &= np.isfinite(X[:, j])
+    complete = bool(ok.all())
+    names, notes = tuple(str(c) for c in preds), []
+    if not complete:
         notes.append(f"{_rows(int((~ok).sum()))} with missing or infinite values in {response!r} or the "
                      "predictors were dropped before fitting; the time order has gaps there.")
-    has_const = _detect_constant(X[ok]) if X.shape[1] else False
+    P = X[:, lead:]
+    has_const = _detect_constant(P if complete else P[ok]) if P.shape[1] else False
     if add_constant and has_const:
         notes.append("'add_constant': the predictors already span a constant, so none was added.")
+        X = np.ascontiguousarray(P)
     elif add_constant:
-        X, names, has_const = np.column_stack([np.ones(len(df)), X]), ("const",) + names, True
+        X[:, 0] = 1.0
+        names, has_const = ("const",) + names, True
     if X.shape[1] == 0:
         raise ValueError("'predictors' must name at least one column when 'add_constant' is False (got [])")
     if ok.sum() <= X.shape[1]:
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
-    fit = sm.OLS(values[ok, 0], X[ok]).fit()
-    # the residuals from the same fit on unit-scaled columns: pinv's cut-off treats every column alike,
-    # and nothing overflows for data near 1e200 (OLS residuals do not depend on column scales)
-    y_ok = values[ok, 0]
-    top = float(np.max(np.abs(y_ok))) or 1.0
-    resid = np.full(len(df), np.nan)
-    resid[ok] = sm.OLS(y_ok / top, unit_columns(X[ok])).fit().resid * top
+    resid = np.full(n, np.nan)
+    resid[ok] = ols_residuals(y if complete else y[ok], X if complete else X[ok])
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
-        resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=values[:, 0],
-        endog_name=str(response), notes=tuple(notes), frame=df, fitted=fit,
+        resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=y,
+        endog_name=str(response), notes=tuple(notes), frame=df,
         source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight"), ok
+
+
+def ols_residuals(y: np.ndarray, X: np.ndarray) -> np.ndarray:
+    """Residuals of the least-squares fit of ``y`` on ``X`` (finite), fitted on unit-scaled columns:
+    the pseudo-inverse's cut-off (statsmodels' 1e-15) treats every column alike and nothing
+    overflows for data near 1e200.  Read in row blocks (:mod:`lagsight.stats.tall`); OLS residuals
+    do not depend on the columns' scales."""
+    n, k = X.shape
+    top = float(np.max(np.abs(y))) or 1.0
+    tops = column_tops(X)
+    tops = np.where(tops > 0, tops, 1.0)
+    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]))
+    beta = solve_r(R, n).params / tops
+    return (y / top - X @ beta) * top
 
 
 def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
@@ -453,7 +476,9 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
     if n < 3:
         raise ValueError(f"'model' gives {n} usable rows; at least 3 are needed")
     out = raw.replace(groups=group_arr, order_values=order_arr, order_name=order_name,
-                      source=f"{raw.source}, {n} rows", notes=tuple(notes)).subset(keep)
+                      source=f"{raw.source}, {n} rows", notes=tuple(notes))
+    if n < n0:  # no copy of the rows when every row is kept
+        out = out.subset(keep)
     if out.has_constant is None and out.exog is not None:
         out = out.replace(has_constant=_detect_constant(out.exog))
     return out

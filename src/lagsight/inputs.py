@@ -16,8 +16,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import has_constant
-from .stats.tall import column_tops, r_factor, solve_r
+from .stats._arrays import finite_rows, has_constant
+from .stats.tall import column_tops, gram_of, map_blocks, r_factor, solve_r
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -272,7 +272,7 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
         Xv, names, _ = _as_2d(X, "exog")
     except ValueError:
         Xv, names = None, None  # e.g. categorical columns handled inside a pipeline
-    keep = np.isfinite(yv) & (np.isfinite(Xv).all(axis=1) if Xv is not None else True)
+    keep = np.isfinite(yv) & (finite_rows(Xv) if Xv is not None else True)
     notes = []
     if (~keep).any():
         notes.append(f"{_rows(int((~keep).sum()))} with missing or infinite values in exog or endog were dropped; "
@@ -341,13 +341,18 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
     # for the constant in front
     n = len(df)
     lead = 1 if add_constant else 0
-    X = np.empty((n, lead + len(preds)))
-    for j, col in enumerate(preds):
-        X[:, lead + j] = df[col].to_numpy(dtype=float)
+    cols = [df[col].to_numpy(dtype=float) for col in preds]  # float columns: views, no copy
     y = np.array(df[response].to_numpy(dtype=float), dtype=float)
-    ok = np.isfinite(y)
-    for j in range(lead, X.shape[1]):
-        ok &= np.isfinite(X[:, j])
+    X = np.empty((n, lead + len(preds)))
+    ok = np.empty(n, dtype=bool)
+
+    def fill(a, b):  # a block of rows stays in cache while its columns are written
+        for j, col in enumerate(cols):
+            X[a:b, lead + j] = col[a:b]
+        ok[a:b] = np.isfinite(y[a:b]) & np.isfinite(X[a:b, lead:]).all(axis=1)
+
+    map_blocks(n, fill)
+    del cols
     complete = bool(ok.all())
     names, notes = tuple(str(c) for c in preds), []
     if not complete:
@@ -384,7 +389,10 @@ def ols_residuals(y: np.ndarray, X: np.ndarray) -> np.ndarray:
     top = float(np.max(np.abs(y))) or 1.0
     tops = column_tops(X)
     tops = np.where(tops > 0, tops, 1.0)
-    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]))
+    scale = np.append(tops, top)
+    with np.errstate(over="ignore", invalid="ignore"):
+        G = gram_of(X, y) / np.outer(scale, scale)   # the first pass, from products of the whole arrays
+    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]), gram=G)
     beta = solve_r(R, n).params / tops
     return (y / top - X @ beta) * top
 
@@ -467,7 +475,7 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
                      "the time order has gaps there.")
         keep &= ~bad
     if raw.exog is not None:
-        bad = keep & ~np.isfinite(raw.exog).all(axis=1)
+        bad = keep & ~finite_rows(raw.exog)
         if bad.any():
             notes.append(f"{_rows(int(bad.sum()))} with missing or infinite values in the design "
                          "were dropped; the time order has gaps there.")

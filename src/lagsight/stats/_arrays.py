@@ -15,7 +15,7 @@ import numpy as np
 
 from .results import TestResult, _fmt
 from .results import check_alternative as check_alternative  # re-exported: one place for input rules
-from .tall import column_tops, r_factor, row_blocks
+from .tall import column_tops, map_blocks, r_factor, row_blocks
 
 
 def _describe(value) -> str:
@@ -93,6 +93,17 @@ def _rank_of_r(R: np.ndarray, n: int) -> int:
 def check_rank_of_r(R: np.ndarray, n: int, name: str = "exog") -> None:
     """The full-rank check of :func:`as_design` for the n x k matrix whose R factor is ``R``."""
     _check_rank(_rank_of_r(R, n), R.shape[1], name)
+
+
+def finite_rows(X: np.ndarray) -> np.ndarray:
+    """Boolean mask of the rows of a 2-D array whose values are all finite (read in row blocks)."""
+    out = np.empty(X.shape[0], dtype=bool)
+
+    def one(a, b):
+        out[a:b] = np.isfinite(X[a:b]).all(axis=1)
+
+    map_blocks(X.shape[0], one)
+    return out
 
 
 def _first_nonfinite(arr: np.ndarray):
@@ -222,7 +233,14 @@ def _span_gap(X: np.ndarray, top: np.ndarray, v: np.ndarray) -> float:
     beyond the input.
     """
     n, k = X.shape
-    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / top, v[a:b]]))
+    # the first pass's Gram matrix from products of the whole arrays (v is the ones vector or not)
+    with np.errstate(over="ignore", invalid="ignore"):
+        cross = X.sum(axis=0) if np.all(v == 1.0) else X.T @ v
+        G = np.empty((k + 1, k + 1))
+        G[:k, :k] = (X.T @ X) / np.outer(top, top)
+        G[:k, k] = G[k, :k] = cross / top
+        G[k, k] = float(v @ v) if not np.all(v == 1.0) else float(n)
+    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / top, v[a:b]]), gram=G)
     norm_v = float(np.linalg.norm(v))
     return abs(float(R[-1, -1])) / norm_v if norm_v > 0 else 0.0
 
@@ -243,7 +261,7 @@ def has_constant(exog) -> bool:
     if X.ndim != 2 or X.shape[1] == 0 or X.shape[0] == 0:
         return False
     if _first_nonfinite(X) is not None:
-        X = X[np.isfinite(X).all(axis=1)]
+        X = X[finite_rows(X)]
         if X.shape[0] == 0:
             return False
     if constant_columns(X).any():

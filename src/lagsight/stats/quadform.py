@@ -29,7 +29,7 @@ import math
 import numpy as np
 from scipy import fft
 
-from .tall import one_blas_thread
+from .tall import map_blocks
 
 __all__ = ["SpectralForm"]
 
@@ -78,13 +78,13 @@ class _ChebMoments:
 
     ``Wt`` is W transposed (k x N, rows contiguous).  Only the upper triangle
     of each k x k moment is accumulated.  Raising the degree computes only the
-    new moments (the recursion for T_m is rerun, the products are not redone),
-    one BLAS thread at a time: these thin products spend more time synchronising
-    threads than computing (see :func:`lagsight.stats.tall.one_blas_thread`).
+    new moments (the recursion for T_m is rerun, the products are not redone).
+    Column blocks run side by side, each with one BLAS thread
+    (:func:`lagsight.stats.tall.map_blocks`).
     """
 
     _COLS = 8192
-    _MIN_DEGREE = 8
+    _MIN_DEGREE = 16
 
     def __init__(self, x: np.ndarray, Wt: np.ndarray | None):
         self.x = x
@@ -110,28 +110,32 @@ class _ChebMoments:
         half = np.zeros((iu[0].size, degree + 1)) if k else None
         if k and old >= 0:
             half[:, : old + 1] = self._half
-        cols = min(self._COLS, self.x.size)
-        T = np.empty((degree + 1, cols))
-        P = np.empty((iu[0].size, cols))
-        with one_blas_thread():
-            for start in range(0, self.x.size, cols):
-                xb = self.x[start : start + cols]
-                b = xb.size
-                Tb = T[:, :b]
-                Tb[0] = 1.0
-                Tb[1] = xb
-                for j in range(2, degree + 1):
-                    np.multiply(xb, Tb[j - 1], out=Tb[j])
-                    Tb[j] *= 2.0
-                    Tb[j] -= Tb[j - 2]
-                mu[new] += Tb[new].sum(axis=1)
-                if k:
-                    Wb = self.Wt[:, start : start + b]
-                    row = 0
-                    for a in range(k):
-                        np.multiply(Wb[a], Wb[a:], out=P[row : row + k - a, :b])
-                        row += k - a
-                    half[:, new] += P[:, :b] @ Tb[new].T
+
+        def one(start, stop):
+            xb = self.x[start:stop]
+            b = xb.size
+            T = np.empty((degree + 1, b))
+            T[0] = 1.0
+            T[1] = xb
+            for j in range(2, degree + 1):
+                np.multiply(xb, T[j - 1], out=T[j])
+                T[j] *= 2.0
+                T[j] -= T[j - 2]
+            part = T[new].sum(axis=1)
+            if not k:
+                return part, None
+            Wb = self.Wt[:, start:stop]
+            P = np.empty((iu[0].size, b))
+            row = 0
+            for a in range(k):
+                np.multiply(Wb[a], Wb[a:], out=P[row : row + k - a])
+                row += k - a
+            return part, P @ T[new].T
+
+        for part, h in map_blocks(self.x.size, one, rows=self._COLS):
+            mu[new] += part
+            if k:
+                half[:, new] += h
         self.mu = mu
         if k:
             self._half = half

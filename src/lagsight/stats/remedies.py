@@ -21,8 +21,8 @@ from scipy import stats
 
 from ._arrays import (as_design, as_vector, check_alpha, check_choice, check_int,
                       check_names, check_rank_of_r, constant_columns, readonly)
-from .tall import (LagProducts, Solution, column_tops, gram_of, one_blas_thread, r_factor,
-                   row_blocks, solve_r, stacked)
+from .tall import (LagProducts, Solution, column_tops, gram_of, map_blocks, r_factor, row_blocks,
+                   solve_r, stacked)
 
 __all__ = [
     "HacLag", "NeweyWestResult", "FGLSResult", "RhoOutOfRangeError", "InferenceComparison",
@@ -91,15 +91,17 @@ def hac_lag(n: int, *, lag_rule: str = "newey-west-1994", resid=None, exog=None)
 def _lagged_sums(n: int, values, m: int) -> np.ndarray:
     """[sum_{t >= j} h_t h_{t-j} for j = 0..m], with h read a block of rows at a time by
     ``values(a, b)`` (rows a..b-1), so no n-vector is formed."""
-    out = np.zeros(m + 1)
-    for a, b in row_blocks(n):
+    def one(a, b):
         lo = max(a - m, 0)
         H = values(lo, b)
+        out = np.zeros(m + 1)
         for j in range(m + 1):
             t0 = max(a, j)
             if t0 < b:
-                out[j] += float(H[t0 - lo : b - lo] @ H[t0 - j - lo : b - j - lo])
-    return out
+                out[j] = float(H[t0 - lo : b - lo] @ H[t0 - j - lo : b - j - lo])
+        return out
+
+    return sum(map_blocks(n, one), np.zeros(m + 1))
 
 
 def _plugin_lag(n: int, resid, X: np.ndarray | None) -> HacLag:
@@ -117,8 +119,7 @@ def _plugin_lag(n: int, resid, X: np.ndarray | None) -> HacLag:
         values = lambda a, b: resid(a, b) * (X[a:b] @ w)  # noqa: E731
         notes.append("Weights: 1 on each non-constant regressor, 0 on the constant.")
     m = min(pilot, n - 1)
-    with one_blas_thread():
-        sig = _lagged_sums(n, values, m) / n
+    sig = _lagged_sums(n, values, m) / n
     s0 = sig[0] + 2.0 * sig[1:].sum()
     s1 = 2.0 * np.dot(np.arange(1, m + 1), sig[1:])
     if not s0 > 0:
@@ -226,18 +227,17 @@ def _hac_middle(X: np.ndarray, resid, lag: int) -> np.ndarray:
     """
     n, k = X.shape
     width = lag + 1
-    S = np.zeros((k, k))
-    step = max(4 * width, 1 << 15)
-    with one_blas_thread():
-        for m0 in range(-lag, n, step):       # windows [m, m + lag] for m = m0 .. m1 - 1
-            m1 = min(n, m0 + step)
-            r0, r1 = max(m0, 0), min(m1 + lag, n)
-            c = np.zeros((r1 - r0 + 1, k))
-            np.cumsum(X[r0:r1] * resid(r0, r1)[:, None], axis=0, out=c[1:])
-            m = np.arange(m0, m1)
-            s = c[np.minimum(m + width, n) - r0] - c[np.maximum(m, 0) - r0]
-            S += s.T @ s
-    return S / width
+
+    def one(a, b):            # windows [m, m + lag] for m = a - lag .. b - lag - 1
+        m0, m1 = a - lag, b - lag
+        r0, r1 = max(m0, 0), min(m1 + lag, n)
+        c = np.zeros((r1 - r0 + 1, k))
+        np.cumsum(X[r0:r1] * resid(r0, r1)[:, None], axis=0, out=c[1:])
+        m = np.arange(m0, m1)
+        s = c[np.minimum(m + width, n) - r0] - c[np.maximum(m, 0) - r0]
+        return s.T @ s
+
+    return sum(map_blocks(n + lag, one, rows=max(4 * width, 1 << 15)), np.zeros((k, k))) / width
 
 
 def newey_west(endog, exog, *, max_lag: int | None = None, lag_rule: str = "newey-west-1994",

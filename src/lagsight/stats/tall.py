@@ -19,13 +19,15 @@ OLS does (pseudo-inverse through the singular values, cut off at 1e-15 of the la
 from __future__ import annotations
 
 import contextlib
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
 
 __all__ = ["ROWS", "GRAM_COND_LIMIT", "row_blocks", "column_tops", "r_factor", "solve_r", "Solution",
-           "stacked", "one_blas_thread", "orthonormal_basis_t", "gram_of", "LagProducts"]
+           "stacked", "one_blas_thread", "orthonormal_basis_t", "gram_of", "LagProducts", "map_blocks"]
 
 #: rows per block: 32768 x 12 doubles is 3 MB
 ROWS = 1 << 15
@@ -60,12 +62,39 @@ def row_blocks(n: int, rows: int = ROWS):
         yield a, min(n, a + rows)
 
 
+#: below this many rows the blocks run in the calling thread
+POOL_MIN_ROWS = 1 << 18
+
+
+def _cores() -> int:
+    try:
+        return len(os.sched_getaffinity(0))
+    except AttributeError:  # pragma: no cover - not on Linux
+        return os.cpu_count() or 1
+
+
+def map_blocks(n: int, fn, rows: int = ROWS) -> list:
+    """[fn(a, b) for every row block (a, b) of 0..n-1], in order, with BLAS on one thread.
+
+    Long series share the blocks among one thread per core: numpy's loops and BLAS release the
+    interpreter lock, so the blocks run side by side.  ``fn`` must only read shared arrays, or
+    write to rows of its own block.
+    """
+    spans = list(row_blocks(n, rows))
+    workers = min(len(spans), _cores())
+    with one_blas_thread():
+        if workers <= 1 or n < POOL_MIN_ROWS:
+            return [fn(a, b) for a, b in spans]
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            return list(pool.map(lambda ab: fn(*ab), spans))
+
+
 def column_tops(X: np.ndarray) -> np.ndarray:
     """max_i |X[i, j]| for each column j, read in row blocks (no n x k temporary)."""
     X = np.asarray(X)
     top = np.zeros(X.shape[1:], dtype=float)
-    for a, b in row_blocks(X.shape[0]):
-        np.maximum(top, np.max(np.abs(X[a:b]), axis=0), out=top)
+    for m in map_blocks(X.shape[0], lambda a, b: np.max(np.abs(X[a:b]), axis=0)):
+        np.maximum(top, m, out=top)
     return top
 
 
@@ -102,14 +131,13 @@ def gram_of(*parts) -> np.ndarray:
 
 def _gram(n, ncols, block, T=None):
     """sum over blocks of B'B, with B = block(a, b) @ T when T is given."""
-    G = np.zeros((ncols, ncols))
-    with one_blas_thread():
-        for a, b in row_blocks(n):
-            B = block(a, b)
-            if T is not None:
-                B = B @ T
-            G += B.T @ B
-    return G
+    def one(a, b):
+        B = block(a, b)
+        if T is not None:
+            B = B @ T
+        return B.T @ B
+
+    return sum(map_blocks(n, one), np.zeros((ncols, ncols)))
 
 
 @dataclass(frozen=True, eq=False)
@@ -127,21 +155,20 @@ class LagProducts:
 def _second_pass(n, ncols, block, T, lags: bool):
     """The Gram matrix of the rows of block @ T and, with ``lags``, their lag-1 products and the
     first and last rows (one pass)."""
-    G = np.zeros((ncols, ncols))
-    C = np.zeros((ncols, ncols)) if lags else None
-    first = prev = None
-    with one_blas_thread():
-        for a, b in row_blocks(n):
-            Y = block(a, b) @ T
-            G += Y.T @ Y
-            if lags:
-                C += Y[1:].T @ Y[:-1]
-                if prev is None:
-                    first = Y[0].copy()
-                else:
-                    C += np.outer(Y[0], prev)
-                prev = Y[-1].copy()
-    return G, (C, first, prev)
+    def one(a, b):
+        Y = block(a, b) @ T
+        return Y.T @ Y, ((Y[1:].T @ Y[:-1], Y[0].copy(), Y[-1].copy()) if lags else None)
+
+    parts = map_blocks(n, one)
+    G = sum((g for g, _ in parts), np.zeros((ncols, ncols)))
+    if not lags:
+        return G, None
+    C = np.zeros((ncols, ncols))
+    for i, (_, (Cb, head, tail)) in enumerate(parts):
+        C += Cb
+        if i:
+            C += np.outer(head, parts[i - 1][1][2])   # row a with row a - 1 of the previous block
+    return G, (C, parts[0][1][1], parts[-1][1][2])
 
 
 def _lag_products(R2: np.ndarray, G2, parts) -> LagProducts:
@@ -159,10 +186,10 @@ def _positive_diagonal(R: np.ndarray) -> np.ndarray:
 
 def _tsqr(n, ncols, block) -> np.ndarray:
     """Householder QR of [R; next block] in turn (backward stable for any matrix)."""
-    R = np.zeros((0, ncols))
+    # each block's R, then the R of those stacked (a tree of two levels)
+    Rs = map_blocks(n, lambda a, b: np.linalg.qr(block(a, b), mode="r")[:ncols])
     with one_blas_thread():
-        for a, b in row_blocks(n):
-            R = np.linalg.qr(np.vstack([R, block(a, b)]), mode="r")[:ncols]
+        R = np.linalg.qr(np.vstack(Rs), mode="r")[:ncols]
     if R.shape[0] < ncols:
         R = np.vstack([R, np.zeros((ncols - R.shape[0], ncols))])
     return _positive_diagonal(R)
@@ -303,23 +330,28 @@ def solve_r(R_full: np.ndarray, nobs: int, *, rcond: float = PINV_RCOND) -> Solu
     return Solution(params=params, cov=cov, rss=rss, rank=rank, nobs=int(nobs), singular_values=s)
 
 
-def _fill_rows(out: np.ndarray, n: int, rows_of, G: np.ndarray | None, dest) -> None:
-    """out[:, dest[a:b]] = rows_of(a, b) (k x (b - a)) for every block; G += each block's Gram."""
-    for a, b in row_blocks(n):
+def _fill_rows(out: np.ndarray, n: int, rows_of, dest) -> np.ndarray:
+    """out[:, dest[a:b]] = rows_of(a, b) (k x (b - a)) for every block; returns the Gram matrix
+    of out's rows."""
+    def one(a, b):
         Qb = rows_of(a, b)
-        if G is not None:
-            G += Qb @ Qb.T
         if dest is None:
             out[:, a:b] = Qb
         else:
             out[:, dest[a:b]] = Qb
+        return Qb @ Qb.T
+
+    return sum(map_blocks(n, one), np.zeros((out.shape[0], out.shape[0])))
 
 
 def _reorthogonalise(out: np.ndarray, G: np.ndarray) -> None:
     """out <- L^{-1} out in place, L L' = G the Gram matrix of out's rows (one Cholesky QR pass)."""
     Linv = np.linalg.inv(np.linalg.cholesky(G))
-    for a, b in row_blocks(out.shape[1]):
+
+    def one(a, b):
         out[:, a:b] = Linv @ out[:, a:b]
+
+    map_blocks(out.shape[1], one)
 
 
 def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
@@ -355,8 +387,7 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
             if ev[0] > GRAM_COND_LIMIT * ev[-1]:
                 T1 = np.linalg.inv(np.linalg.cholesky(Gs)) / scale[None, :]
                 out = np.empty((k, n))
-                G2 = np.zeros((k, k))
-                _fill_rows(out, n, lambda a, b: T1 @ rows(a, b).T, G2, dest)
+                G2 = _fill_rows(out, n, lambda a, b: T1 @ rows(a, b).T, dest)
                 _reorthogonalise(out, G2)   # the second pass restores orthogonality to rounding
                 return out, k
         R = _tsqr(n, k, rows)
@@ -367,11 +398,7 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
         if rank == 0:
             return out, 0
         T = (Vt[:rank].T / s[:rank]).T     # rank x k: Q1' = T X'
-        G2 = np.zeros((rank, rank))
-        _fill_rows(out, n, lambda a, b: T @ rows(a, b).T, G2, dest)
-        _reorthogonalise(out, G2)
-        G2 = np.zeros((rank, rank))
-        for a, b in row_blocks(n):
-            G2 += out[:, a:b] @ out[:, a:b].T
-        _reorthogonalise(out, G2)
+        _reorthogonalise(out, _fill_rows(out, n, lambda a, b: T @ rows(a, b).T, dest))
+        _reorthogonalise(out, sum(map_blocks(n, lambda a, b: out[:, a:b] @ out[:, a:b].T),
+                                  np.zeros((rank, rank))))
     return out, rank

@@ -42,8 +42,8 @@ def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
         arr = arr.reshape(-1)
     if arr.ndim != 1:
         raise ValueError(f"'{name}' must be 1-D (got shape {arr.shape})")
-    finite = np.isfinite(arr)
-    if not finite.all():
+    finite = None if _surely_finite(arr) else np.isfinite(arr)
+    if finite is not None and not finite.all():
         pos = int(np.flatnonzero(~finite)[0])
         raise ValueError(
             f"'{name}' must be finite (got {arr[pos]} at position {pos}; "
@@ -95,6 +95,14 @@ def check_rank_of_r(R: np.ndarray, n: int, name: str = "exog") -> None:
     _check_rank(_rank_of_r(R, n), R.shape[1], name)
 
 
+def _surely_finite(arr: np.ndarray) -> bool:
+    """True when every value of ``arr`` is finite, shown by one cheap pass: a sum is finite only
+    if every term is (a NaN or infinity anywhere makes it NaN or infinite).  False means "look
+    closer" (a sum of finite values can still overflow)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(np.sum(arr)))
+
+
 def finite_rows(X: np.ndarray) -> np.ndarray:
     """Boolean mask of the rows of a 2-D array whose values are all finite (read in row blocks)."""
     out = np.empty(X.shape[0], dtype=bool)
@@ -109,6 +117,8 @@ def finite_rows(X: np.ndarray) -> np.ndarray:
 def _first_nonfinite(arr: np.ndarray):
     """(row, column) of the first value of a 2-D array that is not finite, or None (read in row
     blocks, so no n x k mask is made)."""
+    if _surely_finite(arr):
+        return None
     for a, b in row_blocks(arr.shape[0]):
         finite = np.isfinite(arr[a:b])
         if not finite.all():

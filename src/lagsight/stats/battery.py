@@ -12,7 +12,7 @@ from typing import ClassVar
 
 import numpy as np
 import pandas as pd
-from scipy import stats
+from scipy import linalg, stats
 from statsmodels.regression.linear_model import OLS
 
 from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
@@ -77,9 +77,31 @@ def _aux_rows(X, top, e, lags, *, start=0, constant=False):
     return block
 
 
-def _aux_fit(rows: int, block, ncols: int):
+def _aux_precondition(X, top, e, lags, *, start=0, constant=False):
+    """An approximate R factor of the auxiliary matrix of :func:`_aux_rows`: the exact one of the
+    design's columns and one of the residuals' columns (from their autocovariances), the cross
+    products left out.  They are small (the residuals are orthogonal to the design), so the
+    auxiliary matrix times its inverse is nearly orthonormal and one pass of products gives the
+    R factor (:func:`lagsight.stats.tall.r_factor` checks, and makes two passes otherwise)."""
+    n = e.shape[0]
+    Xs = X[start:]
+    with np.errstate(over="ignore", invalid="ignore"):
+        GX = (Xs.T @ Xs) / np.outer(top, top)
+        if constant:
+            col = Xs.sum(axis=0) / top
+            GX = np.block([[GX, col[:, None]], [col[None, :], np.array([[float(n - start)]])]])
+    shifts = list(lags) + [0]
+    c = {d: float(e[d:] @ e[: n - d]) for d in {abs(i - j) for i in shifts for j in shifts}}
+    GE = np.array([[c[abs(i - j)] for j in shifts] for i in shifts])
+    try:
+        return linalg.block_diag(np.linalg.cholesky(GX).T, np.linalg.cholesky(GE).T)
+    except np.linalg.LinAlgError:
+        return None
+
+
+def _aux_fit(rows: int, block, ncols: int, precondition=None):
     """(least-squares solution, R factor) of the last of ``ncols + 1`` columns on the others."""
-    R = r_factor(rows, ncols + 1, block)
+    R = r_factor(rows, ncols + 1, block, precondition=precondition)
     return solve_r(R, rows), R
 
 
@@ -127,8 +149,9 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
             f"'max_lag' is too large for n={n}: need n > {k_aux - order} regressors + max_lag "
             f"(got {order})"
         )
-    block = _aux_rows(X, top, e, range(1, order + 1), constant=constant)
-    R = r_factor(n, k_aux + 1, block)
+    lags = range(1, order + 1)
+    block = _aux_rows(X, top, e, lags, constant=constant)
+    R = r_factor(n, k_aux + 1, block, precondition=_aux_precondition(X, top, e, lags, constant=constant))
     diag = np.diag(R)[:k_aux]
     if diag.min() > 1e-10 * diag.max():
         coef = R[:k_aux, k_aux]
@@ -404,7 +427,9 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
             f"'max_lag' is too large for n={n} with {k} regressors: need n - max_lag > k + max_lag (got {order})"
         )
     # rows t = order .. n-1 of [X_t, e_{t-1}, ..., e_{t-order}, e_t], a block at a time
-    fit, _ = _aux_fit(m, _aux_rows(X, top, e, range(1, order + 1), start=order), k + order)
+    lags = range(1, order + 1)
+    fit, _ = _aux_fit(m, _aux_rows(X, top, e, lags, start=order), k + order,
+                      _aux_precondition(X, top, e, lags, start=order))
     notes = (
         f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; "
         f"{m} rows used.",
@@ -451,7 +476,8 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
         raise ValueError(f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 "
                          f"(got period={period})")
     # rows t = s .. n-1 of [X_t, e_{t-1}, e_{t-s}, e_t], a block at a time
-    fit, _ = _aux_fit(m, _aux_rows(X, top, e, (1, period), start=period), k + 2)
+    fit, _ = _aux_fit(m, _aux_rows(X, top, e, (1, period), start=period), k + 2,
+                      _aux_precondition(X, top, e, (1, period), start=period))
     t = float(fit.params[-1] / fit.bse[-1])
     df = float(fit.df_resid)
     lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import finite_rows, has_constant
+from .stats._arrays import finite_rows, has_constant, has_constant_sharing_r
 from .stats.tall import column_tops, gram_of, map_blocks, r_factor, solve_r
 
 ACCEPTED_KINDS = (
@@ -359,7 +359,15 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         notes.append(f"{_rows(int((~ok).sum()))} with missing or infinite values in {response!r} or the "
                      "predictors were dropped before fitting; the time order has gaps there.")
     P = X[:, lead:]
-    has_const = _detect_constant(P if complete else P[ok]) if P.shape[1] else False
+    y_fit = y if complete else y[ok]
+    top = float(np.max(np.abs(y_fit))) or 1.0
+    shared = None
+    if P.shape[1]:
+        P_fit = P if complete else P[ok]
+        # the constant check's R factor, of [P, 1, y], also gives the OLS residuals on [1, P]
+        has_const, shared, p_top = has_constant_sharing_r(P_fit, y_fit / top)
+    else:
+        has_const = False
     if add_constant and has_const:
         notes.append("'add_constant': the predictors already span a constant, so none was added.")
         X = np.ascontiguousarray(P)
@@ -372,7 +380,12 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
     resid = np.full(n, np.nan)
-    resid[ok] = ols_residuals(y if complete else y[ok], X if complete else X[ok])
+    if add_constant and shared is not None and not has_const:
+        # unit-scaled fit, as ols_residuals; the residuals do not depend on the column order
+        coef = solve_r(shared, int(ok.sum())).params
+        resid[ok] = (y_fit / top - P_fit @ (coef[:-1] / p_top) - coef[-1]) * top
+    else:
+        resid[ok] = ols_residuals(y_fit, X if complete else X[ok])
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
         resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=y,

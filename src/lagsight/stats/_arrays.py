@@ -105,6 +105,8 @@ def _surely_finite(arr: np.ndarray) -> bool:
 
 def finite_rows(X: np.ndarray) -> np.ndarray:
     """Boolean mask of the rows of a 2-D array whose values are all finite (read in row blocks)."""
+    if _surely_finite(X):
+        return np.ones(X.shape[0], dtype=bool)
     out = np.empty(X.shape[0], dtype=bool)
 
     def one(a, b):
@@ -233,26 +235,35 @@ def constant_columns(exog: np.ndarray) -> np.ndarray:
     return out
 
 
-def _span_gap(X: np.ndarray, top: np.ndarray, v: np.ndarray) -> float:
-    """Distance from ``v`` to the column space of ``X`` (its columns divided by ``top``), relative
-    to ``||v||``.
+#: relative distance of the ones vector from the column space below which the columns span a
+#: constant: far above rounding of an exact span (about 1e-15), far below data that merely varies little
+CONSTANT_GAP = 1e-9
 
-    The last diagonal entry of the R factor of [X / top, v] is the norm of the part of v
-    orthogonal to the columns before it.  R is accumulated block by block
-    (:func:`lagsight.stats.tall.r_factor`), so memory is one block plus (k+1)^2, never n x k
-    beyond the input.
-    """
+
+def _span_r(X: np.ndarray, top: np.ndarray, extra=()) -> np.ndarray:
+    """The R factor of [X / top, 1, *extra] (columns of ``extra`` are vectors), accumulated block by
+    block (:func:`lagsight.stats.tall.r_factor`: memory one block plus (k+2)^2, never n x k beyond
+    the input), the first pass's Gram matrix from products of the whole arrays."""
     n, k = X.shape
-    # the first pass's Gram matrix from products of the whole arrays (v is the ones vector or not)
+    parts = [np.broadcast_to(np.float64(1.0), (n,)), *extra]
+    m = k + len(parts)
     with np.errstate(over="ignore", invalid="ignore"):
-        cross = X.sum(axis=0) if np.all(v == 1.0) else X.T @ v
-        G = np.empty((k + 1, k + 1))
+        G = np.empty((m, m))
         G[:k, :k] = (X.T @ X) / np.outer(top, top)
-        G[:k, k] = G[k, :k] = cross / top
-        G[k, k] = float(v @ v) if not np.all(v == 1.0) else float(n)
-    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / top, v[a:b]]), gram=G)
-    norm_v = float(np.linalg.norm(v))
-    return abs(float(R[-1, -1])) / norm_v if norm_v > 0 else 0.0
+        G[:k, k] = G[k, :k] = X.sum(axis=0) / top
+        G[k, k] = float(n)
+        for i, v in enumerate(extra, start=k + 1):
+            G[:k, i] = G[i, :k] = (X.T @ v) / top
+            G[k, i] = G[i, k] = float(v.sum())
+            for j, w in enumerate(extra[: i - k], start=k + 1):
+                G[i, j] = G[j, i] = float(v @ w)
+    return r_factor(n, m, lambda a, b: np.column_stack([X[a:b] / top] + [p[a:b] for p in parts]), gram=G)
+
+
+def _span_gap(R: np.ndarray, k: int, n: int) -> float:
+    """The distance from the ones vector (column k of the matrix R factors) to the columns before
+    it, relative to its length sqrt(n): the last diagonal entry of R for those columns."""
+    return abs(float(R[k, k])) / np.sqrt(n)
 
 
 def has_constant(exog) -> bool:
@@ -261,9 +272,8 @@ def has_constant(exog) -> bool:
     This is the one constant detector: a literal column of ones (or any non-zero
     constant) is found in O(n k); otherwise columns that add up to a constant (a full
     set of dummies, say) are found by the distance from the ones vector to the column
-    space, with the columns scaled to unit size first.  The tolerance 1e-9 (relative) is
-    far above rounding of an exact span (about 1e-15) and far below any data that merely
-    varies little.  Rows with a non-finite entry are left out.
+    space, with the columns scaled to unit size first, below :data:`CONSTANT_GAP`.
+    Rows with a non-finite entry are left out.
     """
     X = np.asarray(exog, dtype=float)
     if X.ndim == 1:
@@ -276,13 +286,27 @@ def has_constant(exog) -> bool:
             return False
     if constant_columns(X).any():
         return True
-    ones = np.broadcast_to(np.float64(1.0), (X.shape[0],))
     if X.shape[0] <= X.shape[1] + 1:  # too few rows for the blocked R: a tiny least-squares problem
-        Xs = unit_columns(X)
+        Xs, ones = unit_columns(X), np.ones(X.shape[0])
         r = ones - Xs @ np.linalg.lstsq(Xs, ones, rcond=None)[0]
-        return bool(np.linalg.norm(r) < 1e-9 * np.sqrt(X.shape[0]))
+        return bool(np.linalg.norm(r) < CONSTANT_GAP * np.sqrt(X.shape[0]))
     top = column_tops(X)
-    return _span_gap(X, np.where(top > 0, top, 1.0), ones) < 1e-9
+    top = np.where(top > 0, top, 1.0)
+    return bool(_span_gap(_span_r(X, top), X.shape[1], X.shape[0]) < CONSTANT_GAP)
+
+
+def has_constant_sharing_r(X: np.ndarray, v: np.ndarray):
+    """:func:`has_constant` for a finite X with more than k + 1 rows, and the R factor its span
+    check computed, of [X / top, 1, v] (the vector ``v`` after the ones): a fit of v on X and a
+    constant then needs no pass of its own.  Returns (decision, R or None, top); R is None when a
+    literal constant column decided."""
+    n, k = X.shape
+    if k == 0 or n <= k + 1 or constant_columns(X).any():
+        return has_constant(X), None, None
+    top = column_tops(X)
+    top = np.where(top > 0, top, 1.0)
+    R = _span_r(X, top, (v,))
+    return bool(_span_gap(R, k, n) < CONSTANT_GAP), R, top
 
 
 def k_prime(rank: int, has_const: bool) -> int:

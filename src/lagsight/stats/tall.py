@@ -56,8 +56,9 @@ def one_blas_thread():
     return threadpool_limits(limits=1, user_api="blas")
 
 
-def row_blocks(n: int, rows: int = ROWS):
-    """(start, stop) of consecutive row blocks covering 0..n-1."""
+def row_blocks(n: int, rows: int | None = None):
+    """(start, stop) of consecutive row blocks covering 0..n-1 (:data:`ROWS` rows by default)."""
+    rows = ROWS if rows is None else rows
     for a in range(0, n, rows):
         yield a, min(n, a + rows)
 
@@ -73,7 +74,7 @@ def _cores() -> int:
         return os.cpu_count() or 1
 
 
-def map_blocks(n: int, fn, rows: int = ROWS) -> list:
+def map_blocks(n: int, fn, rows: int | None = None) -> list:
     """[fn(a, b) for every row block (a, b) of 0..n-1], in order, with BLAS on one thread.
 
     Long series share the blocks among one thread per core: numpy's loops and BLAS release the

@@ -87,6 +87,8 @@ def test_exact_durbin_watson_same_on_both_paths(monkeypatch, lag, blocks):
             dist = dw_module.DurbinWatsonDistribution(X, lag, blocks=rows)
             out[name] = (dist.mean, dist.var, dist.cdf(np.array([d, d + 0.05, 1.6])), dist.tails(1.6)[0],
                          dist.project(e), dist.rank)
+            probe = np.random.default_rng(0).standard_normal(X.shape[0])   # not orthogonal to X
+            np.testing.assert_allclose(dist.project(probe, X), dist.project(probe), rtol=1e-10)
     assert len(used) == 2   # the blocked basis ran for the long paths only
     short = out["short"]
     for name in ("long", "direct"):

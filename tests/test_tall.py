@@ -111,8 +111,10 @@ def test_orthonormal_basis_spans_the_columns(name):
     X, _ = _designs()[name]
     n = X.shape[0]
     order = np.random.default_rng(3).permutation(n)
-    Qt, rank = tall.orthonormal_basis_t(X, order)
+    Qt, rank, T = tall.orthonormal_basis_t(X, order)
     assert rank == np.linalg.matrix_rank(X)  # reference: numpy's SVD rank
+    np.testing.assert_allclose(T @ X[order].T, Qt, atol=1e-8)   # Q' = T X'
+
     Q = np.empty((n, rank))
     Q[order] = Qt.T                        # column j of Qt belongs to row order[j]
     np.testing.assert_allclose(Q.T @ Q, np.eye(rank), atol=1e-13)

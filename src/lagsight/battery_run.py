@@ -179,7 +179,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     alt = settings.alternative
     period = settings.period if settings.period and settings.period > 1 else None
 
-    def attempt(name, fn):
+    def attempt(name, fn, tests=tests, errors=errors):
         try:
             tests[name] = fn()
         except (ValueError, TypeError, ZeroDivisionError, np.linalg.LinAlgError) as err:
@@ -207,6 +207,16 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     raw = e
     e = unit_scale(e)
     exog = data.exog
+
+    # the order-s distribution (see below) is built and dropped before the lag-1 one, which the views
+    # keep: the two bases (n x k each) are never held at once
+    seasonal_tests: dict = {}
+    seasonal_errors: dict = {}
+    seasonal_runs = (period and data.exog is not None and data.dw_applicable
+                     and _seasonal_fits(n, period, exog.shape[1]))
+    if seasonal_runs:
+        attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period, alpha=settings.alpha),
+                seasonal_tests, seasonal_errors)
 
     # Durbin-Watson, exact when the design is known
     dist = None
@@ -248,8 +258,8 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         elif not _seasonal_fits(n, period, exog.shape[1]):
             errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"
         else:
-            attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period,
-                                                    alpha=settings.alpha))
+            tests.update(seasonal_tests)
+            errors.update(seasonal_errors)
             attempt(SEASONAL_GIVEN, lambda: battery.seasonal_lag_test(e, exog, period=period, alternative=alt))
 
     # runs test on signs

@@ -90,7 +90,8 @@ BLOCKED_BASIS_MIN_N = 20_000
 
 
 def _orthonormal_basis(X: np.ndarray, order=None):
-    """Orthonormal basis of the column space of X, transposed (rank x n), and the rank.
+    """Orthonormal basis of the column space of X, transposed (rank x n), the rank, and for tall
+    designs the matrix T with Q' = T X' (None for short ones).
 
     ``order`` (a permutation of the rows) arranges the columns of the result: column j belongs
     to row order[j].  Tall designs (n >= :data:`BLOCKED_BASIS_MIN_N`) use Cholesky QR2 on
@@ -109,7 +110,7 @@ def _orthonormal_basis(X: np.ndarray, order=None):
         Q = Q @ U[:, :rank]
     if order is not None:
         Q = Q[np.asarray(order)]
-    return np.ascontiguousarray(Q.T), rank
+    return np.ascontiguousarray(Q.T), rank, None
 
 
 #: rows at least this long are transformed one per thread (see :func:`_dct`)
@@ -161,8 +162,9 @@ class DurbinWatsonDistribution:
         # the chains' rows side by side; W = V'Q is then the DCT of each chain's slice of Q',
         # taken in place, so Q' and W never exist at the same time
         self._chains = None if single else chains
+        self._basis_map = None
         if X.shape[1]:
-            Wt, rank = _orthonormal_basis(X, None if single else np.concatenate(chains))
+            Wt, rank, self._basis_map = _orthonormal_basis(X, None if single else np.concatenate(chains))
             if rank < X.shape[1]:
                 self.notes.append(
                     f"the design has rank {rank} < {X.shape[1]} columns; "
@@ -197,12 +199,16 @@ class DurbinWatsonDistribution:
             pos += rows.size
         return out
 
-    def project(self, u) -> np.ndarray:
-        """Q'u for the orthonormal basis Q of the design's column space, computed from W = V'Q:
-        Q'u = W'(V'u), with V'u the chains' DCTs of u (no copy of the basis is kept)."""
+    def project(self, u, exog=None) -> np.ndarray:
+        """Q'u for the orthonormal basis Q of the design's column space (no copy of the basis is
+        kept): T (X'u) when the design ``exog`` it was built from is given and the basis came
+        from the blocked factorisation (Q' = T X'), else from W = V'Q as Q'u = W'(V'u), with V'u
+        the chains' DCTs of u."""
         u = np.asarray(u, dtype=float)
         if self.form.W is None:
             return np.zeros(0)
+        if exog is not None and self._basis_map is not None:
+            return self._basis_map @ (np.asarray(exog, dtype=float).T @ u)
         if self._chains is not None:
             u = u[np.concatenate(self._chains)]
         return self.form.W @ self._chain_dct(u)
@@ -468,7 +474,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     dist = DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
     u = unit_scale(e)
-    proj = dist.project(u)
+    proj = dist.project(u, X)
     if float(np.dot(proj, proj)) > 1e-12 * float(np.dot(u, u)):
         notes.append(
             "the residuals are not orthogonal to exog; the exact distribution assumes they are "

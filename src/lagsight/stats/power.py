@@ -260,7 +260,7 @@ def dw_power(
     r = r[order]
     uniq, inverse = np.unique(r, return_inverse=True)
 
-    basis_t, _ = _orthonormal_basis(np.asarray(exog, dtype=float).reshape(n, -1))
+    basis_t, _, _ = _orthonormal_basis(np.asarray(exog, dtype=float).reshape(n, -1))
     rng = np.random.default_rng(seed)
     rows = max(1, min(n_sim, _CHUNK_ELEMENTS // n))
     hits = np.zeros(uniq.size, dtype=np.int64)

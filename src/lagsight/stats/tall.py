@@ -345,18 +345,21 @@ def _fill_rows(out: np.ndarray, n: int, rows_of, dest) -> np.ndarray:
     return sum(map_blocks(n, one), np.zeros((out.shape[0], out.shape[0])))
 
 
-def _reorthogonalise(out: np.ndarray, G: np.ndarray) -> None:
-    """out <- L^{-1} out in place, L L' = G the Gram matrix of out's rows (one Cholesky QR pass)."""
+def _reorthogonalise(out: np.ndarray, G: np.ndarray) -> np.ndarray:
+    """out <- L^{-1} out in place, L L' = G the Gram matrix of out's rows (one Cholesky QR pass);
+    returns L^{-1}."""
     Linv = np.linalg.inv(np.linalg.cholesky(G))
 
     def one(a, b):
         out[:, a:b] = Linv @ out[:, a:b]
 
     map_blocks(out.shape[1], one)
+    return Linv
 
 
-def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
-    """Q' (rank x n) for an orthonormal basis Q of the column space of X (n x k), and the rank.
+def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int, np.ndarray]:
+    """Q' (rank x n) for an orthonormal basis Q of the column space of X (n x k), the rank, and
+    the rank x k matrix T with Q' = T X' (so Q'u = T (X'u) needs no pass over Q).
 
     ``order`` (a permutation of 0..n-1) arranges the result's columns: column j is row order[j] of
     Q.  The result is the only n-sized array made.  Cholesky QR2 on the column-scaled X when its
@@ -374,6 +377,7 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
         G = X.T @ X
     diag = np.diag(G)
     rows = lambda a, b: X[a:b]  # noqa: E731
+    top = np.ones(k)
     if not (np.all(np.isfinite(G)) and np.all((diag == 0) | (diag > 1e-280))):
         # data of extreme magnitude (1e200, 1e-200): the basis does not depend on column scale
         top = column_tops(X)
@@ -389,17 +393,17 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int]:
                 T1 = np.linalg.inv(np.linalg.cholesky(Gs)) / scale[None, :]
                 out = np.empty((k, n))
                 G2 = _fill_rows(out, n, lambda a, b: T1 @ rows(a, b).T, dest)
-                _reorthogonalise(out, G2)   # the second pass restores orthogonality to rounding
-                return out, k
+                L2 = _reorthogonalise(out, G2)   # the second pass restores orthogonality to rounding
+                return out, k, (L2 @ T1) / top[None, :]
         R = _tsqr(n, k, rows)
         _, s, Vt = np.linalg.svd(R)
         tol = s[0] * max(n, k) * np.finfo(float).eps if s.size and s[0] > 0 else 0.0
         rank = int(np.count_nonzero(s > tol))
         out = np.empty((rank, n))
         if rank == 0:
-            return out, 0
+            return out, 0, np.zeros((0, k))
         T = (Vt[:rank].T / s[:rank]).T     # rank x k: Q1' = T X'
-        _reorthogonalise(out, _fill_rows(out, n, lambda a, b: T @ rows(a, b).T, dest))
-        _reorthogonalise(out, sum(map_blocks(n, lambda a, b: out[:, a:b] @ out[:, a:b].T),
-                                  np.zeros((rank, rank))))
-    return out, rank
+        La = _reorthogonalise(out, _fill_rows(out, n, lambda a, b: T @ rows(a, b).T, dest))
+        Lb = _reorthogonalise(out, sum(map_blocks(n, lambda a, b: out[:, a:b] @ out[:, a:b].T),
+                                       np.zeros((rank, rank))))
+    return out, rank, (Lb @ La @ T) / top[None, :]

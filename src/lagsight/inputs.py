@@ -368,6 +368,7 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         has_const, shared, p_top = has_constant_sharing_r(P_fit, y_fit / top)
     else:
         has_const = False
+    spans = has_const   # whether the predictors themselves span a constant
     if add_constant and has_const:
         notes.append("'add_constant': the predictors already span a constant, so none was added.")
         X = np.ascontiguousarray(P)
@@ -380,7 +381,7 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
     resid = np.full(n, np.nan)
-    if add_constant and shared is not None and not has_const:
+    if add_constant and shared is not None and not spans:
         # unit-scaled fit, as ols_residuals; the residuals do not depend on the column order
         coef = solve_r(shared, int(ok.sum())).params
         resid[ok] = (y_fit / top - P_fit @ (coef[:-1] / p_top) - coef[-1]) * top

@@ -4,16 +4,18 @@ Cases (each in a fresh subprocess, so one case's memory never counts towards ano
 
 * ``durbin_watson``: the exact test alone, ``durbin_watson(resid, exog)`` on arrays (OLS residuals of
   white-noise errors, so the p-value lies in the body of the distribution);
-* ``diagnose white``: ``diagnose`` on a DataFrame (response and 9 predictors, a constant is added)
-  with white-noise errors, so the corrections do not run (unless the verdict finds evidence by chance);
+* ``diagnose white``: ``diagnose`` on a DataFrame (response and 9 predictors, a constant is
+  added) with white-noise errors, so the corrections do not run (unless the verdict finds
+  evidence by chance);
 * ``diagnose AR(1)``: the same with AR(1) errors, rho = 0.5, so the corrections (HAC, Prais-Winsten)
   run.
 
 Memory is the resident set size: the child builds its input, collects garbage, notes its
 resident size and resets the kernel's high-water mark (``/proc/self/clear_refs``), then runs the
 case; "peak" is the high-water mark minus the resident size after the input was built, "held" the
-resident size after the call, with its result still referenced, minus the same.  ``--tracemalloc`` also reports the peak of memory
-traced by Python's tracemalloc (numpy's buffers included) in a separate run, which is slower.
+resident size after the call, with its result still referenced, minus the same.  ``--tracemalloc``
+also reports the peak of memory traced by Python's tracemalloc (numpy's buffers included) in a
+separate run, which is slower.
 
 ``--baseline-src DIR`` runs every case a second time with another source tree first on the path
 (for example an export of main's ``src``) and prints the ratios from the same run: the machine is

@@ -49,11 +49,11 @@ def test_solution_equals_statsmodels_ols(name):
 
 
 def test_r_factor_equals_numpy_qr_up_to_signs():
-    for name, (X, y) in _designs().items():
+    for name, (X, _) in _designs().items():
         if name == "extreme":
             continue
         n, k = X.shape
-        R = tall.r_factor(n, k, lambda a, b: X[a:b])
+        R = tall.r_factor(n, k, lambda a, b, X=X: X[a:b])
         ref = np.linalg.qr(X, mode="r")       # reference: LAPACK Householder QR of the whole matrix
         ref = ref * np.where(np.diag(ref) < 0, -1.0, 1.0)[:, None]
         # R'R = X'X: the same factor when X has full rank, to rounding relative to ||X||

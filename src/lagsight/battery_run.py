@@ -212,10 +212,9 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     # keep: the two bases (n x k each) are never held at once
     seasonal_tests: dict = {}
     seasonal_errors: dict = {}
-    seasonal_runs = (period and data.exog is not None and data.dw_applicable
-                     and _seasonal_fits(n, period, exog.shape[1]))
-    if seasonal_runs:
-        attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period, alpha=settings.alpha),
+    if period and exog is not None and data.dw_applicable and _seasonal_fits(n, period, exog.shape[1]):
+        s_lag, s_exog = int(period), exog
+        attempt(SEASONAL, lambda: durbin_watson(e, s_exog, alternative=alt, lag=s_lag, alpha=settings.alpha),
                 seasonal_tests, seasonal_errors)
 
     # Durbin-Watson, exact when the design is known

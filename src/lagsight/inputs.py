@@ -352,7 +352,6 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool) -> t
         ok[a:b] = np.isfinite(y[a:b]) & np.isfinite(X[a:b, lead:]).all(axis=1)
 
     map_blocks(n, fill)
-    del cols
     complete = bool(ok.all())
     names, notes = tuple(str(c) for c in preds), []
     if not complete:

@@ -90,8 +90,8 @@ class _ChebMoments:
         self.x = x
         self.Wt = Wt
         self.mu = np.empty(0)
-        self.G = None
-        self._half = None
+        self.G: np.ndarray | None = None
+        self._half: np.ndarray | None = None
 
     @property
     def degree(self) -> int:
@@ -107,8 +107,8 @@ class _ChebMoments:
         mu[: old + 1] = self.mu
         k = 0 if self.Wt is None else self.Wt.shape[0]
         iu = np.triu_indices(k)
-        half = np.zeros((iu[0].size, degree + 1)) if k else None
-        if k and old >= 0:
+        half = np.zeros((iu[0].size, degree + 1))
+        if k and old >= 0 and self._half is not None:
             half[:, : old + 1] = self._half
 
         def one(start, stop):

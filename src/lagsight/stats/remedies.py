@@ -249,12 +249,13 @@ def newey_west(endog, exog, *, max_lag: int | None = None, lag_rule: str = "newe
     residuals.  ``use_correction`` applies the n/(n-k) small-sample factor;
     ``use_t`` gives Student-t p-values with n - k df instead of normal ones.
     """
-    y, X, ols = _xy(endog, exog)
-    return _newey_west(y, X, ols, max_lag=max_lag, lag_rule=lag_rule, use_correction=use_correction,
+    _, _, ols = _xy(endog, exog)
+    return _newey_west(ols, max_lag=max_lag, lag_rule=lag_rule, use_correction=use_correction,
                        use_t=use_t, names=names)
 
 
-def _newey_west(y, X, ols: _Fit, *, max_lag, lag_rule, use_correction, use_t, names) -> NeweyWestResult:
+def _newey_west(ols: _Fit, *, max_lag, lag_rule, use_correction, use_t, names) -> NeweyWestResult:
+    X = ols.X
     n, k = X.shape
     labels = check_names(names, k)
     if max_lag is None:
@@ -332,7 +333,7 @@ class _ResidualMoments:
         if lp is not None:
             self.G = 0.5 * (lp.gram + lp.gram.T)
             self.C = 0.5 * (lp.lag1 + lp.lag1.T)   # only quadratic forms of it are needed
-            self.f, self.l = lp.first, lp.last
+            self.f, self.last = lp.first, lp.last
         self.lp = lp
 
     def _w(self, beta):
@@ -358,7 +359,7 @@ class _ResidualMoments:
         else:
             w = self._w(beta)
             cross, total = float(w @ self.C @ w), float(w @ self.G @ w)
-            head = total - float(self.l @ w) ** 2
+            head = total - float(self.last @ w) ** 2
         return cross / (head if how == "regression" else total)
 
     def lag_ss(self, beta) -> float:
@@ -366,13 +367,13 @@ class _ResidualMoments:
         if self.lp is None:
             return self._sums(beta)[1]
         w = self._w(beta)
-        return float(w @ self.G @ w) - float(self.l @ w) ** 2
+        return float(w @ self.G @ w) - float(self.last @ w) ** 2
 
     def _m(self, rho: float, keep_first: bool) -> np.ndarray:
         """Q'T'TQ for the quasi-differenced rows t >= 1 (and the first row scaled by
         sqrt(1 - rho^2) with ``keep_first``)."""
-        f, l = self.f, self.l
-        M = (self.G - np.outer(f, f)) - 2.0 * rho * self.C + rho * rho * (self.G - np.outer(l, l))
+        f, last = self.f, self.last
+        M = (self.G - np.outer(f, f)) - 2.0 * rho * self.C + rho * rho * (self.G - np.outer(last, last))
         if keep_first:
             M = M + (1.0 - rho * rho) * np.outer(f, f)
         return 0.5 * (M + M.T)
@@ -438,13 +439,13 @@ def _ar1_rows(X: np.ndarray, y: np.ndarray, rho: float, keep_first: bool):
 
 
 def _fgls(endog, exog, *, keep_first, tol, maxiter, names, rho_method) -> FGLSResult:
-    y, X, ols = _xy(endog, exog)
-    return _fgls_fit(y, X, ols, keep_first=keep_first, tol=tol, maxiter=maxiter, names=names,
+    _, _, ols = _xy(endog, exog)
+    return _fgls_fit(ols, keep_first=keep_first, tol=tol, maxiter=maxiter, names=names,
                      rho_method=rho_method)
 
 
-def _fgls_fit(y, X, ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLSResult:
-    n, k = X.shape
+def _fgls_fit(ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLSResult:
+    n, k = ols.X.shape
     labels = check_names(names, k)
     check_choice(rho_method, "rho_method", RHO_METHODS)
     maxiter = check_int(maxiter, "maxiter", minimum=1)
@@ -580,13 +581,13 @@ def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule:
     rescale = (s_y, s_x) != (1.0, 1.0)
     labels = check_names(names, X.shape[1])
     # one OLS fit (one R factor of [X, y]) serves the OLS column, HAC and the first FGLS step
-    hac = _newey_west(y, X, ols, max_lag=None, lag_rule=lag_rule, use_correction=False, use_t=True, names=labels)
+    hac = _newey_west(ols, max_lag=None, lag_rule=lag_rule, use_correction=False, use_t=True, names=labels)
     extra = []
     options = dict(tol=1e-8, maxiter=100, names=labels, rho_method="regression")
     try:
-        gls = _fgls_fit(y, X, ols, keep_first=fgls == "prais-winsten", **options)
+        gls = _fgls_fit(ols, keep_first=fgls == "prais-winsten", **options)
     except RhoOutOfRangeError as err:
-        gls = _fgls_fit(y, X, ols, keep_first=False, **options)
+        gls = _fgls_fit(ols, keep_first=False, **options)
         fgls = "cochrane-orcutt"
         extra.append(f"Prais-Winsten was not possible ({err}); Cochrane-Orcutt used instead.")
     se_ols = ols.sol.bse

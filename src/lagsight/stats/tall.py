@@ -20,9 +20,9 @@ from __future__ import annotations
 
 import contextlib
 import os
+from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 
@@ -165,7 +165,7 @@ def _second_pass(n, ncols, block, T, lags: bool):
     if not lags:
         return G, None
     C = np.zeros((ncols, ncols))
-    for i, (_, (Cb, head, tail)) in enumerate(parts):
+    for i, (_, (Cb, head, _)) in enumerate(parts):
         C += Cb
         if i:
             C += np.outer(head, parts[i - 1][1][2])   # row a with row a - 1 of the previous block
@@ -188,9 +188,9 @@ def _positive_diagonal(R: np.ndarray) -> np.ndarray:
 def _tsqr(n, ncols, block) -> np.ndarray:
     """Householder QR of [R; next block] in turn (backward stable for any matrix)."""
     # each block's R, then the R of those stacked (a tree of two levels)
-    Rs = map_blocks(n, lambda a, b: np.linalg.qr(block(a, b), mode="r")[:ncols])
+    Rs = map_blocks(n, lambda a, b: np.asarray(np.linalg.qr(block(a, b), mode="r"))[:ncols])
     with one_blas_thread():
-        R = np.linalg.qr(np.vstack(Rs), mode="r")[:ncols]
+        R = np.asarray(np.linalg.qr(np.vstack(Rs), mode="r"))[:ncols]
     if R.shape[0] < ncols:
         R = np.vstack([R, np.zeros((ncols - R.shape[0], ncols))])
     return _positive_diagonal(R)

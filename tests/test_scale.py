@@ -258,3 +258,16 @@ def test_diagnose_same_on_both_paths(monkeypatch):
     np.testing.assert_allclose(long.remedies.table[cols].to_numpy(float), short.remedies.table[cols].to_numpy(float),
                                rtol=1e-9)
     assert long.remedies.hac_lag == short.remedies.hac_lag
+
+
+def test_residual_line_thinned_by_chunks_equals_one_pass(monkeypatch):
+    figures = importlib.import_module("lagsight.render.figures")
+    rng = np.random.default_rng(8)
+    e = np.round(rng.standard_normal(50_001), 1)   # many ties: the first extreme of each block counts
+    one_pass = figures._thin_series(e, 400)
+    monkeypatch.setattr(figures, "_THIN_CHUNK", 300)
+    np.testing.assert_array_equal(figures._thin_series(e, 400), one_pass)
+    # each block of neighbours keeps its first lowest and first highest value
+    edges = np.linspace(0, e.size, 201).astype(int)
+    for a, b in zip(edges[:-1], edges[1:]):
+        assert a + int(np.argmin(e[a:b])) in one_pass and a + int(np.argmax(e[a:b])) in one_pass

@@ -37,6 +37,7 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_panel.py
 	$(BIN)/python benchmarks/bench_screen.py
 	$(BIN)/python benchmarks/bench_verdict.py
+	$(BIN)/python benchmarks/bench_scale.py
 
 notebooks: $(STAMP)
 	$(BIN)/python scripts/make_notebooks.py

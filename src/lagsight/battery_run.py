@@ -184,7 +184,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
 
     warned: dict[str, tuple] = {}
 
-    def attempt(name, fn):
+    def attempt(name, fn, tests=tests, errors=errors):
         # a test that fails for any reason is recorded with a one-line reason; the others still run
         with caught_warnings() as caught:
             try:
@@ -216,10 +216,20 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
                           lagged_response=lagged_name, period=period, bg_max_lag=bg_max_lag,
                           notes=(f"No test was run: {plan.problem}.",), plan=plan)
 
-    # every statistic is scale-free: residuals and design columns of unit size keep sums of squares finite
+    # every statistic is scale-free: residuals of unit size keep sums of squares finite; the tests
+    # bring the design's columns to unit size a block of rows at a time (no copy of the design)
     raw = e
     e = unit_scale(e)
-    exog = None if data.exog is None else unit_columns(data.exog)
+    exog = data.exog
+
+    # the order-s distribution (see below) is built and dropped before the lag-1 one, which the views
+    # keep: the two bases (n x k each) are never held at once
+    seasonal_tests: dict = {}
+    seasonal_errors: dict = {}
+    if period and exog is not None and data.dw_applicable and _seasonal_fits(n, period, exog.shape[1]):
+        s_lag, s_exog = int(period), exog
+        attempt(SEASONAL, lambda: durbin_watson(e, s_exog, alternative=alt, lag=s_lag, alpha=settings.alpha),
+                seasonal_tests, seasonal_errors)
 
     # Durbin-Watson, exact when the design is known
     dist = None
@@ -267,8 +277,8 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
         elif not _seasonal_fits(n, period, exog.shape[1]):
             errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"
         else:
-            attempt(SEASONAL, lambda: durbin_watson(e, exog, alternative=alt, lag=period,
-                                                    alpha=settings.alpha))
+            tests.update(seasonal_tests)
+            errors.update(seasonal_errors)
             attempt(SEASONAL_GIVEN, lambda: battery.seasonal_lag_test(e, exog, period=period, alternative=alt))
 
     # runs test on signs

@@ -16,8 +16,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .stats._arrays import check_label, check_labels, has_constant, unit_columns
+from .stats._arrays import check_label, check_labels, finite_rows, has_constant, has_constant_sharing_r
 from .stats._caught import caught_warnings
+from .stats.tall import column_tops, gram_of, map_blocks, r_factor, solve_r
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -86,7 +87,8 @@ class ResidualData:
     number of ARMA parameters to subtract from Ljung-Box degrees of freedom;
     ``dw_applicable`` is False for ARIMA-type models; ``source`` describes the
     input; ``notes`` say what was done to it; ``fitted`` is the statsmodels
-    results object when there is one.
+    results object the input was (None when lagsight fitted the OLS of a DataFrame itself:
+    it keeps only the residuals, not a results object with its copies of the design).
     """
 
     resid: np.ndarray
@@ -300,7 +302,7 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
         Xv, names, _ = _as_2d(X, "exog")
     except ValueError:
         Xv, names = None, None  # e.g. categorical columns handled inside a pipeline
-    keep = np.isfinite(yv) & (np.isfinite(Xv).all(axis=1) if Xv is not None else True)
+    keep = np.isfinite(yv) & (finite_rows(Xv) if Xv is not None else True)
     notes = []
     if (~keep).any():
         notes.append(f"{_rows(int((~keep).sum()))} with missing or infinite values in exog or endog were dropped; "
@@ -314,7 +316,7 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
     fit_intercept = bool(getattr(est, "fit_intercept", False))
     if hasattr(est, "coef_") and Xv is not None and np.size(est.coef_) == Xv.shape[1]:
         names = names or tuple(f"x{j + 1}" for j in range(Xv.shape[1]))
-        exog, has_const = Xv, _detect_constant(Xv[keep])
+        exog, has_const = Xv, _detect_constant(Xv if keep.all() else Xv[keep])
         if fit_intercept and not has_const:
             exog, names, has_const = np.column_stack([np.ones(n), Xv]), ("const",) + names, True
         if name != "LinearRegression":
@@ -356,7 +358,6 @@ def _from_array(values, exog) -> tuple[ResidualData, np.ndarray | None]:
 def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
                 left_out=None) -> tuple[ResidualData, np.ndarray | None]:
     """OLS of ``response`` on ``predictors``; rows in ``left_out`` (no group label) are not fitted."""
-    import statsmodels.api as sm
     if response is None or predictors is None:
         raise TypeError("a DataFrame needs response= (the response column) and predictors= "
                         f"(a list of column names) (got response={response!r}, predictors={predictors!r})")
@@ -369,40 +370,86 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
             raise ValueError(f"'{arg}': column {col!r} must be numeric (got dtype {picked[col].dtype})")
     if response in preds:
         raise ValueError(f"'predictors' must not contain the response {response!r}")
-    values = np.column_stack([picked[c].to_numpy(dtype=float) for c in [response] + preds])
-    finite = np.isfinite(values).all(axis=1)
+    # the design is built once, column by column (no copy of the frame as a whole), with room
+    # for the constant in front
+    n = len(df)
+    lead = 1 if add_constant else 0
+    cols = [picked[col].to_numpy(dtype=float) for col in preds]  # float columns: views, no copy
+    y = np.array(picked[response].to_numpy(dtype=float), dtype=float)
+    X = np.empty((n, lead + len(preds)))
+    finite = np.empty(n, dtype=bool)
+
+    def fill(a, b):  # a block of rows stays in cache while its columns are written
+        for j, col in enumerate(cols):
+            X[a:b, lead + j] = col[a:b]
+        finite[a:b] = np.isfinite(y[a:b]) & np.isfinite(X[a:b, lead:]).all(axis=1)
+
+    map_blocks(n, fill)
     ok = finite if left_out is None else finite & ~left_out  # the rows fitted
-    X, names, notes = values[:, 1:], tuple(str(c) for c in preds), []
-    if (~finite).any():
+    complete = bool(ok.all())
+    names, notes = tuple(str(c) for c in preds), []
+    if not finite.all():
         notes.append(f"{_rows(int((~finite).sum()))} with missing or infinite values in {response!r} or the "
                      "predictors were dropped before fitting; the time order has gaps there.")
-    has_const = _detect_constant(X[ok]) if X.shape[1] else False
+    P = X[:, lead:]
+    y_fit = y if complete else y[ok]
+    top = float(np.max(np.abs(y_fit))) or 1.0
+    shared = None
+    if P.shape[1]:
+        P_fit = P if complete else P[ok]
+        # the constant check's R factor, of [P, 1, y], also gives the OLS residuals on [1, P]
+        has_const, shared, p_top = has_constant_sharing_r(P_fit, y_fit / top)
+    else:
+        has_const = False
+    spans = has_const   # whether the predictors themselves span a constant
     if add_constant and has_const:
         notes.append("'add_constant': the predictors already span a constant, so none was added.")
+        X = np.ascontiguousarray(P)
     elif add_constant:
-        X, names, has_const = np.column_stack([np.ones(len(df)), X]), ("const",) + names, True
+        X[:, 0] = 1.0
+        names, has_const = ("const",) + names, True
     if X.shape[1] == 0:
         raise ValueError("'predictors' must name at least one column when 'add_constant' is False (got [])")
     if ok.sum() <= X.shape[1]:
         raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
                          "coefficients; more rows than coefficients are needed")
-    with caught_warnings() as raw_caught:
-        fit = sm.OLS(values[ok, 0], X[ok]).fit()
-    # the residuals from the same fit on unit-scaled columns: pinv's cut-off treats every column alike,
-    # and nothing overflows for data near 1e200 (OLS residuals do not depend on column scales)
-    y_ok = values[ok, 0]
-    top = float(np.max(np.abs(y_ok))) or 1.0
-    resid = np.full(len(df), np.nan)
+    resid = np.full(n, np.nan)
     with caught_warnings() as caught:
-        resid[ok] = sm.OLS(y_ok / top, unit_columns(X[ok])).fit().resid * top
-    notes += caught.notes()  # e.g. a design that is rank-deficient whatever the scale
-    notes += [f"The OLS fit on the original scale (kept as 'fitted'): {note}; the residuals tested come from "
-              "the same fit on unit-scaled columns." for note in raw_caught.notes() if note not in caught.notes()]
+        if add_constant and shared is not None and not spans:
+            # unit-scaled fit, as ols_residuals; the residuals do not depend on the column order
+            sol = solve_r(shared, int(ok.sum()))
+            coef, rank = sol.params, sol.rank
+            resid[ok] = (y_fit / top - P_fit @ (coef[:-1] / p_top) - coef[-1]) * top
+        else:
+            resid[ok], rank = ols_residuals(y_fit, X if complete else X[ok])
+    notes += caught.notes()
+    if rank < X.shape[1]:
+        notes.append(f"The design has rank {rank} < {X.shape[1]} columns (collinear predictors): the "
+                     "coefficients are not unique; the residuals are those of the minimum-norm least-squares fit.")
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
-        resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=values[:, 0],
-        endog_name=str(response), notes=tuple(notes), frame=df, fitted=fit,
+        resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=y,
+        endog_name=str(response), notes=tuple(notes), frame=df,
         source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight"), finite
+
+
+def ols_residuals(y: np.ndarray, X: np.ndarray) -> tuple[np.ndarray, int]:
+    """Residuals (and the rank of ``X``) of the least-squares fit of ``y`` on ``X`` (finite), fitted on
+    unit-scaled columns:
+    the pseudo-inverse's cut-off (statsmodels' 1e-15) treats every column alike and nothing
+    overflows for data near 1e200.  Read in row blocks (:mod:`lagsight.stats.tall`); OLS residuals
+    do not depend on the columns' scales."""
+    n, k = X.shape
+    top = float(np.max(np.abs(y))) or 1.0
+    tops = column_tops(X)
+    tops = np.where(tops > 0, tops, 1.0)
+    scale = np.append(tops, top)
+    with np.errstate(over="ignore", invalid="ignore"):
+        G = gram_of(X, y) / np.outer(scale, scale)   # the first pass, from products of the whole arrays
+    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]), gram=G)
+    sol = solve_r(R, n)
+    beta = sol.params / tops
+    return (y / top - X @ beta) * top, sol.rank
 
 
 def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
@@ -489,7 +536,7 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
                      "the time order has gaps there.")
         keep &= ~bad
     if raw.exog is not None:
-        bad = keep & ~np.isfinite(raw.exog).all(axis=1)
+        bad = keep & ~finite_rows(raw.exog)
         if bad.any():
             notes.append(f"{_rows(int(bad.sum()))} with missing or infinite values in the design "
                          "were dropped; the time order has gaps there.")
@@ -498,7 +545,9 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
     if n < 3:
         raise ValueError(f"'model' gives {n} usable rows; at least 3 are needed")
     out = raw.replace(groups=group_arr, order_values=order_arr, order_name=order_name,
-                      source=f"{raw.source}, {n} rows", notes=tuple(notes)).subset(keep)
+                      source=f"{raw.source}, {n} rows", notes=tuple(notes))
+    if n < n0:  # no copy of the rows when every row is kept
+        out = out.subset(keep)
     if out.has_constant is None and out.exog is not None:
         out = out.replace(has_constant=_detect_constant(out.exog))
     return out

@@ -196,10 +196,16 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
     n = data.n
     key, key_name, do_sort = _resolve_key(data, order)
     gcodes = _group_codes(_resolve_groups(data, groups))
-    ranks, n_missing = _ranks(key)
+    in_order = gcodes is None and _strictly_increasing(key)
+    ranks, n_missing = (None, 0) if in_order else _ranks(key)
     warnings, flags = [], {"key": key_name, "missing_stamps": n_missing}
     within = " within groups" if gcodes is not None else ""
-    if ranks is None:
+    if in_order:
+        # a strictly increasing key without groups (a RangeIndex, a regular date index): what the
+        # ranks below would find, without ranking or sorting n values
+        perm = None
+        flags.update(monotonic=True, shuffled=False, reversed=False, descending_fraction=0.0, duplicate_stamps=0)
+    elif ranks is None:
         if do_sort:
             raise ValueError(f"'order': {key_name} cannot be sorted (mixed types, e.g. {key[:3].tolist()})")
         warnings.append(f"The row order could not be checked: {key_name} mixes values that cannot be compared.")
@@ -262,9 +268,19 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
                             "separately, or sort with order='index' to put each group in one block.")
     else:
         flags.update(interleaved_groups=False, n_groups=None, group_runs=None)
-    flags["sorted"] = bool(np.any(perm != np.arange(n)))
+    flags["sorted"] = False if perm is None else bool(np.any(perm != np.arange(n)))
+    perm = np.arange(n, dtype=np.intp) if perm is None else perm.astype(np.intp)
     used = f"sorted by {key_name}{within}" if do_sort else "row order"
-    return OrderReport(permutation=perm.astype(np.intp), order_used=used, warnings=tuple(warnings), flags=flags)
+    return OrderReport(permutation=perm, order_used=used, warnings=tuple(warnings), flags=flags)
+
+
+def _strictly_increasing(key: pd.Index) -> bool:
+    """True when every stamp is present and larger than the one before (O(n), cached by pandas
+    for an index; at once for a RangeIndex)."""
+    try:
+        return bool(not key.hasnans and key.is_monotonic_increasing and key.is_unique)
+    except TypeError:
+        return False
 
 
 def _offset_period(off) -> int | None:

@@ -10,7 +10,6 @@ dask.distributed client's executor) in chunks of models.
 from __future__ import annotations
 
 import concurrent.futures as cf
-import contextlib
 import math
 import os
 from collections.abc import Mapping
@@ -33,6 +32,7 @@ from .stats._arrays import (
     check_order_arg,
 )
 from .stats._caught import caught_warnings
+from .stats.tall import one_blas_thread
 from .verdict import write_verdict
 
 __all__ = ["ScreenResult", "screen"]
@@ -137,23 +137,10 @@ def _reason(err: BaseException) -> str:
     return f"{type(err).__name__}: {first}" if first else type(err).__name__
 
 
-def _one_blas_thread():
-    """Limit BLAS to one thread while a chunk runs: the parallelism is across models.
-
-    For n in the hundreds a multi-threaded BLAS spends more time synchronising
-    than computing, and several worker processes would oversubscribe the cores.
-    """
-    try:
-        from threadpoolctl import threadpool_limits
-    except ImportError:  # pragma: no cover - optional; results are the same, only slower
-        return contextlib.nullcontext()
-    return threadpool_limits(limits=1, user_api="blas")
-
-
 def _run_chunk(items: list, alpha: float, alternative: str) -> list:
     """Screen a chunk of models; a model that raises gives its reason instead of a row."""
     out = []
-    with _one_blas_thread():
+    with one_blas_thread():  # the parallelism is across models
         for item in items:
             try:
                 out.append((item["pos"], _light_battery(item, alpha, alternative)))

@@ -186,38 +186,52 @@ def lag_scatter_figure(resid, *, lag: int, max_points: int = MAX_POINTS, width: 
 
 
 # ---------------------------------------------------------------------------
+#: residuals scanned at a time when thinning a long series (bounds the work arrays)
+_THIN_CHUNK = 1 << 20
+
+
 def _thin_series(e: np.ndarray, max_points: int) -> np.ndarray:
+    """Positions of the first lowest and first highest residual of each of max_points / 2 blocks of
+    neighbours (and both ends), found a chunk of blocks at a time: no array of length n is made."""
     n = e.size
     if n <= max_points:
         return np.arange(n)
     blocks = max(1, max_points // 2)
     edges = np.linspace(0, n, blocks + 1).astype(np.intp)
-    starts = edges[:-1]
-    lo = np.minimum.reduceat(e, starts)
-    hi = np.maximum.reduceat(e, starts)
-    # positions of the block minimum and maximum
-    block_id = np.repeat(np.arange(blocks), np.diff(edges))
-    pos = np.arange(n)
-    is_lo = e == lo[block_id]
-    is_hi = e == hi[block_id]
-    first_lo = np.full(blocks, n, np.intp)
-    first_hi = np.full(blocks, n, np.intp)
-    np.minimum.at(first_lo, block_id[is_lo], pos[is_lo])
-    np.minimum.at(first_hi, block_id[is_hi], pos[is_hi])
-    return np.unique(np.concatenate([first_lo, first_hi, [0, n - 1]]))
+    per_chunk = max(1, _THIN_CHUNK // max(1, n // blocks))
+    found = [np.array([0, n - 1])]
+    for b0 in range(0, blocks, per_chunk):
+        b1 = min(blocks, b0 + per_chunk)
+        s, t = edges[b0], edges[b1]
+        seg = e[s:t]
+        starts = edges[b0:b1] - s
+        lo = np.minimum.reduceat(seg, starts)
+        hi = np.maximum.reduceat(seg, starts)
+        block_id = np.repeat(np.arange(b1 - b0), np.diff(edges[b0 : b1 + 1]))
+        pos = np.arange(s, t)
+        for extreme in (lo, hi):
+            hit = seg == extreme[block_id]
+            first = np.full(b1 - b0, n, np.intp)
+            np.minimum.at(first, block_id[hit], pos[hit])
+            found.append(first)
+    return np.unique(np.concatenate(found))
 
 
 def _x_values(index: pd.Index):
-    """(x values, is time, time stamps) for plotting in test order."""
+    """(x at given row positions, is time, time stamps) for plotting in test order.  The x values
+    are computed only where they are drawn, never for all n rows."""
+    def positions(p):
+        return np.asarray(p, dtype=float) + 1.0
+
     if isinstance(index, pd.PeriodIndex):
         stamps = index.to_timestamp()
     elif isinstance(index, pd.DatetimeIndex):
         stamps = index.tz_localize(None) if index.tz is not None else index
     else:
-        return np.arange(1, len(index) + 1, dtype=float), False, None
+        return positions, False, None
     if stamps.hasnans or not stamps.is_monotonic_increasing:
-        return np.arange(1, len(index) + 1, dtype=float), False, None
-    return mdates.date2num(stamps.to_numpy()), True, index
+        return positions, False, None
+    return (lambda p: mdates.date2num(stamps[np.asarray(p, dtype=np.intp)].to_numpy())), True, index
 
 
 def _gap_positions(index: pd.Index) -> np.ndarray:
@@ -234,12 +248,12 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
     """Residuals in the order they were tested, time on the x-axis when there is one, gaps shaded."""
     e = np.asarray(diag.data.resid, float)
     n = e.size
-    x, is_time, stamps = _x_values(diag.data.index)
+    x_at, is_time, stamps = _x_values(diag.data.index)
     gaps = np.empty(0, np.intp)
     if is_time and diag.data.groups is None and diag.order.flags.get("gaps"):
         gaps = _gap_positions(stamps)
     keep = _thin_series(e, max_points)
-    xs, ys = x[keep], e[keep]
+    xs, ys = x_at(keep), e[keep]
     if gaps.size:
         left = np.searchsorted(gaps, keep[:-1], "left")
         right = np.searchsorted(gaps, keep[1:], "left")
@@ -251,10 +265,10 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         ax = fig.add_axes((0.08, 0.2, 0.9, 0.64))
         shown_gaps = gaps
         if gaps.size > 200:
-            widths = x[gaps + 1] - x[gaps]
+            widths = x_at(gaps + 1) - x_at(gaps)
             shown_gaps = np.sort(gaps[np.argsort(widths)[-200:]])
-        for g in shown_gaps:
-            span = ax.axvspan(x[g], x[g + 1], facecolor=PALETTE["orange_light"], hatch="||",
+        for x0, x1 in zip(x_at(shown_gaps), x_at(shown_gaps + 1)):
+            span = ax.axvspan(x0, x1, facecolor=PALETTE["orange_light"], hatch="||",
                               hatchcolor=PALETTE["orange"], edgecolor="none", lw=0, zorder=0)
             span.set_gid("lgs-gap")
         ax.axhline(0, color=PALETTE["muted"], lw=0.7, zorder=1)
@@ -264,7 +278,7 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
             codes = pd.factorize(np.asarray(diag.data.groups))[0]
             bounds = np.flatnonzero(codes[1:] != codes[:-1])
             if 0 < bounds.size <= 60:
-                ax.vlines(x[bounds] + 0.5, 0, 1, transform=ax.get_xaxis_transform(), color=PALETTE["rule"],
+                ax.vlines(x_at(bounds) + 0.5, 0, 1, transform=ax.get_xaxis_transform(), color=PALETTE["rule"],
                           lw=0.8, zorder=0)
         if is_time:
             loc = mdates.AutoDateLocator(minticks=4, maxticks=9)
@@ -275,7 +289,8 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         else:
             ax.set_xlabel("position in test order")
         ax.set_ylabel("residual")
-        ax.set_xlim(x[0], x[-1] if n > 1 else x[0] + 1)
+        first, last = x_at([0, n - 1])
+        ax.set_xlim(first, last if n > 1 else first + 1)
         fig.text(0.08, 0.93, "Residuals in test order", fontsize=10, fontweight="bold", va="center")
     cap = f"Residuals in the order tested ({diag.order.order_used}), n = {n:,}."
     if keep.size < n:

@@ -15,6 +15,7 @@ import numpy as np
 
 from .results import TestResult, _fmt
 from .results import check_alternative as check_alternative  # re-exported: one place for input rules
+from .tall import column_tops, map_blocks, r_factor, row_blocks
 
 
 def _describe(value) -> str:
@@ -41,8 +42,8 @@ def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
         arr = arr.reshape(-1)
     if arr.ndim != 1:
         raise ValueError(f"'{name}' must be 1-D (got shape {arr.shape})")
-    finite = np.isfinite(arr)
-    if not finite.all():
+    finite = None if _surely_finite(arr) else np.isfinite(arr)
+    if finite is not None and not finite.all():
         pos = int(np.flatnonzero(~finite)[0])
         raise ValueError(
             f"'{name}' must be finite (got {arr[pos]} at position {pos}; "
@@ -53,8 +54,10 @@ def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
     return arr
 
 
-def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np.ndarray:
-    """Return ``exog`` as a finite 2-D float array with ``n`` rows (and full column rank)."""
+def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True, scale=None) -> np.ndarray:
+    """Return ``exog`` as a finite 2-D float array with ``n`` rows (and full column rank, judged on
+    the columns divided by ``scale`` when given).  Never copies a float array, and reads it in row
+    blocks (no n x k mask or copy for the checks)."""
     arr = _float_array(exog, name, "a 2-D array of floats")
     if arr.ndim == 1:
         arr = arr[:, None]
@@ -64,19 +67,77 @@ def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True) -> np
         raise ValueError(f"'{name}' must have {n} rows to match the residuals (got {arr.shape[0]})")
     if arr.shape[1] < 1:
         raise ValueError(f"'{name}' must have at least one column (got shape {arr.shape})")
-    finite = np.isfinite(arr)
-    if not finite.all():
-        row, col = (int(i[0]) for i in np.nonzero(~finite))
+    bad = _first_nonfinite(arr)
+    if bad is not None:
+        row, col = bad
         raise ValueError(
             f"'{name}' must be finite (got {arr[row, col]} at row {row}, column {col})"
         )
-    # the rank of columns of comparable size: a constant beside a regressor near 1e200 is not 'dependent'
-    rank = np.linalg.matrix_rank(unit_columns(arr)) if full_rank else arr.shape[1]
-    if rank < arr.shape[1]:
-        raise ValueError(
-            f"'{name}' must have full column rank {arr.shape[1]} (got rank {rank})"
-        )
+    if full_rank:
+        _check_rank(design_rank(arr, scale), arr.shape[1], name)
     return arr
+
+
+def _check_rank(rank: int, k: int, name: str) -> None:
+    if rank < k:
+        raise ValueError(f"'{name}' must have full column rank {k} (got rank {rank})")
+
+
+def _rank_of_r(R: np.ndarray, n: int) -> int:
+    """The rank of an n x k matrix from its R factor, as numpy's ``matrix_rank`` counts it
+    (singular values above s_max max(n, k) eps)."""
+    s = np.linalg.svd(R, compute_uv=False)
+    return int(np.count_nonzero(s > s.max() * max(n, R.shape[1]) * np.finfo(float).eps)) if s.size else 0
+
+
+def check_rank_of_r(R: np.ndarray, n: int, name: str = "exog") -> None:
+    """The full-rank check of :func:`as_design` for the n x k matrix whose R factor is ``R``."""
+    _check_rank(_rank_of_r(R, n), R.shape[1], name)
+
+
+def _surely_finite(arr: np.ndarray) -> bool:
+    """True when every value of ``arr`` is finite, shown by one cheap pass: a sum is finite only
+    if every term is (a NaN or infinity anywhere makes it NaN or infinite).  False means "look
+    closer" (a sum of finite values can still overflow)."""
+    with np.errstate(over="ignore", invalid="ignore"):
+        return bool(np.isfinite(np.sum(arr)))
+
+
+def finite_rows(X: np.ndarray) -> np.ndarray:
+    """Boolean mask of the rows of a 2-D array whose values are all finite (read in row blocks)."""
+    if _surely_finite(X):
+        return np.ones(X.shape[0], dtype=bool)
+    out = np.empty(X.shape[0], dtype=bool)
+
+    def one(a, b):
+        out[a:b] = np.isfinite(X[a:b]).all(axis=1)
+
+    map_blocks(X.shape[0], one)
+    return out
+
+
+def _first_nonfinite(arr: np.ndarray):
+    """(row, column) of the first value of a 2-D array that is not finite, or None (read in row
+    blocks, so no n x k mask is made)."""
+    if _surely_finite(arr):
+        return None
+    for a, b in row_blocks(arr.shape[0]):
+        finite = np.isfinite(arr[a:b])
+        if not finite.all():
+            row, col = (int(i[0]) for i in np.nonzero(~finite))
+            return a + row, col
+    return None
+
+
+def design_rank(X: np.ndarray, scale=None) -> int:
+    """The rank of an n x k matrix (its columns divided by ``scale`` when given) as numpy's
+    ``matrix_rank`` counts it (singular values above s_max max(n, k) eps), from the singular
+    values of its R factor (read in row blocks, :mod:`lagsight.stats.tall`)."""
+    n, k = X.shape
+    if n == 0 or k == 0:
+        return 0
+    R = r_factor(n, k, (lambda a, b: X[a:b]) if scale is None else (lambda a, b: X[a:b] / scale))
+    return _rank_of_r(R, n)
 
 
 def check_int(value, name: str, *, minimum: int) -> int:
@@ -155,34 +216,54 @@ def check_names(names, k: int, name: str = "names") -> tuple:
 
 
 def constant_columns(exog: np.ndarray) -> np.ndarray:
-    """Boolean mask of columns that are constant and non-zero (a literal constant column)."""
+    """Boolean mask of columns that are constant and non-zero (a literal constant column).
+
+    Read in row blocks, and a column stops being read at its first value unlike the first row's,
+    so a design with one constant column costs about one pass over that column."""
+    exog = np.asarray(exog)
     if exog.shape[0] == 0:
         return np.zeros(exog.shape[1], bool)
-    return (np.ptp(exog, axis=0) == 0) & (exog[0] != 0)
+    first = exog[0]
+    alive = np.flatnonzero(first != 0)
+    for a, b in row_blocks(exog.shape[0]):
+        if not alive.size:
+            break
+        block = exog[a:b, alive] if alive.size < exog.shape[1] else exog[a:b]
+        alive = alive[np.all(block == first[alive], axis=0)]
+    out = np.zeros(exog.shape[1], dtype=bool)
+    out[alive] = True
+    return out
 
 
-#: rows per block in the blocked QR below (about 11 MB per block at k = 10)
-_QR_BLOCK = 131072
+#: relative distance of the ones vector from the column space below which the columns span a
+#: constant: far above rounding of an exact span (about 1e-15), far below data that merely varies little
+CONSTANT_GAP = 1e-9
 
 
-def _span_gap(X: np.ndarray, v: np.ndarray) -> float:
-    """Distance from ``v`` to the column space of ``X``, relative to ``||v||``.
-
-    The last diagonal entry of the R factor of [X, v] is the norm of the part of v
-    orthogonal to the columns before it.  R is accumulated block by block (a tall-skinny
-    QR), so memory is one block plus (k+1)^2, never n x k beyond the input.
-    """
+def _span_r(X: np.ndarray, top: np.ndarray, extra=()) -> np.ndarray:
+    """The R factor of [X / top, 1, *extra] (columns of ``extra`` are vectors), accumulated block by
+    block (:func:`lagsight.stats.tall.r_factor`: memory one block plus (k+2)^2, never n x k beyond
+    the input), the first pass's Gram matrix from products of the whole arrays."""
     n, k = X.shape
-    R = np.empty((0, k + 1))
-    for start in range(0, n, _QR_BLOCK):
-        stop = min(n, start + _QR_BLOCK)
-        block = np.empty((stop - start, k + 1))
-        block[:, :k] = X[start:stop]
-        block[:, k] = v[start:stop]
-        R = np.linalg.qr(np.vstack([R, block]), mode="r")
-        R = R[: k + 1]
-    norm_v = float(np.linalg.norm(v))
-    return abs(float(R[-1, -1])) / norm_v if norm_v > 0 else 0.0
+    parts = [np.broadcast_to(np.float64(1.0), (n,)), *extra]
+    m = k + len(parts)
+    with np.errstate(over="ignore", invalid="ignore"):
+        G = np.empty((m, m))
+        G[:k, :k] = (X.T @ X) / np.outer(top, top)
+        G[:k, k] = G[k, :k] = X.sum(axis=0) / top
+        G[k, k] = float(n)
+        for i, v in enumerate(extra, start=k + 1):
+            G[:k, i] = G[i, :k] = (X.T @ v) / top
+            G[k, i] = G[i, k] = float(v.sum())
+            for j, w in enumerate(extra[: i - k], start=k + 1):
+                G[i, j] = G[j, i] = float(v @ w)
+    return r_factor(n, m, lambda a, b: np.column_stack([X[a:b] / top] + [p[a:b] for p in parts]), gram=G)
+
+
+def _span_gap(R: np.ndarray, k: int, n: int) -> float:
+    """The distance from the ones vector (column k of the matrix R factors) to the columns before
+    it, relative to its length sqrt(n): the last diagonal entry of R for those columns."""
+    return abs(float(R[k, k])) / np.sqrt(n)
 
 
 def has_constant(exog) -> bool:
@@ -191,27 +272,41 @@ def has_constant(exog) -> bool:
     This is the one constant detector: a literal column of ones (or any non-zero
     constant) is found in O(n k); otherwise columns that add up to a constant (a full
     set of dummies, say) are found by the distance from the ones vector to the column
-    space, with the columns scaled to unit size first.  The tolerance 1e-9 (relative) is
-    far above rounding of an exact span (about 1e-15) and far below any data that merely
-    varies little.  Rows with a non-finite entry are left out.
+    space, with the columns scaled to unit size first, below :data:`CONSTANT_GAP`.
+    Rows with a non-finite entry are left out.
     """
     X = np.asarray(exog, dtype=float)
     if X.ndim == 1:
         X = X[:, None]
     if X.ndim != 2 or X.shape[1] == 0 or X.shape[0] == 0:
         return False
-    finite = np.isfinite(X).all(axis=1)
-    if not finite.all():
-        X = X[finite]
+    if _first_nonfinite(X) is not None:
+        X = X[finite_rows(X)]
         if X.shape[0] == 0:
             return False
     if constant_columns(X).any():
         return True
-    Xs, ones = unit_columns(X), np.ones(X.shape[0])
     if X.shape[0] <= X.shape[1] + 1:  # too few rows for the blocked R: a tiny least-squares problem
+        Xs, ones = unit_columns(X), np.ones(X.shape[0])
         r = ones - Xs @ np.linalg.lstsq(Xs, ones, rcond=None)[0]
-        return bool(np.linalg.norm(r) < 1e-9 * np.sqrt(X.shape[0]))
-    return _span_gap(Xs, ones) < 1e-9
+        return bool(np.linalg.norm(r) < CONSTANT_GAP * np.sqrt(X.shape[0]))
+    top = column_tops(X)
+    top = np.where(top > 0, top, 1.0)
+    return bool(_span_gap(_span_r(X, top), X.shape[1], X.shape[0]) < CONSTANT_GAP)
+
+
+def has_constant_sharing_r(X: np.ndarray, v: np.ndarray):
+    """:func:`has_constant` for a finite X with more than k + 1 rows, and the R factor its span
+    check computed, of [X / top, 1, v] (the vector ``v`` after the ones): a fit of v on X and a
+    constant then needs no pass of its own.  Returns (decision, R or None, top); R is None when a
+    literal constant column decided."""
+    n, k = X.shape
+    if k == 0 or n <= k + 1 or constant_columns(X).any():
+        return has_constant(X), None, None
+    top = column_tops(X)
+    top = np.where(top > 0, top, 1.0)
+    R = _span_r(X, top, (v,))
+    return bool(_span_gap(R, k, n) < CONSTANT_GAP), R, top
 
 
 def k_prime(rank: int, has_const: bool) -> int:
@@ -242,7 +337,7 @@ def scaled_columns(X) -> tuple[np.ndarray, np.ndarray]:
     """(each column of ``X`` divided by its largest absolute value, those values): the same column
     space, comparable sizes.  No copy when every column is already of unit size (or zero)."""
     X = np.asarray(X, float)
-    top = np.max(np.abs(X), axis=0) if X.size else np.ones(X.shape[1:])
+    top = column_tops(X) if X.size else np.ones(X.shape[1:])
     top = np.where(top > 0, top, 1.0)
     if np.all(top == 1.0):
         return X, top

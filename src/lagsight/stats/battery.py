@@ -14,11 +14,12 @@ import numpy as np
 import pandas as pd
 from scipy import linalg, stats
 from statsmodels.regression.linear_model import OLS
-from statsmodels.tsa.stattools import acf
 
 from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
-                      constant_columns, has_constant, readonly, scaled, scaled_columns)
+                      constant_columns, has_constant, readonly, scaled)
+from .correlogram import sample_acf
 from .results import TestResult, check_alternative, tail_pvalue
+from .tall import column_tops, r_factor, solve_r
 
 __all__ = [
     "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "DurbinAlternativeResult",
@@ -40,11 +41,13 @@ _unit = scaled  # every statistic here is scale-free: values on unit scale, and 
 
 
 def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndarray]:
-    """The design with columns of unit size (regressors of very different sizes on one footing for the
-    QR and rank checks), and the factors taken out."""
-    X, top = scaled_columns(as_design(exog, n, full_rank=False))
+    """The design (never copied) and the factors that bring its columns to unit size: regressors of
+    very different sizes are put on one footing, block by block, for the QR and the rank check."""
+    X = as_design(exog, n, full_rank=False)
+    top = column_tops(X)
+    top = np.where(top > 0, top, 1.0)
     if full_rank:
-        X = as_design(X, n)  # the rank check, on columns of comparable size
+        as_design(X, n, scale=top)  # the rank check, on columns of comparable size
     return X, top
 
 
@@ -53,6 +56,67 @@ def _check_varies(e: np.ndarray) -> None:
     if not np.any(e - e.mean()):
         raise ValueError(f"'resid' must vary (got {e.shape[0]} equal values): the autocorrelations of a "
                          "constant are undefined")
+
+
+def _aux_rows(X, top, e, lags, *, start=0, constant=False):
+    """``block(a, b)`` for rows t = start + a .. start + b - 1 of the auxiliary regression
+    [X_t / top, (1), e_{t-l} for l in lags, e_t], with e_{t-l} = 0 before the sample.  Read a
+    block at a time, so the n x (k + p) matrix is never formed."""
+    lags = list(lags)
+    extra = (1 if constant else 0) + len(lags)
+
+    def block(a, b):
+        a, b = a + start, b + start
+        B = np.zeros((b - a, X.shape[1] + extra + 1))
+        np.divide(X[a:b], top, out=B[:, : X.shape[1]])
+        col = X.shape[1]
+        if constant:
+            B[:, col] = 1.0
+            col += 1
+        for lag in lags:
+            lo = max(a, lag)
+            if lo < b:
+                B[lo - a :, col] = e[lo - lag : b - lag]
+            col += 1
+        B[:, col] = e[a:b]
+        return B
+
+    return block
+
+
+def _aux_precondition(X, top, e, lags, *, start=0, constant=False):
+    """An approximate R factor of the auxiliary matrix of :func:`_aux_rows`: the exact one of the
+    design's columns and one of the residuals' columns (from their autocovariances), the cross
+    products left out.  They are small (the residuals are orthogonal to the design), so the
+    auxiliary matrix times its inverse is nearly orthonormal and one pass of products gives the
+    R factor (:func:`lagsight.stats.tall.r_factor` checks, and makes two passes otherwise)."""
+    n = e.shape[0]
+    Xs = X[start:]
+    with np.errstate(over="ignore", invalid="ignore"):
+        GX = (Xs.T @ Xs) / np.outer(top, top)
+        if constant:
+            col = Xs.sum(axis=0) / top
+            GX = np.block([[GX, col[:, None]], [col[None, :], np.array([[float(n - start)]])]])
+    shifts = list(lags) + [0]
+    c = {d: float(e[d:] @ e[: n - d]) for d in {abs(i - j) for i in shifts for j in shifts}}
+    GE = np.array([[c[abs(i - j)] for j in shifts] for i in shifts])
+    try:
+        return linalg.block_diag(np.linalg.cholesky(GX).T, np.linalg.cholesky(GE).T)
+    except np.linalg.LinAlgError:
+        return None
+
+
+def _aux_fit(rows: int, block, ncols: int, precondition=None):
+    """(least-squares solution, R factor) of the last of ``ncols + 1`` columns on the others."""
+    R = r_factor(rows, ncols + 1, block, precondition=precondition)
+    return solve_r(R, rows), R
+
+
+def _wald_f(sol, idx) -> float:
+    """F statistic of the joint test that the coefficients ``idx`` are zero (statsmodels' f_test)."""
+    b = sol.params[idx]
+    V = sol.cov[np.ix_(idx, idx)] * sol.scale
+    return float(b @ np.linalg.pinv(V) @ b) / len(idx)
 
 
 # --------------------------------------------------------------------------- BG
@@ -66,29 +130,6 @@ class BreuschGodfreyResult(TestResult):
     max_lag: int = 0
 
 
-def _bg_by_qr(e, aux, order):
-    """LM and F of the auxiliary regression from one Householder QR (full rank only).
-
-    The lag columns come last, so the first columns of Q span the base design and
-    RSS_restricted - RSS_full = ||Q_lags' e||^2 exactly.  Same numbers as
-    statsmodels' OLS + f_test, several times faster at large n.
-    """
-    n, k_aux = aux.shape
-    coef, R = linalg.qr_multiply(aux, e, mode="right")  # Q'e without forming Q
-    diag = np.abs(np.diag(R))
-    if diag.min() <= 1e-10 * diag.max():
-        return None
-    rss = max(float(e @ e - coef @ coef), 0.0)
-    dev = e - e.mean()
-    lm = float(n * (1.0 - rss / float(dev @ dev)))
-    df_denom = float(n - k_aux)
-    gain = float(coef[k_aux - order:] @ coef[k_aux - order:])
-    if rss <= 1e-13 * float(e @ e):  # the lags and the design explain the residuals exactly
-        return lm, math.inf, 0.0, df_denom
-    f_stat = (gain / order) / (rss / df_denom)
-    return lm, float(f_stat), float(stats.f.sf(f_stat, order, df_denom)), df_denom
-
-
 def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     """Breusch-Godfrey test for autocorrelation up to lag ``max_lag``.
 
@@ -96,32 +137,44 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     uses zeros for pre-sample residuals (all n rows kept) and adds a constant
     when ``exog`` has none, as statsmodels' ``acorr_breusch_godfrey`` does.
     LM = n R^2 ~ chi2(max_lag); F = joint test of the lag coefficients.
+
+    The lag columns come last, so with the R factor of [aux, e] (read in row blocks,
+    :mod:`lagsight.stats.tall`) RSS_restricted - RSS_full is the sum of squares of the last
+    ``max_lag`` entries of Q'e: the same numbers as statsmodels' OLS + f_test.
     """
     e, _ = _unit(as_vector(resid, "resid", min_len=3))
     _check_varies(e)
     n = e.shape[0]
     order = check_int(max_lag, "max_lag", minimum=1)
-    X, _ = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
-    lagged = np.zeros((n, order))
-    for j in range(1, order + 1):
-        lagged[j:, j - 1] = e[:-j]
-    parts = [X]
+    X, top = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
     notes = [f"Pre-sample residuals set to zero; all {n} observations used."]
-    if not has_constant(X):
-        parts.append(np.ones((n, 1)))
+    constant = not has_constant(X)
+    if constant:
         notes.append("A constant was added to the auxiliary regression (exog has none).")
-    parts.append(lagged)
-    aux = np.column_stack(parts)
-    k_aux = aux.shape[1]
+    k_aux = X.shape[1] + int(constant) + order
     if n <= k_aux:
         raise ValueError(
             f"'max_lag' is too large for n={n}: need n > {k_aux - order} regressors + max_lag "
             f"(got {order})"
         )
-    fast = _bg_by_qr(e, aux, order)
-    if fast is not None:
-        lm, f_stat, f_p, df_denom = fast
+    lags = range(1, order + 1)
+    block = _aux_rows(X, top, e, lags, constant=constant)
+    R = r_factor(n, k_aux + 1, block, precondition=_aux_precondition(X, top, e, lags, constant=constant))
+    diag = np.diag(R)[:k_aux]
+    if diag.min() > 1e-10 * diag.max():
+        coef = R[:k_aux, k_aux]
+        rss = float(R[k_aux, k_aux] ** 2)
+        dev = e - e.mean()
+        lm = float(n * (1.0 - rss / float(dev @ dev)))
+        df_denom = float(n - k_aux)
+        gain = float(coef[k_aux - order:] @ coef[k_aux - order:])
+        if rss <= 1e-13 * float(e @ e):  # the lags and the design explain the residuals exactly
+            f_stat, f_p = math.inf, 0.0
+        else:
+            f_stat = (gain / order) / (rss / df_denom)
+            f_p = float(stats.f.sf(f_stat, order, df_denom))
     else:  # rank-deficient auxiliary design: statsmodels' pseudo-inverse handles it
+        aux = block(0, n)[:, :k_aux]
         fit = OLS(e, aux).fit()
         lm = float(n * fit.rsquared)
         ftest = fit.f_test(np.eye(order, k_aux, k_aux - order))
@@ -135,7 +188,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
         method="LM = n*R^2 of the auxiliary regression, chi-square",
         name="Breusch-Godfrey",
         notes=tuple(notes),
-        f_statistic=f_stat,
+        f_statistic=float(f_stat),
         f_pvalue=f_p,
         f_df=(float(order), df_denom),
         max_lag=order,
@@ -187,9 +240,8 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
                                    for v in raw}))
     if lag_arr.max() >= n:
         raise ValueError(f"'max_lag' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
-    # statsmodels' acf with FFT (acorr_ljungbox itself correlates in O(n^2));
     # Q_LB = n(n+2) sum r_k^2/(n-k), Q_BP = n sum r_k^2 (Ljung & Box 1978; Box & Pierce 1970)
-    r = acf(e, nlags=int(lag_arr.max()), fft=True)[1:]
+    r = sample_acf(e, int(lag_arr.max()))
     k = np.arange(1, r.size + 1)
     lb_all = n * (n + 2.0) * np.cumsum(r * r / (n - k))
     bp_all = n * np.cumsum(r * r)
@@ -243,8 +295,14 @@ def detect_lagged_response(exog, endog, names=None):
     target = y[:-1]
     scale = max(float(np.max(np.abs(target))), np.finfo(float).tiny)
     const = constant_columns(X)
-    hits = [j for j in range(X.shape[1])
-            if not const[j] and np.max(np.abs(X[1:, j] - target)) <= 1e-10 * scale]
+    head = min(64, target.size)  # most columns fail on the first rows already: no full pass for them
+
+    def matches(j):
+        tol = 1e-10 * scale
+        return (np.max(np.abs(X[1 : head + 1, j] - target[:head])) <= tol
+                and np.max(np.abs(X[1:, j] - target)) <= tol)
+
+    hits = [j for j in range(X.shape[1]) if not const[j] and matches(j)]
     if not hits:
         return None
     for j in hits:
@@ -269,15 +327,18 @@ class DurbinHResult(TestResult):
     large_means_positive: ClassVar[bool] = True
 
 
-def _ols_checked(y, X, e):
-    fit = OLS(y, X).fit()
+def _ols_checked(y, X, top, e):
+    """The OLS fit of y on the columns X / top (read in row blocks), after checking that ``e`` are
+    its residuals."""
+    n = y.shape[0]
+    sol = solve_r(r_factor(n, X.shape[1] + 1, lambda a, b: np.column_stack([X[a:b] / top, y[a:b]])), n)
     scale = max(float(np.max(np.abs(y))), 1.0)
-    gap = float(np.max(np.abs(fit.resid - e)))
+    gap = float(np.max(np.abs((y - X @ (sol.params / top)) - e)))
     if gap > 1e-6 * scale:
         raise ValueError(
             f"'resid' must be the OLS residuals of endog on exog (max difference {gap:.3g})"
         )
-    return fit
+    return sol
 
 
 def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> DurbinHResult:
@@ -306,7 +367,7 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
         raise ValueError(f"'exog' must have fewer columns than observations n={n} (got {k})")
     notes = []
     if lag_column is None:
-        lag_column = detect_lagged_response(X * col_scale, y)
+        lag_column = detect_lagged_response(X, y)
         if lag_column is None:
             raise ValueError(
                 "'lag_column' must be given: no column of 'exog' equals 'endog' shifted by one (got None)"
@@ -317,7 +378,7 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
         raise ValueError(f"'lag_column' must be < {k}, the number of columns of 'exog' (got {lag_column})")
     y, y_scale = _unit(y)
     e = e / y_scale  # the residuals of the scaled response
-    fit = _ols_checked(y, X, e)
+    fit = _ols_checked(y, X, col_scale, e)
     e, _ = _unit(e)
     d = float(np.sum(np.diff(e) ** 2) / np.dot(e, e))
     rho = 1.0 - d / 2.0
@@ -370,16 +431,17 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
             f"'alternative' must be 'two-sided' when max_lag > 1 (got {alternative!r})"
         )
     e, _ = _unit(e)
-    X, _ = _unit_columns(exog, n, full_rank=True)
+    X, top = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     m = n - order
     if m <= k + order:
         raise ValueError(
             f"'max_lag' is too large for n={n} with {k} regressors: need n - max_lag > k + max_lag (got {order})"
         )
-    lagged = np.column_stack([e[order - j: n - j] for j in range(1, order + 1)])
-    aux = np.column_stack([X[order:], lagged])
-    fit = OLS(e[order:], aux).fit()
+    # rows t = order .. n-1 of [X_t, e_{t-1}, ..., e_{t-order}, e_t], a block at a time
+    lags = range(1, order + 1)
+    fit, _ = _aux_fit(m, _aux_rows(X, top, e, lags, start=order), k + order,
+                      _aux_precondition(X, top, e, lags, start=order))
     notes = (
         f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; "
         f"{m} rows used.",
@@ -387,7 +449,7 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
         "lagged response), homoskedastic errors, and no constant added beyond those in exog.",
     )
     if order == 1:
-        t = float(fit.tvalues[-1])
+        t = float(fit.params[-1] / fit.bse[-1])
         df = float(fit.df_resid)
         lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
         return DurbinAlternativeResult(
@@ -395,10 +457,10 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
             df=(df,), method="t-test of the e_{t-1} coefficient, Student t",
             name="Durbin's alternative", notes=notes, lower_tail=lower, upper_tail=upper,
         )
-    ft = fit.f_test(np.eye(order, aux.shape[1], k))
+    f_stat = _wald_f(fit, np.arange(k, k + order))
     return TestResult(
-        statistic=float(np.squeeze(ft.fvalue)), pvalue=float(np.squeeze(ft.pvalue)),
-        alternative="two-sided", df=(float(order), float(ft.df_denom)),
+        statistic=f_stat, pvalue=float(stats.f.sf(f_stat, order, fit.df_resid)),
+        alternative="two-sided", df=(float(order), float(fit.df_resid)),
         method=f"F-test of the {order} lagged-residual coefficients",
         name="Durbin's alternative", notes=notes,
     )
@@ -419,15 +481,16 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
     n = e.shape[0]
     period = check_int(period, "period", minimum=2)
     e, _ = _unit(e)
-    X, _ = _unit_columns(exog, n, full_rank=True)
+    X, top = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     m = n - period
     if m <= k + 2:
         raise ValueError(f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 "
                          f"(got period={period})")
-    aux = np.column_stack([X[period:], e[period - 1: n - 1], e[: n - period]])
-    fit = OLS(e[period:], aux).fit()
-    t = float(fit.tvalues[-1])
+    # rows t = s .. n-1 of [X_t, e_{t-1}, e_{t-s}, e_t], a block at a time
+    fit, _ = _aux_fit(m, _aux_rows(X, top, e, (1, period), start=period), k + 2,
+                      _aux_precondition(X, top, e, (1, period), start=period))
+    t = float(fit.params[-1] / fit.bse[-1])
     df = float(fit.df_resid)
     lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
     notes = (

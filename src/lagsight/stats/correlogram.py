@@ -1,8 +1,8 @@
 """Residual autocorrelations (ACF), partial autocorrelations (PACF) and their bands.
 
-Memory stays linear in n: the ACF uses statsmodels' FFT route for long series
-and the PACF is the Yule-Walker ('ywadjusted') solution built from sums of
-lagged products.
+Memory stays linear in n: :func:`sample_acf` takes the lagged products directly
+(statsmodels' FFT route only for many lags of a long series) and the PACF is the
+Yule-Walker ('ywadjusted') solution built from the same autocorrelations.
 """
 from __future__ import annotations
 
@@ -16,12 +16,29 @@ from statsmodels.tsa.stattools import pacf as _sm_pacf
 
 from ._arrays import as_vector, check_alpha, check_int, readonly, unit_scale
 
-__all__ = ["Correlogram", "LagPairs", "correlogram", "lag_pairs", "PACF_METHOD", "FFT_MIN_N"]
+__all__ = ["Correlogram", "LagPairs", "correlogram", "lag_pairs", "sample_acf", "PACF_METHOD", "FFT_MIN_N"]
 
 #: statsmodels PACF method used: Yule-Walker with n-k denominators.
 PACF_METHOD = "ywadjusted"
-#: from this many observations on, the ACF is computed by FFT.
+#: from this many observations on, the PACF comes from the autocorrelations by Levinson-Durbin.
 FFT_MIN_N = 1000
+#: more lags than this (of a series of at least FFT_MIN_N values) are computed by FFT
+DIRECT_MAX_LAGS = 200
+
+
+def sample_acf(resid, nlags: int) -> np.ndarray:
+    """Autocorrelations r_1 .. r_nlags of the demeaned series, denominator n (statsmodels'
+    ``acf``, adjusted=False).  The lagged products are summed directly (as statsmodels does
+    without FFT): O(n nlags) time and no memory beyond one copy of the series, where the FFT
+    route would need several complex arrays of twice its length.  Many lags of a long series
+    (more than :data:`DIRECT_MAX_LAGS`) go through statsmodels' FFT route."""
+    e = np.asarray(resid, dtype=float)
+    n = e.shape[0]
+    if nlags > DIRECT_MAX_LAGS and n >= FFT_MIN_N:
+        return _sm_acf(e, nlags=nlags, fft=True)[1:]
+    x = e - e.mean()
+    c0 = float(x @ x)
+    return np.array([float(x[h:] @ x[: n - h]) for h in range(1, nlags + 1)]) / c0
 
 
 @dataclass(frozen=True, eq=False)
@@ -74,18 +91,17 @@ class Correlogram:
         return "\n".join(lines)
 
 
-def _pacf_yw_adjusted(e: np.ndarray, nlags: int) -> np.ndarray:
-    """statsmodels' 'ywadjusted' PACF, by Levinson-Durbin on FFT autocovariances.
+def _pacf_yw_adjusted(r: np.ndarray, n: int) -> np.ndarray:
+    """statsmodels' 'ywadjusted' PACF from the autocorrelations r_1 .. r_nlags, by Levinson-Durbin.
 
     Yule-Walker with denominators n - j solves one Toeplitz system per order
-    from the same autocovariances; the Levinson-Durbin recursion gives the same
-    last coefficients in O(nlags^2) after one O(n log n) FFT.
+    from the autocovariances c_j / (n - j) (proportional to r_j n / (n - j), and the
+    recursion does not see a common factor); Levinson-Durbin gives the same
+    last coefficients in O(nlags^2).
     """
-    x = e - e.mean()
-    n = x.size
-    size = 1 << int(np.ceil(np.log2(2 * n - 1)))
-    spec = np.fft.rfft(x, size)
-    acov = np.fft.irfft(spec * np.conj(spec), size)[: nlags + 1] / (n - np.arange(nlags + 1))
+    nlags = r.size
+    lags = np.arange(nlags + 1)
+    acov = np.concatenate(([1.0], r)) * n / (n - lags)
     out = np.empty(nlags)
     phi = np.zeros(0)
     v = acov[0]
@@ -116,8 +132,8 @@ def correlogram(resid, *, max_lag: int, alpha: float = 0.05) -> Correlogram:
     alpha = check_alpha(alpha)
     if np.ptp(e) == 0:
         raise ValueError(f"'resid' must not be constant (got all values equal to {e[0]})")
-    r = _sm_acf(e, nlags=nlags, fft=n >= FFT_MIN_N)[1:]
-    p = _pacf_yw_adjusted(e, nlags) if n >= FFT_MIN_N else _sm_pacf(e, nlags=nlags, method=PACF_METHOD)[1:]
+    r = sample_acf(e, nlags)
+    p = _pacf_yw_adjusted(r, n) if n >= FFT_MIN_N else _sm_pacf(e, nlags=nlags, method=PACF_METHOD)[1:]
     z = float(stats.norm.ppf(1.0 - alpha / 2.0))
     cum = np.concatenate(([0.0], np.cumsum(r[:-1] ** 2)))  # sum_{j=1}^{h-1} r_j^2
     bartlett = z * np.sqrt((1.0 + 2.0 * cum) / n)

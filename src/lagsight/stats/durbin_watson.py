@@ -9,6 +9,8 @@ chain for s > 1), which is what makes the exact computation linear in n.
 from __future__ import annotations
 
 import math
+import os
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -21,6 +23,7 @@ from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
 from .spectrum import difference_spectrum, form_moments, solve_quantile
 from .tails import TailResult, tail_probability
+from .tall import orthonormal_basis_t
 
 __all__ = [
     "DurbinWatsonDistribution",
@@ -82,34 +85,23 @@ def _dw_parts(resid, lag: int) -> tuple[float, float, float]:
     return num / den, num * scale2, den * scale2
 
 
-def _orthonormal_basis(X: np.ndarray):
-    """Orthonormal basis of the column space of X, transposed (rank x n), and the rank.
+#: from this many rows on, the basis is built block by block (Cholesky QR2, lagsight.stats.tall)
+BLOCKED_BASIS_MIN_N = 20_000
 
-    Tall designs use two passes of Cholesky QR on column-scaled X (a few
-    GEMMs, much faster than Householder for n >> k); when the scaled Gram
-    matrix is ill conditioned or rank deficient, Householder QR with an SVD of
-    R decides the rank.
+
+def _orthonormal_basis(X: np.ndarray, order=None):
+    """Orthonormal basis of the column space of X, transposed (rank x n), the rank, and for tall
+    designs the matrix T with Q' = T X' (None for short ones).
+
+    ``order`` (a permutation of the rows) arranges the columns of the result: column j belongs
+    to row order[j].  Tall designs (n >= :data:`BLOCKED_BASIS_MIN_N`) use Cholesky QR2 on
+    column-scaled X, read in row blocks (:func:`lagsight.stats.tall.orthonormal_basis_t`: a few
+    GEMMs, the result the only n-sized array); short ones use Householder QR with an SVD of R,
+    which decides the rank.
     """
     n, k = X.shape
-    if n >= 20_000:
-        with np.errstate(over="ignore", under="ignore", invalid="ignore"):
-            G = X.T @ X
-        diag = np.diag(G)
-        if not (np.all(np.isfinite(G)) and np.all((diag == 0) | (diag > 1e-280))):
-            # data of extreme magnitude (1e200, 1e-200): the basis does not depend on column
-            # scale, so scale the columns and form the Gram matrix again (copying X only then)
-            X = unit_columns(X)
-            G = X.T @ X
-        scale = np.sqrt(np.diag(G))
-        if np.all(scale > 0):
-            Gs = G / np.outer(scale, scale)
-            ev = np.linalg.eigvalsh(Gs)
-            if ev[0] > 1e-10 * ev[-1]:
-                L = np.linalg.cholesky(Gs)
-                Qt = (np.linalg.inv(L) / scale[None, :]) @ X.T
-                # second pass restores orthogonality to rounding
-                L2 = np.linalg.cholesky(Qt @ Qt.T)
-                return np.linalg.inv(L2) @ Qt, k
+    if n >= BLOCKED_BASIS_MIN_N:
+        return orthonormal_basis_t(X, order)
     # columns of comparable size: the rank decided below is the column space's, not the units' (a
     # constant of 1 beside a regressor near 1e200 is not negligible); the basis is the same
     Q, R = np.linalg.qr(unit_columns(X), mode="reduced")
@@ -118,7 +110,29 @@ def _orthonormal_basis(X: np.ndarray):
     rank = int(np.count_nonzero(s > tol))
     if rank < k:
         Q = Q @ U[:, :rank]
-    return np.ascontiguousarray(Q.T), rank
+    if order is not None:
+        Q = Q[np.asarray(order)]
+    return np.ascontiguousarray(Q.T), rank, None
+
+
+#: rows at least this long are transformed one per thread (see :func:`_dct`)
+_LONG_DCT = 1 << 16
+
+
+def _dct(a: np.ndarray, overwrite: bool) -> np.ndarray:
+    """Orthonormal DCT-II along the last axis.  Long rows go one per thread: transforming
+    several at once makes the FFT library buffer them all (0.75 GB for 10 rows of 10^7,
+    measured), one at a time it needs one row's buffer per thread."""
+    if a.ndim == 1 or a.shape[-1] < _LONG_DCT or a.shape[0] == 1:
+        return fft.dct(a, type=2, norm="ortho", axis=-1, workers=-1, overwrite_x=overwrite)
+    out = a if overwrite else np.empty_like(a)
+
+    def one(i):
+        out[i] = fft.dct(a[i], type=2, norm="ortho", overwrite_x=overwrite)
+
+    with ThreadPoolExecutor(max_workers=min(a.shape[0], os.cpu_count() or 1)) as pool:
+        list(pool.map(one, range(a.shape[0])))
+    return out
 
 
 # ----------------------------------------------------------------------------
@@ -145,33 +159,28 @@ class DurbinWatsonDistribution:
         self.n = n
         self.lag = _check_lag(lag, n)
         self.notes: list[str] = []
+        nu, chains = difference_spectrum(n, self.lag, blocks)
+        single = blocks is None and self.lag == 1
+        # the chains' rows side by side; W = V'Q is then the DCT of each chain's slice of Q',
+        # taken in place, so Q' and W never exist at the same time
+        self._chains = None if single else chains
+        self._basis_map = None
         if X.shape[1]:
-            Qt, rank = _orthonormal_basis(X)
+            Wt, rank, self._basis_map = _orthonormal_basis(X, None if single else np.concatenate(chains))
             if rank < X.shape[1]:
                 self.notes.append(
                     f"the design has rank {rank} < {X.shape[1]} columns; "
                     "it was reduced to its column space"
                 )
         else:
-            Qt, rank = np.empty((0, n)), 0
+            Wt, rank = None, 0
         self.rank = rank
         self.has_constant = has_constant(X)
         if n - rank < 2:
             raise ValueError(
                 f"need more residuals than the design's rank + 1 (n = {n}, rank = {rank})"
             )
-        nu, chains = difference_spectrum(n, self.lag, blocks)
-        single = blocks is None and self.lag == 1
-        if rank:
-            Wt = np.empty((rank, n))
-            pos = 0
-            for rows in chains:
-                src = Qt if single else Qt[:, rows]
-                Wt[:, pos : pos + rows.size] = fft.dct(src, type=2, norm="ortho", axis=1, workers=-1)
-                pos += rows.size
-        else:
-            Wt = None
-        self._basis_t = Qt
+        Wt = self._chain_dct(Wt, overwrite=True) if rank else None
         self.form = SpectralForm(nu, Wt)
         self.df = n - rank
 
@@ -179,6 +188,32 @@ class DurbinWatsonDistribution:
     def k_prime(self) -> int:
         """Regressors excluding the constant (k' of the published bounds)."""
         return k_prime(self.rank, self.has_constant)
+
+    def _chain_dct(self, a: np.ndarray, *, overwrite: bool = False) -> np.ndarray:
+        """The DCT-II (orthonormal) of each chain's slice of the last axis of ``a`` (rows in chain
+        order), in place with ``overwrite``."""
+        if self._chains is None:
+            return _dct(a, overwrite)
+        out = a if overwrite else np.empty_like(a)
+        pos = 0
+        for rows in self._chains:
+            out[..., pos : pos + rows.size] = _dct(a[..., pos : pos + rows.size], overwrite)
+            pos += rows.size
+        return out
+
+    def project(self, u, exog=None) -> np.ndarray:
+        """Q'u for the orthonormal basis Q of the design's column space (no copy of the basis is
+        kept): T (X'u) when the design ``exog`` it was built from is given and the basis came
+        from the blocked factorisation (Q' = T X'), else from W = V'Q as Q'u = W'(V'u), with V'u
+        the chains' DCTs of u."""
+        u = np.asarray(u, dtype=float)
+        if self.form.W is None:
+            return np.zeros(0)
+        if exog is not None and self._basis_map is not None:
+            return self._basis_map @ (np.asarray(exog, dtype=float).T @ u)
+        if self._chains is not None:
+            u = u[np.concatenate(self._chains)]
+        return self.form.W @ self._chain_dct(u)
 
     # moments (Durbin & Watson 1950) ------------------------------------------------
     @property
@@ -441,7 +476,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     dist = DurbinWatsonDistribution(X, lag)
     notes.extend(dist.notes)
     u = unit_scale(e)
-    proj = dist._basis_t @ u
+    proj = dist.project(u, X)
     if float(np.dot(proj, proj)) > 1e-12 * float(np.dot(u, u)):
         notes.append(
             "the residuals are not orthogonal to exog; the exact distribution assumes they are "

@@ -18,7 +18,7 @@ import numpy as np
 from scipy import signal
 
 from ._arrays import check_alpha, check_int
-from .durbin_watson import dw_distribution
+from .durbin_watson import _orthonormal_basis, dw_distribution
 from .results import check_alternative
 
 __all__ = ["PowerCurve", "dw_power"]
@@ -260,7 +260,7 @@ def dw_power(
     r = r[order]
     uniq, inverse = np.unique(r, return_inverse=True)
 
-    basis_t = np.ascontiguousarray(dist._basis_t)
+    basis_t, _, _ = _orthonormal_basis(np.asarray(exog, dtype=float).reshape(n, -1))
     rng = np.random.default_rng(seed)
     rows = max(1, min(n_sim, _CHUNK_ELEMENTS // n))
     hits = np.zeros(uniq.size, dtype=np.int64)

@@ -29,11 +29,14 @@ import math
 import numpy as np
 from scipy import fft
 
+from .tall import map_blocks
+
 __all__ = ["SpectralForm"]
 
 _TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
 _DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
 _EVAL_BLOCK = 20_000        # multipliers per evaluation block (bounds memory)
+_WW_CACHE_MAX = 4_000_000   # entries of the N x k^2 product matrix kept between evaluations (32 MB)
 _CHEB_MIN_N = 300    # below this the direct path is always used
 _CHEB_MAX_DEGREE = 600
 
@@ -74,16 +77,21 @@ class _ChebMoments:
     """Moments sum_j T_m(x_j) and W' diag(T_m(x)) W, computed in blocked passes.
 
     ``Wt`` is W transposed (k x N, rows contiguous).  Only the upper triangle
-    of each k x k moment is accumulated.
+    of each k x k moment is accumulated.  Raising the degree computes only the
+    new moments (the recursion for T_m is rerun, the products are not redone).
+    Column blocks run side by side, each with one BLAS thread
+    (:func:`lagsight.stats.tall.map_blocks`).
     """
 
-    _COLS = 32768
+    _COLS = 8192
+    _MIN_DEGREE = 16
 
     def __init__(self, x: np.ndarray, Wt: np.ndarray | None):
         self.x = x
         self.Wt = Wt
         self.mu = np.empty(0)
-        self.G = None
+        self.G: np.ndarray | None = None
+        self._half: np.ndarray | None = None
 
     @property
     def degree(self) -> int:
@@ -92,34 +100,45 @@ class _ChebMoments:
     def ensure(self, degree: int) -> None:
         if degree <= self.degree:
             return
-        degree = max(degree, 2 * self.degree, 4)
+        old = self.degree
+        degree = max(degree, old + old // 2, self._MIN_DEGREE)
+        new = slice(old + 1, degree + 1)
         mu = np.zeros(degree + 1)
+        mu[: old + 1] = self.mu
         k = 0 if self.Wt is None else self.Wt.shape[0]
         iu = np.triu_indices(k)
-        half = np.zeros((iu[0].size, degree + 1)) if k else None
-        cols = min(self._COLS, self.x.size)
-        T = np.empty((degree + 1, cols))
-        P = np.empty((iu[0].size, cols))
-        for start in range(0, self.x.size, cols):
-            xb = self.x[start : start + cols]
+        half = np.zeros((iu[0].size, degree + 1))
+        if k and old >= 0 and self._half is not None:
+            half[:, : old + 1] = self._half
+
+        def one(start, stop):
+            xb = self.x[start:stop]
             b = xb.size
-            Tb = T[:, :b]
-            Tb[0] = 1.0
-            Tb[1] = xb
+            T = np.empty((degree + 1, b))
+            T[0] = 1.0
+            T[1] = xb
             for j in range(2, degree + 1):
-                np.multiply(xb, Tb[j - 1], out=Tb[j])
-                Tb[j] *= 2.0
-                Tb[j] -= Tb[j - 2]
-            mu += Tb.sum(axis=1)
+                np.multiply(xb, T[j - 1], out=T[j])
+                T[j] *= 2.0
+                T[j] -= T[j - 2]
+            part = T[new].sum(axis=1)
+            if not k:
+                return part, None
+            Wb = self.Wt[:, start:stop]
+            P = np.empty((iu[0].size, b))
+            row = 0
+            for a in range(k):
+                np.multiply(Wb[a], Wb[a:], out=P[row : row + k - a])
+                row += k - a
+            return part, P @ T[new].T
+
+        for part, h in map_blocks(self.x.size, one, rows=self._COLS):
+            mu[new] += part
             if k:
-                Wb = self.Wt[:, start : start + b]
-                row = 0
-                for a in range(k):
-                    np.multiply(Wb[a], Wb[a:], out=P[row : row + k - a, :b])
-                    row += k - a
-                half += P[:, :b] @ Tb.T
+                half[:, new] += h
         self.mu = mu
         if k:
+            self._half = half
             G = np.zeros((degree + 1, k, k))
             G[:, iu[0], iu[1]] = half.T
             G[:, iu[1], iu[0]] = half.T
@@ -273,25 +292,40 @@ class SpectralForm:
         return logdet, T1 - corr
 
     def _eval_direct(self, z, c, trace):
+        """Direct sums over the N factors.  The N x k^2 matrix of products w_j w_j' is kept only
+        while it is small (:data:`_WW_CACHE_MAX` entries); for long series it is formed again a
+        block of columns at a time, so memory stays O(block k^2) whatever N is."""
         N = self.nu.size
-        if self.W is not None and self._ww is None:
-            self._ww = (self.W.T[:, :, None] * self.W.T[:, None, :]).reshape(N, -1)
-        WW = self._ww
-        step = max(1, _DIRECT_BLOCK // max(N, 1))
+        k = self.k
+        W = self.W
+        cached = W is None or N * k * k <= _WW_CACHE_MAX
+        if W is not None and cached and self._ww is None:
+            self._ww = (W.T[:, :, None] * W.T[:, None, :]).reshape(N, -1)
+        cols = N if cached else max(1, min(N, _DIRECT_BLOCK // (k * k)))
+        step = max(1, _DIRECT_BLOCK // max(cols, 1))
         out_ld, out_tr = [], []
         for s in range(0, z.size, step):
             zz, cc = z[s : s + step], c[s : s + step]
-            D = 1.0 - zz[:, None] * (self.nu[None, :] - cc[:, None])
-            L = np.log(D).sum(axis=1)
-            G = 1.0 / D
-            T1 = G.sum(axis=1) if trace else None
-            H = K2 = None
-            if WW is not None:
-                H = G.real @ WW + 1j * (G.imag @ WW)
+            L = T1 = H = K2 = 0.0
+            for a in range(0, N, cols):
+                b = min(N, a + cols)
+                D = 1.0 - zz[:, None] * (self.nu[None, a:b] - cc[:, None])
+                L = L + np.log(D).sum(axis=1)
+                G = 1.0 / D
                 if trace:
-                    G2 = G * G
-                    K2 = G2.real @ WW + 1j * (G2.imag @ WW)
-            ld, tr = self._finish(zz, L, H, K2, T1, cc, trace)
+                    T1 = T1 + G.sum(axis=1)
+                if W is not None:
+                    if cached:
+                        WW = self._ww if cols == N else self._ww[a:b]
+                    else:
+                        Wb = W[:, a:b].T
+                        WW = (Wb[:, :, None] * Wb[:, None, :]).reshape(b - a, -1)
+                    H = H + (G.real @ WW + 1j * (G.imag @ WW))
+                    if trace:
+                        G2 = G * G
+                        K2 = K2 + (G2.real @ WW + 1j * (G2.imag @ WW))
+            ld, tr = self._finish(zz, L, None if W is None else H, None if W is None else K2,
+                                  T1 if trace else None, cc, trace)
             out_ld.append(ld)
             out_tr.append(tr)
         return np.concatenate(out_ld), (np.concatenate(out_tr) if trace else None)

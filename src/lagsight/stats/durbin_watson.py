@@ -9,7 +9,6 @@ chain for s > 1), which is what makes the exact computation linear in n.
 from __future__ import annotations
 
 import math
-import os
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
@@ -23,7 +22,7 @@ from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
 from .spectrum import difference_spectrum, form_moments, solve_quantile
 from .tails import TailResult, tail_probability
-from .tall import orthonormal_basis_t
+from .tall import cores, orthonormal_basis_t
 
 __all__ = [
     "DurbinWatsonDistribution",
@@ -130,7 +129,7 @@ def _dct(a: np.ndarray, overwrite: bool) -> np.ndarray:
     def one(i):
         out[i] = fft.dct(a[i], type=2, norm="ortho", overwrite_x=overwrite)
 
-    with ThreadPoolExecutor(max_workers=min(a.shape[0], os.cpu_count() or 1)) as pool:
+    with ThreadPoolExecutor(max_workers=min(a.shape[0], cores())) as pool:
         list(pool.map(one, range(a.shape[0])))
     return out
 

@@ -5,7 +5,7 @@ BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 LAB_PORT ?= 8890
 
-.PHONY: test demo demo-report bench venv clean notebooks
+.PHONY: test lint demo demo-report bench venv clean notebooks
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -16,7 +16,11 @@ $(STAMP): pyproject.toml
 
 venv: $(STAMP)
 
+# lint, format and type checks first (configured in pyproject.toml), then the whole suite
 test: $(STAMP)
+	$(BIN)/ruff check src tests benchmarks scripts
+	$(BIN)/ruff format --check src tests benchmarks scripts
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 # JupyterLab on the quickstart notebook (Ctrl-C to stop); the URL is printed below.
@@ -30,6 +34,12 @@ demo: $(STAMP)
 # Headless: execute the quickstart notebook and write the standalone HTML report.
 demo-report: $(STAMP)
 	MPLBACKEND=Agg $(BIN)/python scripts/demo.py
+
+# lint and types only (what `make test` runs before pytest)
+lint: $(STAMP)
+	$(BIN)/ruff check src tests benchmarks scripts
+	$(BIN)/ruff format --check src tests benchmarks scripts
+	$(BIN)/mypy
 
 bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_engine.py

@@ -2,6 +2,7 @@
 
 Usage: python benchmarks/bench_diagnose.py [--quick]
 """
+
 from __future__ import annotations
 
 import sys
@@ -41,14 +42,14 @@ def timed(fn, *args, **kw):
 def main(quick=False):
     rng = np.random.default_rng(0)
     print(f"{'case':<40} {'seconds':>8}")
-    for n in ([10**4] if quick else [10**4, 10**5]):
+    for n in [10**4] if quick else [10**4, 10**5]:
         fit = single(n, 5, rng)
         d, s = timed(lagsight.diagnose, fit)
-        print(f"{'diagnose n=%d k=5 (full battery)' % n:<40} {s:>8.2f}   {d.verdict.finding}")
+        print(f"{f'diagnose n={n} k=5 (full battery)':<40} {s:>8.2f}   {d.verdict.finding}")
     groups = 200 if quick else 2000
     frame = panel(groups, 200, rng)
     d, s = timed(lagsight.diagnose, frame, response="y", predictors=["x"], groups="g")
-    print(f"{'panel %d groups x 200 rows' % groups:<40} {s:>8.2f}   pooled d {d.groups.pooled_dw:.4f}")
+    print(f"{f'panel {groups} groups x 200 rows':<40} {s:>8.2f}   pooled d {d.groups.pooled_dw:.4f}")
 
 
 if __name__ == "__main__":

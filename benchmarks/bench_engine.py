@@ -7,6 +7,7 @@ ratio measured in the same run, and the time of one pair of bounds.
 
 Usage: python benchmarks/bench_engine.py [--quick]
 """
+
 from __future__ import annotations
 
 import sys
@@ -42,7 +43,7 @@ def dense_pvalue(e, X):
     M = np.eye(n) - Q @ Q.T
     A = 2 * np.eye(n) - np.eye(n, k=1) - np.eye(n, k=-1)
     A[0, 0] = A[-1, -1] = 1
-    lam = np.linalg.eigvalsh(M @ A @ M)[X.shape[1]:]
+    lam = np.linalg.eigvalsh(M @ A @ M)[X.shape[1] :]
     d = float(e @ A @ e / (e @ e))
     return imhof_cdf(lam - d, 0.0)
 
@@ -93,20 +94,25 @@ def main(quick=False):
     print()
     print("far-tail p-values (saddle-line inversion): distribution built once, then each tail cold")
     print("(a fresh distribution per row, so the Chebyshev moments are computed inside the timing)")
-    print(f"{'n':>9} {'k':>3} {'d':>6} {'build s':>8} {'tail s':>8}  {'p (lower tail)':>16} {'log10 p':>10}  rel. error est.")
+    print(
+        f"{'n':>9} {'k':>3} {'d':>6} {'build s':>8} {'tail s':>8}  {'p (lower tail)':>16} {'log10 p':>10}"
+        "  rel. error est."
+    )
     tail_sizes = [10**3, 10**5] + ([] if quick else [10**6])
     for n in tail_sizes:
         k = 10 if n == 10**6 else 5
         X = design(n, k, rng)
-        for d in (2 - 6 / n ** 0.5, 2 - 12 / n ** 0.5, 2 - 30 / n ** 0.5, 0.5):
+        for d in (2 - 6 / n**0.5, 2 - 12 / n**0.5, 2 - 30 / n**0.5, 0.5):
             t0 = time.perf_counter()
             dist = lagsight.dw_distribution(X)
             t_build = time.perf_counter() - t0
             t0 = time.perf_counter()
             res = dist.tail(d, "lower")
             t_tail = time.perf_counter() - t0
-            print(f"{n:>9} {k:>3} {d:>6.3f} {t_build:>8.3f} {t_tail:>8.3f}  {res.value:>16.6e} "
-                  f"{res.log_value / np.log(10):>10.2f}  {res.error:.1e}")
+            print(
+                f"{n:>9} {k:>3} {d:>6.3f} {t_build:>8.3f} {t_tail:>8.3f}  {res.value:>16.6e} "
+                f"{res.log_value / np.log(10):>10.2f}  {res.error:.1e}"
+            )
     print()
     print("one pair of bounds dL, dU (alpha 0.05, uncached)")
     print(f"{'n':>8} {'k':>3} {'ms':>8}   dL       dU")

@@ -12,6 +12,7 @@ Prints
 
 Usage: python benchmarks/bench_panel.py [--quick]   (--quick: n = 10^4)
 """
+
 from __future__ import annotations
 
 import asyncio
@@ -20,11 +21,11 @@ import sys
 import time
 
 import numpy as np
+from bench_diagnose import single
 from IPython.core.interactiveshell import InteractiveShell
 from IPython.utils.capture import capture_output
 
 import lagsight.display as glue
-from bench_diagnose import single
 from lagsight.battery_run import BG, DW, LB, RUNS, SEASONAL
 from lagsight.panel import PREFETCH_DELAY, DiagnosisPanel
 
@@ -68,6 +69,7 @@ def main(quick: bool = False) -> None:
     print(f"n = {n:,}, k = 5")
     print(f"{'magic to first complete render':<44} {first:8.3f} s   (target <= 1.5 s; first use of this design)")
     from lagsight import diagnose
+
     t_diag = timed(lambda: diagnose(ip.user_ns["fit"]))
     fresh = {}
     t_panel = timed(lambda: fresh.setdefault("p", DiagnosisPanel(diag)))
@@ -80,12 +82,17 @@ def main(quick: bool = False) -> None:
         ("max-lag slider", lambda v: setattr(panel.lag_slider, "value", v), [10, 20, 30, 15, 25, 10]),
         ("band toggle", lambda v: setattr(panel.band_toggle, "value", v), ["bartlett", "white", "bartlett"]),
         ("lag picker", lambda v: setattr(panel.lag_picker, "value", v), [2, 3, 4, 2]),
-        ("test toggle", lambda v: setattr(panel.test_toggle, "value", v),
-         [t for t in (BG, LB, SEASONAL, RUNS, DW) if t in panel.test_toggle.options]),
+        (
+            "test toggle",
+            lambda v: setattr(panel.test_toggle, "value", v),
+            [t for t in (BG, LB, SEASONAL, RUNS, DW) if t in panel.test_toggle.options],
+        ),
         *_level_moves(panel),
     ]
-    print("\ncallback time (ms) per move, as in a live kernel: the snapshot refresh runs "
-          f"{panel.snapshot_delay:g} s later, timed apart")
+    print(
+        "\ncallback time (ms) per move, as in a live kernel: the snapshot refresh runs "
+        f"{panel.snapshot_delay:g} s later, timed apart"
+    )
     print(f"{'':<16} {'moves':<40} {'max':>6}   snapshot refresh max   (target <= 100 ms)")
     lines = []
 
@@ -93,11 +100,10 @@ def main(quick: bool = False) -> None:
         for name, move, values in moves:
             times, snaps = [], []
             for v in values:
-                times.append(timed(lambda v=v: move(v)) * 1e3)
+                times.append(timed(lambda v=v, move=move: move(v)) * 1e3)
                 await asyncio.sleep(panel.snapshot_delay + 0.05)  # let the deferred refresh run
                 snaps.append(panel.timings.get("snapshot", 0.0) * 1e3)
-            lines.append(f"{name:<16} {' '.join(f'{t:6.0f}' for t in times):<40} {max(times):6.0f}"
-                         f"   {max(snaps):6.0f}")
+            lines.append(f"{name:<16} {' '.join(f'{t:6.0f}' for t in times):<40} {max(times):6.0f}   {max(snaps):6.0f}")
 
     with capture_output():  # the snapshot updates go to the (captured) display
         asyncio.run(run_moves())
@@ -120,17 +126,21 @@ def main(quick: bool = False) -> None:
             if not more:
                 break
             await asyncio.sleep(0)
-        return [[timed(lambda v=v: move(v)) * 1e3 for v in values] for name, move, values in
-                [(n_, m, v) for n_, m, v in _level_moves(ahead)]]
+        return [
+            [timed(lambda v=v, move=move: move(v)) * 1e3 for v in values]
+            for name, move, values in [(n_, m, v) for n_, m, v in _level_moves(ahead)]
+        ]
 
     with capture_output():
         level_times = asyncio.run(idle_then_moves())
     figures = ahead.renders - drawn["at show"]
-    print(f"\nafter {PREFETCH_DELAY:g} s of quiet a shown panel draws the alpha/alternative views ahead, "
-          f"one figure per loop step:\n  {len(steps) - 1} steps ({figures} figures, the rest re-assessments) in "
-          f"{sum(steps):.2f} s of idle time, longest step {max(steps) * 1e3:.0f} ms (the longest a front-end "
-          f"message waits);\n  every alpha at the current alternative ready "
-          f"{PREFETCH_DELAY + ready.get('alphas', sum(steps)):.2f} s after the panel is shown")
+    print(
+        f"\nafter {PREFETCH_DELAY:g} s of quiet a shown panel draws the alpha/alternative views ahead, "
+        f"one figure per loop step:\n  {len(steps) - 1} steps ({figures} figures, the rest re-assessments) in "
+        f"{sum(steps):.2f} s of idle time, longest step {max(steps) * 1e3:.0f} ms (the longest a front-end "
+        f"message waits);\n  every alpha at the current alternative ready "
+        f"{PREFETCH_DELAY + ready.get('alphas', sum(steps)):.2f} s after the panel is shown"
+    )
     for (name, _, _), times in zip(_level_moves(ahead), level_times):
         print(f"{name:<16} {' '.join(f'{t:6.0f}' for t in times):<40} {max(times):6.0f}")
 
@@ -152,9 +162,14 @@ def _alphas_ready(panel) -> bool:
 
 
 def _level_moves(panel):
-    return [("alternative", lambda v: setattr(panel.alternative_picker, "value", v),
-             ["two-sided", "negative", "positive", "two-sided"]),
-            ("alpha", lambda v: setattr(panel.alpha_picker, "value", v), [0.01, 0.1, 0.05, 0.01])]
+    return [
+        (
+            "alternative",
+            lambda v: setattr(panel.alternative_picker, "value", v),
+            ["two-sided", "negative", "positive", "two-sided"],
+        ),
+        ("alpha", lambda v: setattr(panel.alpha_picker, "value", v), [0.01, 0.1, 0.05, 0.01]),
+    ]
 
 
 def _widgets(widget):

@@ -24,6 +24,7 @@ shared, so ratios measured side by side mean more than absolute times.
 Usage: python benchmarks/bench_scale.py [--sizes 1e5,1e6,1e7] [--cases dw,white,ar1]
        [--baseline-src DIR] [--tracemalloc] [--quick]
 """
+
 from __future__ import annotations
 
 import argparse
@@ -34,8 +35,8 @@ import subprocess
 import sys
 import time
 
-K = 10           # columns of the design, the constant included
-RHO = 0.5        # AR(1) coefficient of the correlated errors
+K = 10  # columns of the design, the constant included
+RHO = 0.5  # AR(1) coefficient of the correlated errors
 CASES = {"dw": "durbin_watson", "white": "diagnose white", "ar1": "diagnose AR(1)"}
 HERE = os.path.dirname(os.path.abspath(__file__))
 SRC = os.path.join(os.path.dirname(HERE), "src")
@@ -68,7 +69,7 @@ def _build(case: str, n: int, seed: int = 12345):
     from scipy.signal import lfilter
 
     rng = np.random.default_rng(seed)
-    values = np.empty((n, K), order="F")       # response first, then the predictors
+    values = np.empty((n, K), order="F")  # response first, then the predictors
     for j in range(1, K):
         rng.standard_normal(out=values[:, j])
     noise = rng.standard_normal(n)
@@ -92,6 +93,7 @@ def _build(case: str, n: int, seed: int = 12345):
 
 def _run(case: str, inputs: dict):
     import lagsight
+
     if case == "dw":
         res = lagsight.durbin_watson(inputs["resid"], inputs["exog"])
         return f"d = {res.statistic:.6f}, p = {res.pvalue:.4g}", res
@@ -103,12 +105,14 @@ def _run(case: str, inputs: dict):
 def child(case: str, n: int, traced: bool) -> dict:
     import lagsight  # imported before the baseline so that module memory is not counted
     import lagsight.diagnosis  # noqa: F401
+
     inputs, size = _build(case, n)
     gc.collect()
     base = _status()["VmRSS"]
     can_reset = _reset_peak()
     if traced:
         import tracemalloc
+
         tracemalloc.start()
     t0 = time.perf_counter()
     summary, result = _run(case, inputs)
@@ -120,7 +124,7 @@ def child(case: str, n: int, traced: bool) -> dict:
     gc.collect()
     st = _status()
     out["peak"] = st["VmHWM"] - base if can_reset else None
-    out["held"] = st["VmRSS"] - base   # with the result still referenced
+    out["held"] = st["VmRSS"] - base  # with the result still referenced
     del result
     return out
 
@@ -176,8 +180,10 @@ def main(argv=None):
                     line += f" | baseline failed: {b['error']}"
                 else:
                     ratio_p = (r["peak"] / b["peak"]) if r["peak"] and b["peak"] else float("nan")
-                    line += (f" | {b['seconds']:>7.2f} {_gb(b['peak'])} | {r['seconds'] / b['seconds']:>6.2f}"
-                             f" {ratio_p:>6.2f}")
+                    line += (
+                        f" | {b['seconds']:>7.2f} {_gb(b['peak'])} | {r['seconds'] / b['seconds']:>6.2f}"
+                        f" {ratio_p:>6.2f}"
+                    )
             print(line + f"   {r['summary']}", flush=True)
 
 

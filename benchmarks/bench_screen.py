@@ -8,6 +8,7 @@ lagsight in the workers).
 
 Usage: python benchmarks/bench_screen.py [--quick] [--models N] [--repeat R]
 """
+
 from __future__ import annotations
 
 import argparse
@@ -60,8 +61,10 @@ def main(count: int, repeat: int) -> None:
     n, k = 500, 4
     t0 = time.perf_counter()
     fits = make_models(count, n, k)
-    print(f"{count} OLS fits (n = {n}, k = {k}) built in {time.perf_counter() - t0:.1f} s (not timed); "
-          f"{os.cpu_count()} cores, load average {os.getloadavg()[0]:.2f}; best of {repeat}\n")
+    print(
+        f"{count} OLS fits (n = {n}, k = {k}) built in {time.perf_counter() - t0:.1f} s (not timed); "
+        f"{os.cpu_count()} cores, load average {os.getloadavg()[0]:.2f}; best of {repeat}\n"
+    )
     rows = []
 
     res, wall, cpu = _timed(lambda: screen(fits, progress=False), repeat)
@@ -78,9 +81,9 @@ def main(count: int, repeat: int) -> None:
         rows.append((f"process pool, {workers} worker(s)", start, wall, cpu, (_children_cpu() - w0) / repeat))
 
     from dask.distributed import Client, LocalCluster
+
     t0 = time.perf_counter()
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                           dashboard_address=None)
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None)
     client = Client(cluster)
     try:
         executor = client.get_executor()
@@ -93,8 +96,7 @@ def main(count: int, repeat: int) -> None:
         client.close()
         cluster.close()
 
-    print(f"{'path':<30} {'start-up s':>10} {'screen s':>9} {'models/s':>9} {'parent CPU s':>12} "
-          f"{'worker CPU s':>12}")
+    print(f"{'path':<30} {'start-up s':>10} {'screen s':>9} {'models/s':>9} {'parent CPU s':>12} {'worker CPU s':>12}")
     for name, start, wall, cpu, wcpu in rows:
         print(f"{name:<30} {start:>10.2f} {wall:>9.2f} {count / wall:>9.0f} {cpu:>12.2f} {wcpu:>12.2f}")
     one, two, dask_wall = rows[1][2], rows[2][2], rows[3][2]

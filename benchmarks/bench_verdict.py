@@ -6,6 +6,7 @@ standard error, and against AR(1) errors (rho = 0.2, 0.4) next to the leading te
 
 Usage: python benchmarks/bench_verdict.py [--quick]
 """
+
 from __future__ import annotations
 
 import sys
@@ -21,10 +22,11 @@ ALPHA = 0.05
 
 def main(quick: bool = False) -> None:
     null_reps, power_reps = (60, 40) if quick else (400, 200)
-    print(f"verdict size and power at alpha = {ALPHA} ({null_reps} white-noise draws, {power_reps} per rho; "
-          "seeded)")
-    head = (f"{'design':<44} {'n':>5}  {'rule':<60} {'size':>6} {'MC SE':>6}   "
-            f"{'rho=0.2 verdict/lead':>20}   {'rho=0.4 verdict/lead':>20}")
+    print(f"verdict size and power at alpha = {ALPHA} ({null_reps} white-noise draws, {power_reps} per rho; seeded)")
+    head = (
+        f"{'design':<44} {'n':>5}  {'rule':<60} {'size':>6} {'MC SE':>6}   "
+        f"{'rho=0.2 verdict/lead':>20}   {'rho=0.4 verdict/lead':>20}"
+    )
     print(head)
     print("-" * len(head))
     start = time.perf_counter()
@@ -34,10 +36,14 @@ def main(quick: bool = False) -> None:
         for j, rho in enumerate((0.2, 0.4)):
             r = simulate(design, rho, power_reps, seed=2000 + 10 * i + j, alpha=ALPHA)
             cells.append(f"{r.verdict:.3f} / {r.leading:.3f}")
-        print(f"{design.name:<44} {design.n:>5}  {null.rule:<60} {null.verdict:>6.3f} {null.se:>6.3f}   "
-              f"{cells[0]:>20}   {cells[1]:>20}")
-    print(f"({time.perf_counter() - start:.0f} s; 'lead' = the leading test's own p-value below alpha, "
-          "before Holm's adjustment)")
+        print(
+            f"{design.name:<44} {design.n:>5}  {null.rule:<60} {null.verdict:>6.3f} {null.se:>6.3f}   "
+            f"{cells[0]:>20}   {cells[1]:>20}"
+        )
+    print(
+        f"({time.perf_counter() - start:.0f} s; 'lead' = the leading test's own p-value below alpha, "
+        "before Holm's adjustment)"
+    )
 
 
 if __name__ == "__main__":

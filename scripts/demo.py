@@ -2,6 +2,7 @@
 
 The scenario (a municipal utility's daily water demand) is invented and generated in code.
 """
+
 from __future__ import annotations
 
 import sys

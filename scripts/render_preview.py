@@ -6,6 +6,7 @@ including the scale figure at n = 10^5 once its density grid is cached.
 
 Usage: python scripts/render_preview.py [--no-large]
 """
+
 from __future__ import annotations
 
 import sys
@@ -69,8 +70,9 @@ def main(large=True):
         fig, s1 = timed(figures.scale_figure, big)
         svg, s2 = timed(figures.figure_to_svg, fig)
         best_fig, best_svg = min(best_fig, s1), min(best_svg, s1 + s2)
-    print(f"scale figure n=1e5        {'':8}      {best_fig * 1000:6.0f} ms build, "
-          f"{best_svg * 1000:.0f} ms build + SVG")
+    print(
+        f"scale figure n=1e5        {'':8}      {best_fig * 1000:6.0f} ms build, {best_svg * 1000:.0f} ms build + SVG"
+    )
     page, s = timed(html.diagnosis_html, big)
     print(f"diagnosis_html n=1e5     {len(page.encode()) / 1024:8.1f} KB   {s:6.2f} s (grid cached)")
 

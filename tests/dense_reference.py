@@ -9,6 +9,7 @@ eigenvalues of M A M with LAPACK, and integrates Imhof's (1961) formula
 
 with QUADPACK on panels, for Q = sum_j (lambda_j - c) z_j^2.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -30,7 +31,7 @@ def block_difference_matrix(sizes) -> np.ndarray:
     A = np.zeros((n, n))
     start = 0
     for m in sizes:
-        A[start:start + m, start:start + m] = difference_matrix(m, 1)
+        A[start : start + m, start : start + m] = difference_matrix(m, 1)
         start += m
     return A
 
@@ -50,6 +51,7 @@ def mam_eigenvalues(X: np.ndarray, lag: int = 1, A: np.ndarray | None = None) ->
     # complete QR of X (pivoted, so a rank-deficient X is handled); the residual
     # space eigenvalues of M A M are those of P' A P.
     from scipy import linalg
+
     Q, _, _ = linalg.qr(X, pivoting=True)
     P = Q[:, rank:]
     return np.sort(np.linalg.eigvalsh(P.T @ A @ P))
@@ -106,7 +108,7 @@ def tail_prob(weights, tail: str = "lower", with_saddle: bool = False):
     if tail == "upper":
         w = -w
     # P(sum w z^2 <= 0) with the smaller tail on this side: saddle point s0 < 0
-    lo_edge = 1.0 / (2.0 * w.min())            # negative: the interval of the mgf is (lo_edge, 1/(2 w.max()))
+    lo_edge = 1.0 / (2.0 * w.min())  # negative: the interval of the mgf is (lo_edge, 1/(2 w.max()))
 
     def K(s):
         return -0.5 * np.sum(np.log(1.0 - 2.0 * s * w))

@@ -1,18 +1,24 @@
 """Tests for lagsight.stats.battery against published reference values and libraries."""
+
 from itertools import combinations
 
-from hypothesis import given, settings, strategies as st
 import numpy as np
 import pytest
+import statsmodels.api as sm
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 from scipy import stats
-import statsmodels.api as sm
 from statsmodels.datasets import macrodata
 from statsmodels.sandbox.stats.runs import runstest_1samp
 from statsmodels.stats.diagnostic import acorr_breusch_godfrey
 
 from lagsight.stats.battery import (
-    breusch_godfrey, detect_lagged_response, durbin_alternative, durbin_h, ljung_box,
+    breusch_godfrey,
+    detect_lagged_response,
+    durbin_alternative,
+    durbin_h,
+    ljung_box,
 )
 from lagsight.stats.runs import runs_distribution, runs_test
 
@@ -23,8 +29,7 @@ def macro_growth():
     (statsmodels/stats/tests/test_diagnostic.py, TestDiagnosticG): n = 202."""
     d = macrodata.load_pandas().data
     endog = 400 * np.diff(np.log(d["realinv"].to_numpy()))
-    exog = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())),
-                                 d["realint"].to_numpy()[:-1]])
+    exog = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())), d["realint"].to_numpy()[:-1]])
     res = sm.OLS(endog, exog).fit()
     return endog, exog, res
 
@@ -63,8 +68,12 @@ def test_breusch_godfrey_equals_statsmodels(macro_growth, order, with_const):
     ours = breusch_godfrey(res.resid, X, max_lag=order)
     # reference library: statsmodels.stats.diagnostic.acorr_breusch_godfrey
     ref = acorr_breusch_godfrey(res, nlags=order, result_object=True)
-    assert_allclose([ours.statistic, ours.pvalue, ours.f_statistic, ours.f_pvalue],
-                    [ref.lm, ref.lmpval, ref.fval, ref.fpval], rtol=1e-10, atol=1e-12)
+    assert_allclose(
+        [ours.statistic, ours.pvalue, ours.f_statistic, ours.f_pvalue],
+        [ref.lm, ref.lmpval, ref.fval, ref.fpval],
+        rtol=1e-10,
+        atol=1e-12,
+    )
     assert any("constant was added" in n for n in ours.notes) is (not with_const)
 
 
@@ -98,7 +107,8 @@ def test_ljung_box_matches_published_reference(macro_growth):
 def test_ljung_box_model_df_reference_and_nan(macro_growth):
     _, _, res = macro_growth
     lb = ljung_box(res.resid, max_lag=[1, 2, 4], model_df=2)
-    # statsmodels test suite comment (R Box.test(..., lag=4, fitdf=2)): p 0.0729532930400377 (LB), 0.0771260128929921 (BP)
+    # statsmodels test suite comment (R Box.test(..., lag=4, fitdf=2)):
+    # p 0.0729532930400377 (LB), 0.0771260128929921 (BP)
     assert lb.lb_pvalue[-1] == pytest.approx(0.0729532930400377, abs=1e-10)
     assert lb.bp_pvalue[-1] == pytest.approx(0.0771260128929921, abs=1e-10)
     assert lb.df == (2.0,)
@@ -147,7 +157,7 @@ def test_durbin_h_agrees_with_hand_computation(macro_consumption):
     u = y - X @ beta
     s2 = u @ u / (n - X.shape[1])
     var_b = s2 * np.linalg.inv(X.T @ X)[2, 2]
-    d = np.sum(np.diff(u) ** 2) / np.sum(u ** 2)
+    d = np.sum(np.diff(u) ** 2) / np.sum(u**2)
     h = (1 - d / 2) * np.sqrt(n / (1 - n * var_b))
     out = durbin_h(e, X, y)  # lag column detected
     assert out.lag_column == 2
@@ -253,7 +263,7 @@ def test_runs_distribution_moments_match_closed_form(n1, n2):
     r, pmf = dist.runs, dist.pmf
     N = n1 + n2
     mean = 2 * n1 * n2 / N + 1
-    var = 2 * n1 * n2 * (2 * n1 * n2 - N) / (N ** 2 * (N - 1))
+    var = 2 * n1 * n2 * (2 * n1 * n2 - N) / (N**2 * (N - 1))
     assert pmf.sum() == pytest.approx(1.0, abs=1e-10)
     assert (pmf * r).sum() == pytest.approx(mean, rel=1e-9)
     assert (pmf * (r - mean) ** 2).sum() == pytest.approx(var, rel=1e-7, abs=1e-9)
@@ -307,13 +317,14 @@ def test_runs_zeros_dropped_and_errors():
 def test_seasonal_lag_test_is_the_t_ratio_of_the_lag_s_coefficient():
     # reference: the same auxiliary regression solved by numpy's least squares, t-ratio by hand
     from lagsight.stats.battery import seasonal_lag_test
+
     rng = np.random.default_rng(12)
     n, s = 80, 4
     X = np.column_stack([np.ones(n), rng.normal(size=n)])
     y = X @ [1.0, 2.0] + rng.normal(size=n)
     e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
     res = seasonal_lag_test(e, X, period=s, alternative="positive")
-    A = np.column_stack([X[s:], e[s - 1:n - 1], e[:n - s]])
+    A = np.column_stack([X[s:], e[s - 1 : n - 1], e[: n - s]])
     b, *_ = np.linalg.lstsq(A, e[s:], rcond=None)
     r = e[s:] - A @ b
     sigma2 = r @ r / (A.shape[0] - A.shape[1])

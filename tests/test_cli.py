@@ -1,4 +1,5 @@
 """The command line: exit status 0/1/2 and one-line errors."""
+
 from __future__ import annotations
 
 import subprocess
@@ -21,8 +22,20 @@ def demand_csv(tmp_path):
 
 def test_report_finds_correlation_and_writes_html(demand_csv, tmp_path, capsys):
     out = tmp_path / "r.html"
-    code = main(["report", str(demand_csv), "--y", "demand_ml", "--x", "temp_c,rain_mm,weekend",
-                 "--time", "date", "-o", str(out)])
+    code = main(
+        [
+            "report",
+            str(demand_csv),
+            "--y",
+            "demand_ml",
+            "--x",
+            "temp_c,rain_mm,weekend",
+            "--time",
+            "date",
+            "-o",
+            str(out),
+        ]
+    )
     assert code == 1
     text = capsys.readouterr().out
     assert "evidence" in text.lower() and str(out) in text
@@ -65,8 +78,21 @@ def test_console_script_entry_point(demand_csv, tmp_path):
     # installed by pyproject.toml [project.scripts]
     exe = "lagsight"
     bindir = __import__("pathlib").Path(sys.executable).parent
-    proc = subprocess.run([str(bindir / exe), "report", str(demand_csv), "--y", "demand_ml",
-                           "--x", "temp_c", "-o", str(tmp_path / "x.html")], capture_output=True, text=True)
+    proc = subprocess.run(
+        [
+            str(bindir / exe),
+            "report",
+            str(demand_csv),
+            "--y",
+            "demand_ml",
+            "--x",
+            "temp_c",
+            "-o",
+            str(tmp_path / "x.html"),
+        ],
+        capture_output=True,
+        text=True,
+    )
     assert proc.returncode == 1, proc.stderr
 
 
@@ -98,12 +124,17 @@ def test_output_that_cannot_be_a_file_exits_two_with_one_line(tmp_path, capsys, 
     assert captured.out == ""
 
 
-@pytest.mark.parametrize("stamps,first", [
-    (lambda d: d.strftime("%d/%m/%Y"), "'01/01/2021'"),                # day first: never guessed
-    (lambda d: [f"t{i + 1}" for i in range(len(d))], "'t1'"),          # labels
-    (lambda d: [s.strftime("%Y-%m-%d") if i % 2 else s.strftime("%d %b %Y") for i, s in enumerate(d)],
-     "'01 Jan 2021'"),                                                 # mixed forms
-])
+@pytest.mark.parametrize(
+    "stamps,first",
+    [
+        (lambda d: d.strftime("%d/%m/%Y"), "'01/01/2021'"),  # day first: never guessed
+        (lambda d: [f"t{i + 1}" for i in range(len(d))], "'t1'"),  # labels
+        (
+            lambda d: [s.strftime("%Y-%m-%d") if i % 2 else s.strftime("%d %b %Y") for i, s in enumerate(d)],
+            "'01 Jan 2021'",
+        ),  # mixed forms
+    ],
+)
 def test_time_values_that_are_not_unambiguous_exit_two(tmp_path, capsys, stamps, first):
     frame = _frame()
     frame.insert(0, "t", stamps(pd.date_range("2021-01-01", periods=len(frame), freq="D")))
@@ -119,19 +150,35 @@ def test_time_format_sorts_day_first_dates_in_calendar_order(tmp_path, capsys):
     days = pd.date_range("2021-01-01", periods=len(frame), freq="D")
     frame.insert(0, "t", days.strftime("%d/%m/%Y"))
     path = tmp_path / "t.csv"
-    frame.sample(frac=1.0, random_state=1).to_csv(path, index=False)   # rows shuffled in the file
-    code = main(["report", str(path), "--y", "y", "--x", "x", "--time", "t", "--time-format", "%d/%m/%Y",
-                 "-o", str(tmp_path / "r.html")])
+    frame.sample(frac=1.0, random_state=1).to_csv(path, index=False)  # rows shuffled in the file
+    code = main(
+        [
+            "report",
+            str(path),
+            "--y",
+            "y",
+            "--x",
+            "x",
+            "--time",
+            "t",
+            "--time-format",
+            "%d/%m/%Y",
+            "-o",
+            str(tmp_path / "r.html"),
+        ]
+    )
     assert code in (0, 1)
     out = capsys.readouterr().out
-    assert "irregular gaps" not in out          # read as the 80 consecutive days they are
+    assert "irregular gaps" not in out  # read as the 80 consecutive days they are
     assert "not in order of the index" in out and "sorted by it for testing" in out
 
 
 def test_iso_and_numeric_time_columns_are_accepted(tmp_path, capsys):
     frame = _frame()
-    for values in (pd.date_range("2021-01-01", periods=len(frame), freq="D").strftime("%Y-%m-%d"),
-                   np.arange(len(frame)) * 2.5):
+    for values in (
+        pd.date_range("2021-01-01", periods=len(frame), freq="D").strftime("%Y-%m-%d"),
+        np.arange(len(frame)) * 2.5,
+    ):
         frame["t"] = values
         path = tmp_path / "t.csv"
         frame.to_csv(path, index=False)
@@ -144,14 +191,16 @@ def test_iso_and_numeric_time_columns_are_accepted(tmp_path, capsys):
 def test_notes_and_cautions_are_printed_and_quiet_prints_the_headline(tmp_path, capsys):
     frame = _frame()
     frame.loc[[3, 9], "y"] = np.nan
-    frame["g"] = ["a"] * 35 + ["b"] * 35 + [""] * 10                  # empty cells: no group label
+    frame["g"] = ["a"] * 35 + ["b"] * 35 + [""] * 10  # empty cells: no group label
     path = tmp_path / "d.csv"
     frame.to_csv(path, index=False)
     args = ["report", str(path), "--y", "y", "--x", "x", "--group", "g", "-o", str(tmp_path / "r.html")]
     main(args)
     out = capsys.readouterr().out.splitlines()
-    assert "note: 2 rows with missing or infinite values in 'y' or the predictors were dropped before " \
-           "fitting; the time order has gaps there." in out
+    assert (
+        "note: 2 rows with missing or infinite values in 'y' or the predictors were dropped before "
+        "fitting; the time order has gaps there." in out
+    )
     assert "note: 10 rows have no group label and were left out." in out
     assert any(line.startswith("test note, Breusch-Godfrey: ") for line in out)
     assert any(line.startswith("caution: ") for line in out)

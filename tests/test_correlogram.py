@@ -1,8 +1,9 @@
 """Tests for lagsight.stats.correlogram against statsmodels and hand computation."""
+
 import numpy as np
 import pytest
-from scipy import stats
 import statsmodels.api as sm
+from scipy import stats
 from statsmodels.datasets import macrodata
 from statsmodels.tsa.stattools import acf as sm_acf
 from statsmodels.tsa.stattools import pacf as sm_pacf
@@ -15,8 +16,7 @@ def macro_resid():
     """OLS residuals of the statsmodels test-suite investment regression on macrodata (n = 202)."""
     d = macrodata.load_pandas().data
     y = 400 * np.diff(np.log(d["realinv"].to_numpy()))
-    X = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())),
-                              d["realint"].to_numpy()[:-1]])
+    X = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())), d["realint"].to_numpy()[:-1]])
     return np.asarray(sm.OLS(y, X).fit().resid)
 
 
@@ -24,8 +24,7 @@ def test_acf_pacf_equal_statsmodels(macro_resid):
     cg = correlogram(macro_resid, max_lag=12)
     # reference library: statsmodels.tsa.stattools.acf / pacf
     np.testing.assert_allclose(cg.acf, sm_acf(macro_resid, nlags=12, fft=False)[1:], rtol=0, atol=1e-12)
-    np.testing.assert_allclose(cg.pacf, sm_pacf(macro_resid, nlags=12, method="ywadjusted")[1:],
-                               rtol=0, atol=1e-12)
+    np.testing.assert_allclose(cg.pacf, sm_pacf(macro_resid, nlags=12, method="ywadjusted")[1:], rtol=0, atol=1e-12)
     assert cg.pacf_method == PACF_METHOD == "ywadjusted"
     assert list(cg.lags) == list(range(1, 13)) and cg.n == 202
 
@@ -49,7 +48,7 @@ def test_bands_by_hand_on_small_example():
     r = [sum((e[t] - m) * (e[t - h] - m) for t in range(h, n)) / den for h in range(1, 5)]
     z = stats.norm.ppf(0.95)  # alpha = 0.10
     # Bartlett's formula: se(r_h) = sqrt((1 + 2 sum_{j<h} r_j^2) / n)
-    band = [z * np.sqrt((1 + 2 * sum(rj ** 2 for rj in r[: h - 1])) / n) for h in range(1, 5)]
+    band = [z * np.sqrt((1 + 2 * sum(rj**2 for rj in r[: h - 1])) / n) for h in range(1, 5)]
     cg = correlogram(e, max_lag=4, alpha=0.10)
     np.testing.assert_allclose(cg.acf, r, rtol=1e-12)
     np.testing.assert_allclose(cg.bartlett_band, band, rtol=1e-12)
@@ -85,11 +84,14 @@ def test_lag_pairs():
         lag_pairs(e, lag=0)
 
 
-@pytest.mark.parametrize("kwargs,match", [
-    ({"max_lag": 0}, "'max_lag' must be an integer ≥ 1 \\(got 0\\)"),
-    ({"max_lag": 6}, "'max_lag' must be ≤ n // 2 = 5"),
-    ({"max_lag": 2, "alpha": 1.5}, "'alpha' must be in \\(0, 1\\) \\(got 1.5\\)"),
-])
+@pytest.mark.parametrize(
+    "kwargs,match",
+    [
+        ({"max_lag": 0}, "'max_lag' must be an integer ≥ 1 \\(got 0\\)"),
+        ({"max_lag": 6}, "'max_lag' must be ≤ n // 2 = 5"),
+        ({"max_lag": 2, "alpha": 1.5}, "'alpha' must be in \\(0, 1\\) \\(got 1.5\\)"),
+    ],
+)
 def test_correlogram_rejects_bad_arguments(kwargs, match):
     e = np.random.default_rng(0).standard_normal(10)
     with pytest.raises(ValueError, match=match):

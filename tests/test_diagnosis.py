@@ -1,4 +1,5 @@
 """diagnose(): the whole pipeline against outside references and real behaviour."""
+
 from __future__ import annotations
 
 import math
@@ -18,11 +19,14 @@ def _macro_fit():
     # y = 400 dlog(realinv) on a constant, 400 dlog(realgdp) and realint lagged one quarter
     d = sm.datasets.macrodata.load_pandas().data
     idx = pd.period_range("1959Q2", periods=len(d) - 1, freq="Q")
-    frame = pd.DataFrame({
-        "inv": 400 * np.diff(np.log(d["realinv"].to_numpy())),
-        "gdp": 400 * np.diff(np.log(d["realgdp"].to_numpy())),
-        "rate": d["realint"].to_numpy()[:-1],
-    }, index=idx)
+    frame = pd.DataFrame(
+        {
+            "inv": 400 * np.diff(np.log(d["realinv"].to_numpy())),
+            "gdp": 400 * np.diff(np.log(d["realgdp"].to_numpy())),
+            "rate": d["realint"].to_numpy()[:-1],
+        },
+        index=idx,
+    )
     return smf.ols("inv ~ gdp + rate", data=frame).fit()
 
 
@@ -31,7 +35,7 @@ def test_macrodata_reference_values_through_diagnose():
     # (p 0.3116067133066697), F 1.179280833676792, Ljung-Box lag 4 5.23587172795227
     fit = _macro_fit()
     d = diagnose(fit)
-    assert d.period == 4          # quarterly PeriodIndex
+    assert d.period == 4  # quarterly PeriodIndex
     assert abs(d.tests["Durbin-Watson"].statistic - 2.213805) < 5e-7
     bg = d.tests["Breusch-Godfrey"]
     assert bg.max_lag == 4
@@ -59,12 +63,12 @@ def _ar1_frame(n=400, rho=0.8, seed=0):
 
 def test_order_guard_flags_random_split_and_sorting_restores_correlation():
     frame = _ar1_frame()
-    train = frame.sample(frac=0.7, random_state=3)           # a random train split
+    train = frame.sample(frac=0.7, random_state=3)  # a random train split
     fit = smf.ols("y ~ x", data=train).fit()
     shuffled = diagnose(fit)
     assert shuffled.order.flags["shuffled"]
     assert shuffled.verdict.finding == "not meaningful"
-    assert shuffled.tests["Durbin-Watson"].pvalue > 0.01     # the shuffle hid the correlation
+    assert shuffled.tests["Durbin-Watson"].pvalue > 0.01  # the shuffle hid the correlation
     fixed = diagnose(fit, order="index")
     assert fixed.tests["Durbin-Watson"].pvalue < 1e-6
     assert fixed.verdict.finding == "evidence"
@@ -96,8 +100,11 @@ def _consumption_with_lag():
 def test_reassess_equals_diagnosing_again(kind, alpha, alternative):
     # weak correlation (rho 0.12, n 120) so the bounds decision and the verdict can change with the level
     fit = smf.ols("y ~ x", data=_ar1_frame(n=120, rho=0.12, seed=3)).fit()
-    model = {"fitted model": fit, "residuals only": fit.resid}[kind] if kind != "lagged response" \
+    model = (
+        {"fitted model": fit, "residuals only": fit.resid}[kind]
+        if kind != "lagged response"
         else _consumption_with_lag()
+    )
     again = diagnose(model, alpha=alpha, alternative=alternative)
     moved = diagnose(model).reassess(alpha=alpha, alternative=alternative)
     for name, res in again.tests.items():
@@ -145,7 +152,7 @@ def test_panel_within_group_results():
         rows = np.flatnonzero(diag.data.groups == g)
         assert abs(table.loc[g, "dw"] - lagsight.stats.dw_statistic(resid[rows])) < 1e-12
     assert table.loc["A", "dw_pvalue"] < 1e-6 and table.loc["B", "dw_pvalue"] > 0.01
-    assert list(diag.groups.table["group"])[0] in ("A", "C")     # sorted by evidence
+    assert list(diag.groups.table["group"])[0] in ("A", "C")  # sorted by evidence
     # the pooled within-group d never differences across boundaries, the stacked one does
     assert abs(diag.groups.pooled_dw - diag.groups.naive_dw) > 1e-3
     assert diag.groups.pooled_pvalue < 1e-6
@@ -178,7 +185,7 @@ def test_missing_values_dropped_with_a_count():
     diag = diagnose(resid)
     assert diag.n == 51
     assert any("1" in n and ("missing" in n.lower() or "nan" in n.lower()) for n in diag.notes)
-    assert math.isnan(diag.tests["Durbin-Watson"].pvalue)      # residuals only: bounds
+    assert math.isnan(diag.tests["Durbin-Watson"].pvalue)  # residuals only: bounds
 
 
 def test_unknown_kind_is_a_type_error():
@@ -215,8 +222,8 @@ def test_a_test_that_fails_in_any_way_becomes_an_error_entry(monkeypatch, kind):
 
     monkeypatch.setattr(battery, "breusch_godfrey", broken)
     d = diagnose(_ar1_resid(60), exog=np.ones((60, 1)))
-    assert d.errors["Breusch-Godfrey"] == f"{kind.__name__}: went wrong"   # one line, the kind named
-    assert "Durbin-Watson" in d.tests and "Ljung-Box" in d.tests           # the others still ran
+    assert d.errors["Breusch-Godfrey"] == f"{kind.__name__}: went wrong"  # one line, the kind named
+    assert "Durbin-Watson" in d.tests and "Ljung-Box" in d.tests  # the others still ran
     assert "not run: " in d.to_frame().set_index("test").loc["Breusch-Godfrey", "reading"]
 
 
@@ -248,15 +255,18 @@ def test_rows_without_a_group_label_are_left_out_with_a_count(missing):
     frame = _labelled_frame(np.array(labels, dtype=object))
     d = diagnose(frame, response="y", predictors=["x"], groups="g")
     assert "10 rows have no group label and were left out." in d.notes
-    assert d.n == 70 and d.groups.table["n"].sum() == 70         # 70 used + 10 noted = 80 given
+    assert d.n == 70 and d.groups.table["n"].sum() == 70  # 70 used + 10 noted = 80 given
     assert d.groups.n_groups == d.groups.n_tested == len(d.groups.table) == 2
     # the OLS is fitted on the labelled rows only: same residuals as fitting those rows directly
     kept = frame[frame["g"].notna()]
     direct = smf.ols("y ~ x", data=kept).fit()
     np.testing.assert_allclose(d.data.resid, direct.resid.to_numpy(), atol=1e-10)
     # the group count in every note and detail matches the table
-    counts = [int(m) for text in list(d.notes) + list(d.verdict.details)
-              for m in __import__("re").findall(r"(\d+) groups", text)]
+    counts = [
+        int(m)
+        for text in list(d.notes) + list(d.verdict.details)
+        for m in __import__("re").findall(r"(\d+) groups", text)
+    ]
     assert counts and set(counts) == {2}
     assert "10 rows have no group label" in str(d)
 
@@ -297,13 +307,14 @@ def test_pooled_within_group_d_is_scale_free(scale):
 
 def test_library_warnings_become_notes_and_none_escapes():
     import warnings
+
     rng = np.random.default_rng(2)
     x = rng.normal(size=60)
-    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x})   # collinear predictors
+    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x})  # collinear predictors
     with warnings.catch_warnings():
-        warnings.simplefilter("error")          # any warning that escapes fails the test
+        warnings.simplefilter("error")  # any warning that escapes fails the test
         d = diagnose(frame, response="y", predictors=["x", "x2"])
-        alternating = diagnose(np.tile([1.0, -1.0], 30))                   # a singular PACF system
+        alternating = diagnose(np.tile([1.0, -1.0], 30))  # a singular PACF system
     assert any(n.startswith("The design has rank 2 < 3 columns") for n in d.notes)  # lagsight's own fit says so
     assert any("statsmodels warned: The design matrix is rank-deficient" in n for n in d.test_notes)
     assert any(n.startswith("Correlogram: statsmodels warned: Matrix is singular") for n in alternating.notes)
@@ -311,6 +322,7 @@ def test_library_warnings_become_notes_and_none_escapes():
 
 def test_assumed_k_prime_is_said_wherever_it_is_shown():
     from lagsight.render.text import key_figures, report_sentence
+
     d = diagnose(_ar1_resid(60, 0.0))
     assert dict(key_figures(d))["k'"] == "1 (assumed: no design given)"
     assert any("assume k' = 1" in n for n in d.notes)
@@ -332,6 +344,7 @@ def test_a_group_dummy_does_not_push_the_other_group_out_of_the_table():
     # the pooled model's group-level column is zero throughout group b and is dropped there; its name
     # must go with it (group b was skipped with "'names' must have one entry per column" before)
     from statsmodels.stats.stattools import durbin_watson as sm_dw
+
     rng = np.random.default_rng(4)
     n = 80
     frame = pd.DataFrame({"x": rng.normal(size=n), "g": np.repeat(["a", "b"], n // 2)})
@@ -341,4 +354,4 @@ def test_a_group_dummy_does_not_push_the_other_group_out_of_the_table():
     assert d.groups.skipped == {} and sorted(d.groups.table["group"]) == ["a", "b"]
     resid = smf.ols("y ~ x + a_level", data=frame).fit().resid.to_numpy()
     row = d.groups.table.set_index("group").loc["b"]
-    assert row["dw"] == pytest.approx(sm_dw(resid[n // 2:]), rel=1e-10)   # statsmodels' d on group b
+    assert row["dw"] == pytest.approx(sm_dw(resid[n // 2 :]), rel=1e-10)  # statsmodels' d on group b

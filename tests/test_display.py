@@ -4,6 +4,7 @@ These are behaviour tests of the display glue; the statistics shown are checked
 in the stats and render tests.  The displayed Durbin-Watson value is compared
 with statsmodels' ``durbin_watson`` as an outside reference.
 """
+
 from __future__ import annotations
 
 import re
@@ -73,7 +74,8 @@ def test_with_widgets_the_snapshot_and_the_widget_are_separate_outputs(diag):
     # the live panel hides exactly its own snapshot
     assert f".lgs-snapshot-{panel.uid}{{display:none}}" in panel.style.value
     assert re.findall(r"\.lgs-snapshot[^{]*\{display:none\}", panel.style.value) == [
-        f".lgs-snapshot-{panel.uid}{{display:none}}"]
+        f".lgs-snapshot-{panel.uid}{{display:none}}"
+    ]
 
 
 def test_two_panels_hide_only_their_own_snapshots(diag, fit):
@@ -97,9 +99,10 @@ def test_snapshot_is_kept_current(diag):
     last = updates[-1].data["text/html"]
     assert "two-sided" in last
     # the correlogram in the snapshot is the one for the slider's lag (PNG is deterministic)
+    from lagsight.panel import SNAPSHOT_DPI
     from lagsight.render.export import figure_to_png_data_uri
     from lagsight.render.figures import correlogram_figure
-    from lagsight.panel import SNAPSHOT_DPI
+
     six = correlogram_figure(diag.correlogram, max_lag=6, band="white", period=diag.period)
     uri = figure_to_png_data_uri(six, dpi=SNAPSHOT_DPI)
     assert uri in last and uri not in cap.outputs[0].data["text/html"]  # not in the first snapshot
@@ -156,10 +159,12 @@ def test_save_html_and_panel_methods(diag, tmp_path):
 
 def test_bounds_view_text(diag):
     from lagsight.stats.bounds import dw_bounds
+
     view = glue.BoundsView(dw_bounds(20, 1))
     # Savin & White (1977) table, n = 20, k' = 1, 5 %: dL = 1.201, dU = 1.411 (from memory)
     assert "1.201" in str(view) and "1.411" in str(view)
     from matplotlib.figure import Figure
+
     fig = view.figure()
     assert isinstance(fig, Figure)
     regions = [a for ax in fig.axes for a in ax.patches if str(a.get_gid()).startswith("lgs-region-")]

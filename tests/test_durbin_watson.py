@@ -4,6 +4,7 @@ Sources named beside each check: statsmodels (a general-purpose reference
 library and its shipped datasets), Savin & White (1977), Durbin & Watson (1951),
 an independent dense computation (tests/dense_reference.py) and Monte Carlo.
 """
+
 from __future__ import annotations
 
 import math
@@ -16,10 +17,9 @@ from hypothesis import strategies as st
 from statsmodels.stats.stattools import durbin_watson as sm_durbin_watson
 
 import lagsight
+from dense_reference import block_difference_matrix, dense_cdf, mam_eigenvalues
 from lagsight.stats import quadform
 from lagsight.stats.durbin_watson import DurbinWatsonDistribution
-
-from dense_reference import block_difference_matrix, dense_cdf, mam_eigenvalues
 
 
 def _ols_resid(y, X):

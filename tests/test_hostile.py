@@ -18,6 +18,7 @@ property of the statistics themselves: Durbin-Watson d, the Breusch-Godfrey and 
 and the runs test do not change when the residuals (and the design's columns) are multiplied by a
 positive factor, so neither may their p-values.
 """
+
 from __future__ import annotations
 
 import functools
@@ -43,11 +44,15 @@ from lagsight.render.html import diagnosis_html
 from lagsight.render.text import key_figures
 
 #: examples per property (LAGSIGHT_HOSTILE_EXAMPLES=500 for a longer search; the draws are seeded either way)
-FAST = settings(max_examples=int(os.environ.get("LAGSIGHT_HOSTILE_EXAMPLES", "50")), deadline=None,
-                derandomize=True, database=None,
-                phases=(Phase.explicit, Phase.generate),
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large,
-                                       HealthCheck.function_scoped_fixture])
+FAST = settings(
+    max_examples=int(os.environ.get("LAGSIGHT_HOSTILE_EXAMPLES", "50")),
+    deadline=None,
+    derandomize=True,
+    database=None,
+    phases=(Phase.explicit, Phase.generate),
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large, HealthCheck.function_scoped_fixture],
+)
+
 
 # --------------------------------------------------------------------------- what a good outcome is
 class _Page(HTMLParser):
@@ -77,6 +82,7 @@ def _written_by_lagsight() -> tuple[set, set]:
         parsed.feed(lagsight.render.html.save_html(d, Path(folder) / "r.html").read_text(encoding="utf-8"))
     parsed.feed(diagnosis_html(d, figures="png"))
     from lagsight.display import headline_html, quiet_bundle, test_html
+
     parsed.feed(headline_html(d) + test_html(d, "Durbin-Watson") + quiet_bundle(d)["text/html"])
     return parsed.tags, parsed.attrs
 
@@ -94,9 +100,11 @@ def assert_escaped(page: str, shown) -> None:
 
 
 #: the notes lagsight writes when it drops rows (each starts with the count, or names it as below)
-_NOTED = re.compile(r"^(\d+) rows? (?:with missing or infinite |ha(?:s|ve) no group label and)"
-                    r"|^statsmodels dropped (\d+) rows? |^The first (\d+) residuals were dropped"
-                    r"|^The first (residual) was dropped")
+_NOTED = re.compile(
+    r"^(\d+) rows? (?:with missing or infinite |ha(?:s|ve) no group label and)"
+    r"|^statsmodels dropped (\d+) rows? |^The first (\d+) residuals were dropped"
+    r"|^The first (residual) was dropped"
+)
 
 
 def rows_noted(notes) -> int:
@@ -133,12 +141,33 @@ def run_api(fn, given_rows: int):
 
 
 # --------------------------------------------------------------------------- strategies
-HOSTILE = ["<script>alert(1)</script>", "&", "&amp;", '"', "'", "a\"b'c", "x" * 300, "é日本🙂", "<b>bold",
-           "</td></tr>", "  spaced  ", "line\nbreak", "tab\there", "{0}%s", "back\\slash", "zero\u200bwidth",
-           "const", "1", "-", "<!--", "]]>"]
+HOSTILE = [
+    "<script>alert(1)</script>",
+    "&",
+    "&amp;",
+    '"',
+    "'",
+    "a\"b'c",
+    "x" * 300,
+    "é日本🙂",
+    "<b>bold",
+    "</td></tr>",
+    "  spaced  ",
+    "line\nbreak",
+    "tab\there",
+    "{0}%s",
+    "back\\slash",
+    "zero\u200bwidth",
+    "const",
+    "1",
+    "-",
+    "<!--",
+    "]]>",
+]
 names = st.one_of(st.sampled_from(HOSTILE), st.text(min_size=1, max_size=10))
-labels = st.one_of(st.sampled_from(HOSTILE), st.text(max_size=6), st.integers(-3, 3),
-                   st.sampled_from([None, float("nan")]))
+labels = st.one_of(
+    st.sampled_from(HOSTILE), st.text(max_size=6), st.integers(-3, 3), st.sampled_from([None, float("nan")])
+)
 SCALES = st.sampled_from([1.0, 1e-200, 1e200])
 
 
@@ -146,11 +175,11 @@ SCALES = st.sampled_from([1.0, 1e-200, 1e200])
 def values(draw, n, *, bad=True):
     """n values: white noise or AR(1) mostly, sometimes constant, alternating or all zero; with NaN or inf
     at a few positions half of the time."""
-    rng = np.random.default_rng(draw(st.integers(0, 2 ** 16)))
+    rng = np.random.default_rng(draw(st.integers(0, 2**16)))
     shape = draw(st.sampled_from(["noise"] * 3 + ["ar1"] * 3 + ["constant", "alternating", "zeros"]))
     v = rng.normal(size=n)
     if shape == "ar1":
-        v = np.array([sum(0.7 ** k * v[t - k] for k in range(min(t + 1, 30))) for t in range(n)])
+        v = np.array([sum(0.7**k * v[t - k] for k in range(min(t + 1, 30))) for t in range(n)])
     elif shape != "noise":
         v = {"constant": np.full(n, 2.5), "alternating": np.resize([1.0, -1.0], n), "zeros": np.zeros(n)}[shape]
     if bad and n and draw(st.booleans()):
@@ -183,8 +212,9 @@ def indexes(draw, n):
 
 #: names a magic line can carry (no quote, comma, brace or '$', which the line syntax or IPython's
 #: variable expansion reads otherwise), still hostile in HTML
-MAGIC_NAMES = st.sampled_from(["<script>alert(1)</script>", "a&b", "<b>bold", "é日本🙂", "x" * 200, "</td>",
-                               "y", "x one", "&amp;", "<!--"])
+MAGIC_NAMES = st.sampled_from(
+    ["<script>alert(1)</script>", "a&b", "<b>bold", "é日本🙂", "x" * 200, "</td>", "y", "x one", "&amp;", "<!--"]
+)
 
 
 @st.composite
@@ -196,14 +226,21 @@ def frames(draw, name_pool=names):
     xu = draw(values(n))
     x = xu * scale
     cols = {pred: x}
-    kind2 = draw(st.sampled_from(["none", "noise", "copy", "double", "constant", "zeros", "bool", "category",
-                                  "object"]))
+    kind2 = draw(
+        st.sampled_from(["none", "noise", "copy", "double", "constant", "zeros", "bool", "category", "object"])
+    )
     if kind2 != "none":
         rng = np.random.default_rng(n)
-        cols[pred2] = {"noise": rng.normal(size=n), "copy": x, "double": 2 * x, "constant": np.full(n, 7.0),
-                       "zeros": np.zeros(n), "bool": rng.random(n) > 0.5,
-                       "category": pd.Categorical(rng.choice(["u", "v"], n)),
-                       "object": pd.array(rng.normal(size=n).tolist(), dtype=object)}[kind2]
+        cols[pred2] = {
+            "noise": rng.normal(size=n),
+            "copy": x,
+            "double": 2 * x,
+            "constant": np.full(n, 7.0),
+            "zeros": np.zeros(n),
+            "bool": rng.random(n) > 0.5,
+            "category": pd.Categorical(rng.choice(["u", "v"], n)),
+            "object": pd.array(rng.normal(size=n).tolist(), dtype=object),
+        }[kind2]
     with np.errstate(invalid="ignore"):  # inf - inf is NaN: one more hostile value
         y = (1 + xu + draw(values(n))) * scale
     frame = pd.DataFrame({resp: y, **cols}, index=draw(indexes(n)))
@@ -228,16 +265,26 @@ def _explicit_frames() -> list:
         e[t] = 0.6 * e[t - 1] + rng.normal()
     x = rng.normal(size=n)
     tz = pd.date_range("2024-03-30", periods=n, freq="h", tz="Europe/Paris")
-    grouped = pd.DataFrame({"<y>": 1 + x + e, "x&1": x,
-                            "g\"": np.array(["<script>a</script>", "b&c", None, np.nan] * (n // 4), dtype=object)},
-                           index=tz)
-    scaled_frame = pd.DataFrame({"y": (1 + x + e) * 1e200, "x": x * 1e200, "x copy": 2e200 * x},
-                                index=rng.permutation(n))
-    labelled = pd.DataFrame({"réponse " * 20: 1 + x + e, "flag": rng.random(n) > 0.5,
-                             "g": np.repeat(["'q'", "\u00e9\u65e5"], n // 2)},
-                            index=pd.Index([f"<i>{i}</i>" for i in range(n)], name="&when"))
-    return [(grouped, "<y>", ["x&1"], "g\"", "auto"), (scaled_frame, "y", ["x", "x copy"], None, "index"),
-            (labelled, "réponse " * 20, ["flag"], "g", "keep")]
+    grouped = pd.DataFrame(
+        {
+            "<y>": 1 + x + e,
+            "x&1": x,
+            'g"': np.array(["<script>a</script>", "b&c", None, np.nan] * (n // 4), dtype=object),
+        },
+        index=tz,
+    )
+    scaled_frame = pd.DataFrame(
+        {"y": (1 + x + e) * 1e200, "x": x * 1e200, "x copy": 2e200 * x}, index=rng.permutation(n)
+    )
+    labelled = pd.DataFrame(
+        {"réponse " * 20: 1 + x + e, "flag": rng.random(n) > 0.5, "g": np.repeat(["'q'", "\u00e9\u65e5"], n // 2)},
+        index=pd.Index([f"<i>{i}</i>" for i in range(n)], name="&when"),
+    )
+    return [
+        (grouped, "<y>", ["x&1"], 'g"', "auto"),
+        (scaled_frame, "y", ["x", "x copy"], None, "index"),
+        (labelled, "réponse " * 20, ["flag"], "g", "keep"),
+    ]
 
 
 def _shown(d, resp, preds) -> list:
@@ -257,8 +304,9 @@ def _shown(d, resp, preds) -> list:
 @example(case=_explicit_frames()[2])
 def test_hostile_frames_through_diagnose(case):
     frame, resp, preds, group, order = case
-    d = run_api(lambda: lagsight.diagnose(frame, response=resp, predictors=preds, groups=group, order=order),
-                len(frame))
+    d = run_api(
+        lambda: lagsight.diagnose(frame, response=resp, predictors=preds, groups=group, order=order), len(frame)
+    )
     if d is None:
         return
     page = diagnosis_html(d, figures="none")
@@ -280,24 +328,31 @@ def test_hostile_residual_arrays_and_designs(n, data):
     e = data.draw(values(n)) * data.draw(SCALES)
     design = data.draw(st.sampled_from(["none", "const", "collinear", "zero", "wide", "nan", "tiny"]))
     rng = np.random.default_rng(n)
-    exog = {"none": None, "const": np.ones((n, 1)),
-            "collinear": np.column_stack([np.ones(n), np.arange(n), 2 * np.arange(n)]),
-            "zero": np.column_stack([np.ones(n), np.zeros(n)]),
-            "wide": rng.normal(size=(n, n + 1)) if n else None,
-            "nan": np.column_stack([np.ones(n), np.where(np.arange(n) % 4 == 1, np.nan, rng.normal(size=n))]),
-            "tiny": np.column_stack([np.ones(n), rng.normal(size=n) * 1e-200])}[design]
+    exog = {
+        "none": None,
+        "const": np.ones((n, 1)),
+        "collinear": np.column_stack([np.ones(n), np.arange(n), 2 * np.arange(n)]),
+        "zero": np.column_stack([np.ones(n), np.zeros(n)]),
+        "wide": rng.normal(size=(n, n + 1)) if n else None,
+        "nan": np.column_stack([np.ones(n), np.where(np.arange(n) % 4 == 1, np.nan, rng.normal(size=n))]),
+        "tiny": np.column_stack([np.ones(n), rng.normal(size=n) * 1e-200]),
+    }[design]
     index = data.draw(indexes(n))
     series = pd.Series(e, index=index)
-    d = run_api(lambda: lagsight.diagnose(series, exog=exog, order=data.draw(st.sampled_from(["auto", "index"]))),
-                n)
+    d = run_api(lambda: lagsight.diagnose(series, exog=exog, order=data.draw(st.sampled_from(["auto", "index"]))), n)
     if d is not None:
         assert_escaped(diagnosis_html(d, figures="none"), _shown(d, "", []))
 
 
 @FAST
-@given(n=st.integers(12, 60), seed=st.integers(0, 10_000), scale=st.sampled_from([1e-200, 1e200, 1e-300, 1e300]),
-       design=st.sampled_from(["none", "frame", "exog, all columns", "exog, regressor only"]),
-       grouped=st.booleans(), extras=st.booleans())
+@given(
+    n=st.integers(12, 60),
+    seed=st.integers(0, 10_000),
+    scale=st.sampled_from([1e-200, 1e200, 1e-300, 1e300]),
+    design=st.sampled_from(["none", "frame", "exog, all columns", "exog, regressor only"]),
+    grouped=st.booleans(),
+    extras=st.booleans(),
+)
 def test_results_do_not_depend_on_the_scale(n, seed, scale, design, grouped, extras):
     rng = np.random.default_rng(seed)
     x = rng.normal(size=n)
@@ -313,8 +368,7 @@ def test_results_do_not_depend_on_the_scale(n, seed, scale, design, grouped, ext
         options = {"remedies": True, "power": True} if extras else {}
         frame = pd.DataFrame({"y": y, "x": x})
         base = run_api(lambda: lagsight.diagnose(frame, response="y", predictors=["x"], groups=g, **options), n)
-        big = run_api(lambda: lagsight.diagnose(frame * scale, response="y", predictors=["x"], groups=g,
-                                                **options), n)
+        big = run_api(lambda: lagsight.diagnose(frame * scale, response="y", predictors=["x"], groups=g, **options), n)
     else:
         units = scale if design == "exog, all columns" else np.array([1.0, scale])
         base = run_api(lambda: lagsight.diagnose(e, exog=X, groups=g), n)
@@ -329,8 +383,7 @@ def test_results_do_not_depend_on_the_scale(n, seed, scale, design, grouped, ext
     assert big.verdict.finding == base.verdict.finding
     if base.groups is not None:
         assert big.groups.pooled_dw == pytest.approx(base.groups.pooled_dw, rel=1e-10)
-        assert big.groups.pooled_pvalue == pytest.approx(base.groups.pooled_pvalue, rel=1e-7, abs=1e-14,
-                                                         nan_ok=True)
+        assert big.groups.pooled_pvalue == pytest.approx(base.groups.pooled_pvalue, rel=1e-7, abs=1e-14, nan_ok=True)
     assert (big.remedies is None) == (base.remedies is None)
     if base.remedies is not None:  # t-ratios and p-values are unit-free; so are the lag and rho
         for col in ("p_ols", "p_hac", "p_fgls"):
@@ -338,7 +391,6 @@ def test_results_do_not_depend_on_the_scale(n, seed, scale, design, grouped, ext
         assert big.remedies.hac_lag == base.remedies.hac_lag
     if base.power is not None:
         np.testing.assert_array_equal(big.power.power, base.power.power)
-
 
 
 # --------------------------------------------------------------------------- the magic
@@ -384,11 +436,20 @@ def test_hostile_frames_through_the_magic(shell, case):
     assert_escaped(bundle["text/html"], _shown(d, resp, preds))
 
 
-@pytest.mark.parametrize("line,says", [
-    ('e --groups "g', "cannot be read"), ("e --max-lag 0", "--max-lag"), ("e --bg-max-lag -2", "--bg-max-lag"),
-    ("e --alpha nan", "--alpha"), ("e --period 1", "--period"), ("e --order nowhere", "'nowhere'"),
-    ("undefined_name", "'undefined_name'"), ("e --X 1/0", "ZeroDivisionError"), ('e --y "y"', "--y"),
-])
+@pytest.mark.parametrize(
+    "line,says",
+    [
+        ('e --groups "g', "cannot be read"),
+        ("e --max-lag 0", "--max-lag"),
+        ("e --bg-max-lag -2", "--bg-max-lag"),
+        ("e --alpha nan", "--alpha"),
+        ("e --period 1", "--period"),
+        ("e --order nowhere", "'nowhere'"),
+        ("undefined_name", "'undefined_name'"),
+        ("e --X 1/0", "ZeroDivisionError"),
+        ('e --y "y"', "--y"),
+    ],
+)
 def test_bad_magic_lines_are_one_line_usage_errors(shell, line, says):
     shell.user_ns["e"] = np.random.default_rng(0).normal(size=30)
     with pytest.raises(UsageError) as err:
@@ -399,15 +460,16 @@ def test_bad_magic_lines_are_one_line_usage_errors(shell, line, says):
 # --------------------------------------------------------------------------- the CLI
 def _time_column(kind: str, n: int):
     days = pd.date_range("2024-01-01", periods=n, freq="D")
-    return {"iso": days.strftime("%Y-%m-%d"), "iso-offsets": [t.isoformat() for t in
-                                                              pd.date_range("2024-03-30", periods=n, freq="h",
-                                                                            tz="Europe/Paris")],
-            "numbers": np.arange(n) * 0.5, "day-first": days.strftime("%d/%m/%Y"),
-            "labels": [f"t{i + 1}" for i in range(n)],
-            "duplicates": days[np.arange(n) // 2].strftime("%Y-%m-%d"),
-            "missing": [None if i % 7 == 3 else t for i, t in enumerate(days.strftime("%Y-%m-%d"))],
-            "mixed zones": [t + ("+01:00" if i % 2 else "") for i, t in enumerate(days.strftime("%Y-%m-%dT%H:%M"))],
-            }[kind]
+    return {
+        "iso": days.strftime("%Y-%m-%d"),
+        "iso-offsets": [t.isoformat() for t in pd.date_range("2024-03-30", periods=n, freq="h", tz="Europe/Paris")],
+        "numbers": np.arange(n) * 0.5,
+        "day-first": days.strftime("%d/%m/%Y"),
+        "labels": [f"t{i + 1}" for i in range(n)],
+        "duplicates": days[np.arange(n) // 2].strftime("%Y-%m-%d"),
+        "missing": [None if i % 7 == 3 else t for i, t in enumerate(days.strftime("%Y-%m-%d"))],
+        "mixed zones": [t + ("+01:00" if i % 2 else "") for i, t in enumerate(days.strftime("%Y-%m-%dT%H:%M"))],
+    }[kind]
 
 
 def run_cli(args, capsys):
@@ -424,8 +486,12 @@ def run_cli(args, capsys):
 
 
 @FAST
-@given(case=frames(), time=st.sampled_from([None, "iso", "iso-offsets", "numbers", "day-first", "labels",
-                                            "duplicates", "missing", "mixed zones"]))
+@given(
+    case=frames(),
+    time=st.sampled_from(
+        [None, "iso", "iso-offsets", "numbers", "day-first", "labels", "duplicates", "missing", "mixed zones"]
+    ),
+)
 @example(case=_explicit_frames()[0], time="iso-offsets")
 @example(case=_explicit_frames()[1], time="missing")
 @example(case=_explicit_frames()[2], time="duplicates")
@@ -453,24 +519,24 @@ def test_hostile_files_through_the_cli(capsys, case, time):
         lines = out.splitlines()
         used, given_rows = map(int, re.search(r"^rows: (\d+) of (\d+) tested", out, re.M).groups())
         assert given_rows == len(frame)
-        assert used + rows_noted(line[len("note: "):] for line in lines if line.startswith("note: ")) == given_rows
+        assert used + rows_noted(line[len("note: ") :] for line in lines if line.startswith("note: ")) == given_rows
         assert_escaped(out_path.read_text(encoding="utf-8"), [resp, *preds])
 
 
 def test_cli_output_paths_and_time_format(tmp_path, capsys):
     rng = np.random.default_rng(1)
-    frame = pd.DataFrame({"when": pd.date_range("2024-01-01", periods=40).strftime("%d/%m/%Y"),
-                          "x": rng.normal(size=40)})
+    frame = pd.DataFrame(
+        {"when": pd.date_range("2024-01-01", periods=40).strftime("%d/%m/%Y"), "x": rng.normal(size=40)}
+    )
     frame["y"] = frame["x"] + rng.normal(size=40)
     path = tmp_path / "d.csv"
     frame.to_csv(path, index=False)
     base = ["report", str(path), "--y", "y", "--x", "x"]
-    assert run_cli(base + ["-o", str(tmp_path)], capsys)[0] == 2                       # a folder
-    assert run_cli(base + ["-o", str(tmp_path / "no" / "r.html")], capsys)[0] == 2     # a missing folder
-    assert run_cli(base + ["--time-format", "%d/%m/%Y"], capsys)[0] == 2                # no --time to describe
-    assert run_cli(base + ["--time", "when", "--time-format", "%Y-%m-%d"], capsys)[0] == 2   # does not match
-    code, out = run_cli(base + ["--time", "when", "--time-format", "%d/%m/%Y", "-o", str(tmp_path / "r.html")],
-                        capsys)
+    assert run_cli(base + ["-o", str(tmp_path)], capsys)[0] == 2  # a folder
+    assert run_cli(base + ["-o", str(tmp_path / "no" / "r.html")], capsys)[0] == 2  # a missing folder
+    assert run_cli(base + ["--time-format", "%d/%m/%Y"], capsys)[0] == 2  # no --time to describe
+    assert run_cli(base + ["--time", "when", "--time-format", "%Y-%m-%d"], capsys)[0] == 2  # does not match
+    code, out = run_cli(base + ["--time", "when", "--time-format", "%d/%m/%Y", "-o", str(tmp_path / "r.html")], capsys)
     assert code in (0, 1) and "rows: 40 of 40 tested" in out and "irregular gaps" not in out
 
 

@@ -1,4 +1,5 @@
 """Behaviour tests for lagsight.inputs: every accepted kind becomes one ResidualData."""
+
 import subprocess
 import sys
 import warnings
@@ -31,6 +32,7 @@ def quarterly_gdp():
 
 
 # --- statsmodels regression results -------------------------------------------------------------
+
 
 def test_dataframe_path_reproduces_nist_longley(longley):
     # NIST StRD Longley certified values: residual sum of squares 836424.055505915,
@@ -90,6 +92,7 @@ def test_ols_numpy_results_detect_constant_and_range_index(longley):
 
 # --- ARIMA / SARIMAX -------------------------------------------------------------------------------
 
+
 def _fit_quietly(model):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
@@ -122,8 +125,10 @@ def test_sarimax_seasonal_differencing_burn_in(quarterly_gdp):
 
 # --- scikit-learn -----------------------------------------------------------------------------------
 
+
 def test_sklearn_residuals_equal_statsmodels_ols(longley):
     from sklearn.linear_model import LinearRegression
+
     X, y = longley[["GNP", "UNEMP", "POP"]], longley.TOTEMP
     data = as_residual_data(LinearRegression().fit(X, y), exog=X, endog=y)
     reference = sm.OLS(y, sm.add_constant(X)).fit()  # reference library: statsmodels OLS
@@ -135,6 +140,7 @@ def test_sklearn_residuals_equal_statsmodels_ols(longley):
 
 def test_sklearn_without_intercept_and_ridge_note(longley):
     from sklearn.linear_model import LinearRegression, Ridge
+
     X, y = longley[["GNP", "POP"]].to_numpy(), longley.TOTEMP.to_numpy()
     data = as_residual_data(LinearRegression(fit_intercept=False).fit(X, y), exog=X, endog=y)
     assert data.exog.shape == (16, 2) and data.has_constant is False
@@ -146,6 +152,7 @@ def test_sklearn_without_intercept_and_ridge_note(longley):
 @pytest.mark.parametrize("given", [{}, {"exog": np.ones((5, 1))}, {"endog": np.ones(5)}])
 def test_sklearn_missing_data_is_a_type_error(given):
     from sklearn.linear_model import LinearRegression
+
     est = LinearRegression().fit(np.arange(10.0)[:, None], np.arange(10.0))
     with pytest.raises(TypeError, match=r"^a scikit-learn estimator needs its X and y as exog and endog: "):
         as_residual_data(est, **given)
@@ -153,6 +160,7 @@ def test_sklearn_missing_data_is_a_type_error(given):
 
 def test_sklearn_unfitted_is_a_value_error():
     from sklearn.linear_model import LinearRegression
+
     with pytest.raises(ValueError, match="has not been fitted"):
         as_residual_data(LinearRegression(), exog=np.ones((5, 1)), endog=np.ones(5))
 
@@ -165,13 +173,13 @@ def test_importing_inputs_does_not_import_sklearn():
 
 # --- residual arrays ----------------------------------------------------------------------------------
 
+
 def test_series_keeps_index_and_nan_rows_are_dropped_with_a_note():
     idx = pd.date_range("2021-01-01", periods=8, freq="D")
     s = pd.Series([0.1, -0.2, np.nan, 0.3, np.inf, -0.1, 0.2, 0.0], index=idx)
     data = as_residual_data(s)
     assert data.n == 6 and list(data.index) == list(idx.delete([2, 4]))
-    assert any(note.startswith("2 rows with missing or infinite residuals") and "gaps" in note
-               for note in data.notes)
+    assert any(note.startswith("2 rows with missing or infinite residuals") and "gaps" in note for note in data.notes)
     assert data.exog is None and data.has_constant is None
 
 
@@ -202,6 +210,7 @@ def test_too_few_or_no_rows():
 
 
 # --- DataFrame input ------------------------------------------------------------------------------------
+
 
 def test_dataframe_errors_name_the_column(longley):
     with pytest.raises(ValueError, match="'predictors': column 'GDP' is not in the DataFrame"):
@@ -240,6 +249,7 @@ def test_no_constant_added_twice(longley):
 
 # --- dispatcher errors -------------------------------------------------------------------------------------
 
+
 def test_unexpected_type_lists_the_accepted_kinds():
     with pytest.raises(TypeError) as info:
         as_residual_data({"resid": [1, 2, 3]})
@@ -262,10 +272,15 @@ def test_arguments_foreign_to_the_kind_are_type_errors(longley):
 
 # --- ResidualData helpers ------------------------------------------------------------------------------------
 
+
 def test_reorder_and_subset_move_every_row_field_together():
     idx = pd.Index(list("abcde"))
-    data = as_residual_data(pd.Series([1.0, 2, 3, 4, 5], index=idx), exog=pd.DataFrame(
-        {"x": [10.0, 20, 30, 40, 50]}, index=idx), groups=np.array([0, 0, 1, 1, 1]), time=[5, 4, 3, 2, 1])
+    data = as_residual_data(
+        pd.Series([1.0, 2, 3, 4, 5], index=idx),
+        exog=pd.DataFrame({"x": [10.0, 20, 30, 40, 50]}, index=idx),
+        groups=np.array([0, 0, 1, 1, 1]),
+        time=[5, 4, 3, 2, 1],
+    )
     back = data.reorder([4, 3, 2, 1, 0])
     assert list(back.index) == list("edcba") and list(back.resid) == [5, 4, 3, 2, 1]
     assert list(back.exog[:, 0]) == [50, 40, 30, 20, 10] and list(back.groups) == [1, 1, 1, 0, 0]

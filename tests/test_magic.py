@@ -5,6 +5,7 @@ Statistics shown by the magic are checked against statsmodels' own
 what they change in the returned Diagnosis; every user mistake must come out as
 one ``UsageError`` line with no traceback.
 """
+
 from __future__ import annotations
 
 import re
@@ -38,18 +39,32 @@ def shell():
     shuffled = frame.reset_index().sample(frac=1.0, random_state=3)
     sfit = smf.ols("demand_ml ~ temp_c + rain_mm + weekend", data=shuffled).fit()
     rng = np.random.default_rng(7)
-    stores = pd.DataFrame({
-        "store": np.repeat(["north", "south"], 80),
-        "x": rng.normal(size=160),
-    })
+    stores = pd.DataFrame(
+        {
+            "store": np.repeat(["north", "south"], 80),
+            "x": rng.normal(size=160),
+        }
+    )
     stores["y"] = 1 + 2 * stores["x"] + rng.normal(size=160)
     gfit = smf.ols("y ~ x", data=stores).fit()
     from sklearn.linear_model import LinearRegression
+
     X = frame[["temp_c", "rain_mm", "weekend"]]
     y = frame["demand_ml"]
     reg = LinearRegression().fit(X, y)
-    ip.user_ns.update(frame=frame, fit=fit, shuffled=shuffled, sfit=sfit, stores=stores, gfit=gfit,
-                      reg=reg, X=X, y=y, resid=np.asarray(fit.resid), exog=fit.model.exog)
+    ip.user_ns.update(
+        frame=frame,
+        fit=fit,
+        shuffled=shuffled,
+        sfit=sfit,
+        stores=stores,
+        gfit=gfit,
+        reg=reg,
+        X=X,
+        y=y,
+        resid=np.asarray(fit.resid),
+        exog=fit.model.exog,
+    )
     return ip
 
 
@@ -77,8 +92,20 @@ def test_nothing_is_registered_at_import():
 def test_help_shows_options_and_examples(shell):
     _, cap = run(shell, "%lagsight?")
     text = cap.stdout
-    for token in ("--max-lag", "--alpha", "--alternative", "--order", "--groups", "--period", "--X", "--y", "--static",
-                  "--quiet", "Examples", "%lagsight fit --alpha 0.01"):
+    for token in (
+        "--max-lag",
+        "--alpha",
+        "--alternative",
+        "--order",
+        "--groups",
+        "--period",
+        "--X",
+        "--y",
+        "--static",
+        "--quiet",
+        "Examples",
+        "%lagsight fit --alpha 0.01",
+    ):
         assert token in text, token
 
 
@@ -182,6 +209,7 @@ def test_power_option(shell):
 # -- what is shown -------------------------------------------------------------------
 def test_static_option_shows_one_html_output(shell, monkeypatch):
     import lagsight.display as display
+
     monkeypatch.setattr(display, "widgets_available", lambda: True)
     _, cap = run(shell, "%lagsight fit --static")
     assert len(cap.outputs) == 1
@@ -191,6 +219,7 @@ def test_static_option_shows_one_html_output(shell, monkeypatch):
 
 def test_default_shows_snapshot_and_widget_in_a_live_kernel(shell, monkeypatch):
     import lagsight.display as display
+
     monkeypatch.setattr(display, "widgets_available", lambda: True)
     _, cap = run(shell, "%lagsight fit")
     assert len(cap.outputs) == 2

@@ -1,4 +1,5 @@
 """Behaviour tests for lagsight.order: the row-order guard and frequency inference."""
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -74,8 +75,9 @@ def test_reversed_rows():
 
 
 def test_duplicate_stamps_are_counted():
-    idx = pd.DatetimeIndex(["2020-01-01", "2020-01-02", "2020-01-02", "2020-01-03", "2020-01-03",
-                            "2020-01-03", "2020-01-04"])
+    idx = pd.DatetimeIndex(
+        ["2020-01-01", "2020-01-02", "2020-01-02", "2020-01-03", "2020-01-03", "2020-01-03", "2020-01-04"]
+    )
     report = check_order(as_residual_data(pd.Series(np.arange(7.0), index=idx)))
     assert report.flags["duplicate_stamps"] == 3 and report.flags["monotonic"]
     assert any(w.startswith("3 rows share a time stamp") and "groups=" in w for w in report.warnings)
@@ -124,8 +126,13 @@ def test_stacked_panel_is_not_called_shuffled():
 
 
 def test_sort_by_a_column():
-    df = pd.DataFrame({"when": pd.date_range("2022-01-01", periods=6, freq="W")[[3, 0, 5, 1, 4, 2]],
-                       "x": [1.0, 4, 2, 8, 5, 7], "y": [2.1, 3.9, 3.2, 8.8, 5.1, 7.7]})
+    df = pd.DataFrame(
+        {
+            "when": pd.date_range("2022-01-01", periods=6, freq="W")[[3, 0, 5, 1, 4, 2]],
+            "x": [1.0, 4, 2, 8, 5, 7],
+            "y": [2.1, 3.9, 3.2, 8.8, 5.1, 7.7],
+        }
+    )
     data = as_residual_data(df, response="y", predictors=["x"])
     report = check_order(data, order="when")
     assert report.order_used == "sorted by column when"
@@ -146,17 +153,20 @@ def test_unsortable_index_warns_in_row_order_and_fails_when_sorting():
         check_order(data, order="index")
 
 
-@pytest.mark.parametrize("index, period", [
-    (pd.period_range("2000Q1", periods=12, freq="Q"), 4),
-    (pd.date_range("2000-01-01", periods=12, freq="QS"), 4),
-    (pd.date_range("2000-01-31", periods=30, freq="ME"), 12),
-    (pd.period_range("2000-01", periods=30, freq="M"), 12),
-    (pd.date_range("2000-01-01", periods=30, freq="D"), 7),
-    (pd.date_range("2000-01-01", periods=60, freq="h"), 24),
-    (pd.date_range("2000-01-02", periods=60, freq="W"), 52),
-    (pd.date_range("2000-12-31", periods=10, freq="YE"), None),
-    (pd.RangeIndex(50), None),
-])
+@pytest.mark.parametrize(
+    "index, period",
+    [
+        (pd.period_range("2000Q1", periods=12, freq="Q"), 4),
+        (pd.date_range("2000-01-01", periods=12, freq="QS"), 4),
+        (pd.date_range("2000-01-31", periods=30, freq="ME"), 12),
+        (pd.period_range("2000-01", periods=30, freq="M"), 12),
+        (pd.date_range("2000-01-01", periods=30, freq="D"), 7),
+        (pd.date_range("2000-01-01", periods=60, freq="h"), 24),
+        (pd.date_range("2000-01-02", periods=60, freq="W"), 52),
+        (pd.date_range("2000-12-31", periods=10, freq="YE"), None),
+        (pd.RangeIndex(50), None),
+    ],
+)
 def test_infer_seasonal_period(index, period):
     assert infer_seasonal_period(index) == period
 

@@ -5,6 +5,7 @@ statsmodels' Breusch-Godfrey and Ljung-Box functions, numpy's correlation, and
 the white-noise band z_{1-alpha/2}/sqrt(n) of the sample ACF (Bartlett 1946;
 Box & Jenkins), with z from scipy.
 """
+
 from __future__ import annotations
 
 import asyncio
@@ -69,8 +70,17 @@ def test_every_widget_has_a_lagsight_class(panel):
     for widget in _widgets(panel.widget):
         assert any(c.startswith("lgs-") for c in widget._dom_classes), type(widget).__name__
     named = {c for w in _widgets(panel.widget) for c in w._dom_classes}
-    for cls in ("lgs-lag-slider", "lgs-test-toggle", "lgs-alpha", "lgs-alternative", "lgs-band",
-                "lgs-lag-picker", "lgs-save", "lgs-save-path", "lgs-panel"):
+    for cls in (
+        "lgs-lag-slider",
+        "lgs-test-toggle",
+        "lgs-alpha",
+        "lgs-alternative",
+        "lgs-band",
+        "lgs-lag-picker",
+        "lgs-save",
+        "lgs-save-path",
+        "lgs-panel",
+    ):
         assert cls in named, cls
     assert panel.lag_slider.continuous_update is False and panel.lag_picker.continuous_update is False
 
@@ -228,8 +238,9 @@ def test_groups_view_follows_the_alternative():
     panel.alternative_picker.value = "negative"
     assert finding("up") == "none" and finding("down") != "none"
     figure = re.compile(r"<svg\b.*?</svg>", re.S)
-    assert figure.search(panel.groups_view.value).group(0) != figure.search(positive_view).group(0), \
+    assert figure.search(panel.groups_view.value).group(0) != figure.search(positive_view).group(0), (
         "the groups figure was not drawn again for the new alternative"
+    )
 
 
 def test_hostile_names_are_escaped_in_every_view():
@@ -348,6 +359,7 @@ def _svg_texts(markup: str) -> list[str]:
 
 def test_a_figure_that_fails_ahead_is_skipped_and_shows_its_error_when_picked(diag, monkeypatch):
     from lagsight.render import figures
+
     real = figures.scale_figure
 
     def broken(d, **kw):
@@ -411,8 +423,14 @@ def test_png_figures(diag):
 def test_notes_show_in_the_headline_and_test_notes_in_the_test_view():
     rng = np.random.default_rng(2)
     x = rng.normal(size=60)
-    frame = pd.DataFrame({"y": rng.normal(size=60), "x": x, "x2": 2 * x,
-                          "g": np.array(["a<"] * 25 + ["b&"] * 25 + [None] * 10, dtype=object)})
+    frame = pd.DataFrame(
+        {
+            "y": rng.normal(size=60),
+            "x": x,
+            "x2": 2 * x,
+            "g": np.array(["a<"] * 25 + ["b&"] * 25 + [None] * 10, dtype=object),
+        }
+    )
     d = lagsight.diagnose(frame, response="y", predictors=["x", "x2"], groups="g")
     panel = DiagnosisPanel(d, test=DW, snapshot_delay=0)
     assert "10 rows have no group label and were left out." in panel.headline.value

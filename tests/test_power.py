@@ -6,6 +6,7 @@ power under AR(1) errors (numpy eigenvalues + Imhof's formula, written here),
 the independent dense null reference in tests/dense_reference.py, statsmodels
 (a general-purpose reference library) and the closed-form AR(1) variance.
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -17,11 +18,10 @@ import pytest
 import statsmodels.api as sm
 from statsmodels.stats.stattools import durbin_watson as sm_durbin_watson
 
+from dense_reference import dense_cdf, difference_matrix
 from lagsight.stats import imhof_cdf
 from lagsight.stats import power as power_mod
 from lagsight.stats.power import PowerCurve, dw_power
-
-from dense_reference import dense_cdf, difference_matrix
 
 
 def _design(n: int, seed: int = 0, extra: int = 1) -> np.ndarray:
@@ -244,10 +244,13 @@ def test_bad_inputs(kwargs, match):
         dw_power(_design(30), **kwargs)
 
 
-@pytest.mark.parametrize("kwargs,match", [
-    ({"n_sim": 500.0}, r"'n_sim' must be an integer ≥ 100 \(got 500.0\)"),
-    ({"n_sim": True}, r"'n_sim' must be an integer ≥ 100 \(got True\)"),
-])
+@pytest.mark.parametrize(
+    "kwargs,match",
+    [
+        ({"n_sim": 500.0}, r"'n_sim' must be an integer ≥ 100 \(got 500.0\)"),
+        ({"n_sim": True}, r"'n_sim' must be an integer ≥ 100 \(got True\)"),
+    ],
+)
 def test_wrong_types_are_type_errors(kwargs, match):
     with pytest.raises(TypeError, match=match):
         dw_power(_design(30), **kwargs)

@@ -1,4 +1,5 @@
 """The public surface is curated: a sorted __all__ that this test pins."""
+
 import subprocess
 import sys
 
@@ -29,12 +30,17 @@ _NOT_RESULTS = {"load_ipython_extension", "unload_ipython_extension"}
 
 def _public_functions():
     import inspect
-    return {name: obj for name, obj in vars(lagsight).items()
-            if name in lagsight.__all__ and inspect.isfunction(obj) and name not in _NOT_RESULTS}
+
+    return {
+        name: obj
+        for name, obj in vars(lagsight).items()
+        if name in lagsight.__all__ and inspect.isfunction(obj) and name not in _NOT_RESULTS
+    }
 
 
 def test_options_are_keyword_only_and_the_data_comes_first():
     import inspect
+
     for name, fn in _public_functions().items():
         params = list(inspect.signature(fn).parameters.values())
         assert params and params[0].kind is inspect.Parameter.POSITIONAL_OR_KEYWORD, name
@@ -47,21 +53,46 @@ def test_options_are_keyword_only_and_the_data_comes_first():
 def test_one_name_per_idea():
     """The lag idea has two names (one lag, the highest lag), the sample size one, k' and rank."""
     import inspect
-    banned = {"order_by", "nlags", "maxlags", "lags", "bg_order", "seasonal_period", "nobs", "k",
-              "intercept", "regressors", "X", "y", "h", "hac_rule", "rule"}
+
+    banned = {
+        "order_by",
+        "nlags",
+        "maxlags",
+        "lags",
+        "bg_order",
+        "seasonal_period",
+        "nobs",
+        "k",
+        "intercept",
+        "regressors",
+        "X",
+        "y",
+        "h",
+        "hac_rule",
+        "rule",
+    }
     for name, fn in _public_functions().items():
         used = set(inspect.signature(fn).parameters) & banned
         assert not used, f"{name} uses {used}"
-    for cls in (lagsight.BoundsResult, lagsight.DurbinWatsonResult, lagsight.NeweyWestResult,
-                lagsight.FGLSResult, lagsight.BreuschGodfreyResult, lagsight.DurbinHResult, lagsight.LagPairs,
-                lagsight.PowerCurve):
+    for cls in (
+        lagsight.BoundsResult,
+        lagsight.DurbinWatsonResult,
+        lagsight.NeweyWestResult,
+        lagsight.FGLSResult,
+        lagsight.BreuschGodfreyResult,
+        lagsight.DurbinHResult,
+        lagsight.LagPairs,
+        lagsight.PowerCurve,
+    ):
         import dataclasses
+
         assert not {f.name for f in dataclasses.fields(cls)} & banned, cls.__name__
 
 
 def test_every_public_function_returns_an_exported_frozen_object():
     import dataclasses
     import typing
+
     for name, fn in _public_functions().items():
         hints = typing.get_type_hints(fn)
         assert "return" in hints, f"{name} has no return annotation"
@@ -73,4 +104,5 @@ def test_every_public_function_returns_an_exported_frozen_object():
 
 def test_package_is_typed():
     from importlib import resources
+
     assert resources.files("lagsight").joinpath("py.typed").is_file()

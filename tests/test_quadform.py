@@ -1,4 +1,5 @@
 """The quadratic-form engine against Davies (1980) and against itself in closed form."""
+
 from __future__ import annotations
 
 import numpy as np

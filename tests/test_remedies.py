@@ -1,15 +1,20 @@
 """Tests for lagsight.stats.remedies against published reference output and statsmodels."""
+
 import math
 
 import numpy as np
 import pytest
-from scipy import linalg, stats
 import statsmodels.api as sm
+from scipy import linalg, stats
 from statsmodels.datasets import macrodata
 from statsmodels.regression.linear_model import GLS, GLSAR
 
 from lagsight.stats.remedies import (
-    cochrane_orcutt, compare_inference, hac_lag, newey_west, prais_winsten,
+    cochrane_orcutt,
+    compare_inference,
+    hac_lag,
+    newey_west,
+    prais_winsten,
 )
 
 
@@ -19,8 +24,7 @@ def macro_growth():
     test suite (regression/tests/test_glsar_gretl.py): n = 202, columns const, gdp growth, realint(-1)."""
     d = macrodata.load_pandas().data
     y = 400 * np.diff(np.log(d["realinv"].to_numpy()))
-    X = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())),
-                              d["realint"].to_numpy()[:-1]])
+    X = sm.add_constant(np.c_[400 * np.diff(np.log(d["realgdp"].to_numpy())), d["realint"].to_numpy()[:-1]])
     return y, X
 
 
@@ -29,7 +33,7 @@ def _ar1_data(n, rho, seed, beta=(1.0, 2.0)):
     rng = np.random.default_rng(seed)
     eps = rng.standard_normal(n)
     u = np.empty(n)
-    u[0] = eps[0] / math.sqrt(1 - rho ** 2)
+    u[0] = eps[0] / math.sqrt(1 - rho**2)
     for t in range(1, n):
         u[t] = rho * u[t - 1] + eps[t]
     x = rng.standard_normal(n)
@@ -134,10 +138,10 @@ def test_cochrane_orcutt_matches_published_reference(macro_growth):
     co = cochrane_orcutt(y, Xs, rho_method="autocorrelation", tol=1e-6)
     # statsmodels test suite (regression/tests/results/macro_gr_corc_stata.py): Stata
     # "prais g_realinv g_realgdp L.realint, corc rhotype(tscorr)", tol 1e-6, 4 iterations
-    assert co.rho == pytest.approx(-.1080744185979703, abs=1e-10)
-    np.testing.assert_allclose(co.params, [4.3704012379033, -.5792713864578, -9.509886614971], rtol=1e-10)
-    np.testing.assert_allclose(co.bse, [.20815070994319, .26801792119756, .99049648344574], rtol=1e-10)
-    np.testing.assert_allclose(co.pvalues, [2.939551581e-52, .03187117882819, 3.656321106e-18], rtol=1e-8)
+    assert co.rho == pytest.approx(-0.1080744185979703, abs=1e-10)
+    np.testing.assert_allclose(co.params, [4.3704012379033, -0.5792713864578, -9.509886614971], rtol=1e-10)
+    np.testing.assert_allclose(co.bse, [0.20815070994319, 0.26801792119756, 0.99049648344574], rtol=1e-10)
+    np.testing.assert_allclose(co.pvalues, [2.939551581e-52, 0.03187117882819, 3.656321106e-18], rtol=1e-8)
     assert co.n == 201 and co.df_resid == 198 and co.iterations == 4 and co.converged
 
 
@@ -262,6 +266,7 @@ def test_corrections_are_scale_free(scale):
     # every estimator here is equivariant: data in other units give the same t-ratios, p-values,
     # HAC lag and rho, and coefficients in the new units (here y and X share the factor)
     from lagsight.stats.remedies import compare_inference
+
     rng = np.random.default_rng(40)
     n = 120
     X = np.column_stack([np.ones(n), rng.normal(size=n)])
@@ -283,6 +288,7 @@ def test_corrections_with_a_unit_constant_beside_extreme_regressors(scale):
     # Equivariance: with y and x in new units the slope stays, the intercept scales with y, and the
     # t-ratios, p-values, HAC lag and rho do not change
     from lagsight.stats.remedies import compare_inference
+
     rng = np.random.default_rng(41)
     n = 120
     x = rng.normal(size=n)

@@ -6,6 +6,7 @@ macrodata regression; statsmodels' acf; numpy's corrcoef; the PNG file
 signature (PNG specification, ISO/IEC 15948).  The escaping checks parse the
 HTML with the standard library's html.parser.
 """
+
 from __future__ import annotations
 
 import base64
@@ -50,7 +51,7 @@ def _regions(fig: Figure) -> dict:
         for p in ax.patches:
             gid = p.get_gid() or ""
             if gid.startswith("lgs-region-"):
-                out[gid[len("lgs-region-"):]] = p
+                out[gid[len("lgs-region-") :]] = p
     return out
 
 
@@ -108,10 +109,13 @@ def test_scale_figure_has_five_hatched_regions_density_and_observed_d(water):
     assert "no evidence" in zoom_texts and "dL" in zoom_texts and "dU" in zoom_texts
 
 
-@pytest.mark.parametrize("n,k,alpha,lower,upper", [
-    (100, 5, None, 1.571, 1.780),   # Savin & White (1977), 5% table
-    (150, 3, 0.01, 1.584, 1.665),   # Savin & White (1977), 1% table
-])
+@pytest.mark.parametrize(
+    "n,k,alpha,lower,upper",
+    [
+        (100, 5, None, 1.571, 1.780),  # Savin & White (1977), 5% table
+        (150, 3, 0.01, 1.584, 1.665),  # Savin & White (1977), 1% table
+    ],
+)
 def test_scale_regions_match_published_bounds(n, k, alpha, lower, upper):
     d = _design_case(n, k, seed=n)
     fig = F.scale_figure(d, alpha=alpha)
@@ -160,8 +164,11 @@ def test_scale_without_bounds_says_why():
     assert any("k' = 0" in note for note in fig.lagsight_notes)
     # n beyond the bounds limit: a message, no regions (a stand-in diagnosis carrying a long series)
     w = _design_case(60, 2, seed=7)
-    big = dataclasses.replace(w, data=w.data.replace(resid=np.zeros(BOUNDS_MAX_N + 1)),
-                              tests={DW: dataclasses.replace(w.tests[DW], bounds=None)})
+    big = dataclasses.replace(
+        w,
+        data=w.data.replace(resid=np.zeros(BOUNDS_MAX_N + 1)),
+        tests={DW: dataclasses.replace(w.tests[DW], bounds=None)},
+    )
     fig = F.scale_figure(big)
     assert not _regions(fig)
     assert any(f"n > {BOUNDS_MAX_N:,}" in note for note in fig.lagsight_notes)
@@ -169,6 +176,7 @@ def test_scale_without_bounds_says_why():
 
 def test_arima_diagnosis_has_no_scale_and_the_report_says_why():
     from statsmodels.tsa.arima.model import ARIMA
+
     rng = np.random.default_rng(8)
     y = np.cumsum(rng.normal(size=120)) * 0.1 + rng.normal(size=120)
     d = lagsight.diagnose(ARIMA(y, order=(1, 0, 0)).fit())
@@ -256,6 +264,7 @@ def test_residuals_figure_time_axis_gaps_and_thinning():
 def test_power_and_groups_figures():
     d = _design_case(60, 2, seed=11)
     from lagsight.stats.power import dw_power
+
     curve = dw_power(d.data.exog, n_sim=200)
     fig = F.power_figure(curve)
     (line,) = _by_gid(fig, "lgs-power")
@@ -395,6 +404,7 @@ def test_view_options_are_checked(water):
 def test_a_failing_figure_leaves_the_rest_of_the_report(water, monkeypatch):
     def broken(diag):
         raise RuntimeError("drawing failed on purpose")
+
     monkeypatch.setattr(F, "residuals_figure", broken)
     page = H.diagnosis_html(water)
     assert "Residuals in test order could not be drawn: drawing failed on purpose" in page
@@ -433,14 +443,21 @@ def test_user_strings_are_escaped_in_every_html_output(tmp_path_factory, resp, p
     labels = ["<script>alert(1)</script>" + g1, "a&b\"c'" + g2 + "!"]
     n = 40
     rng = np.random.default_rng(0)
-    frame = pd.DataFrame({
-        names["resp"]: rng.normal(size=n), names["pred"]: rng.normal(size=n),
-        names["group"]: np.repeat(labels, n // 2),
-    }, index=pd.Index([f"<i>{idx}{i:03d}" for i in range(n)], name="<b>when"))
+    frame = pd.DataFrame(
+        {
+            names["resp"]: rng.normal(size=n),
+            names["pred"]: rng.normal(size=n),
+            names["group"]: np.repeat(labels, n // 2),
+        },
+        index=pd.Index([f"<i>{idx}{i:03d}" for i in range(n)], name="<b>when"),
+    )
     d = lagsight.diagnose(frame, response=names["resp"], predictors=[names["pred"]], groups=names["group"])
     path = tmp_path_factory.mktemp("esc") / "r.html"
-    outputs = [H.diagnosis_html(d), H.diagnosis_html(d, figures="png"),
-               H.save_html(d, path).read_text(encoding="utf-8")]
+    outputs = [
+        H.diagnosis_html(d),
+        H.diagnosis_html(d, figures="png"),
+        H.save_html(d, path).read_text(encoding="utf-8"),
+    ]
     # shown: response and predictor names (source, remedies table), group labels, index values (span)
     shown = [names["resp"], names["pred"]] + labels + [str(d.data.index[0])]
     for page in outputs:
@@ -449,10 +466,10 @@ def test_user_strings_are_escaped_in_every_html_output(tmp_path_factory, resp, p
         assert not [a for a in parsed.attrs if a.startswith("on")]
         text = "".join(parsed.text)
         for s in shown:
-            assert escape(s, quote=True) in page      # written escaped ...
-            assert s in text                          # ... and reads back as plain text
+            assert escape(s, quote=True) in page  # written escaped ...
+            assert s in text  # ... and reads back as plain text
         for s in shown + [names["group"], "<b>when"]:
-            assert s not in page                      # never raw (each holds '<' or '&')
+            assert s not in page  # never raw (each holds '<' or '&')
 
 
 # ---------------------------------------------------------------------------
@@ -462,11 +479,14 @@ def _macro_fit():
     # statsmodels' macrodata regression from its own test suite:
     # 400 dlog(realinv) on a constant, 400 dlog(realgdp) and realint lagged one quarter
     data = sm.datasets.macrodata.load_pandas().data
-    frame = pd.DataFrame({
-        "inv": 400 * np.diff(np.log(data["realinv"].to_numpy())),
-        "gdp": 400 * np.diff(np.log(data["realgdp"].to_numpy())),
-        "rate": data["realint"].to_numpy()[:-1],
-    }, index=pd.period_range("1959Q2", periods=len(data) - 1, freq="Q"))
+    frame = pd.DataFrame(
+        {
+            "inv": 400 * np.diff(np.log(data["realinv"].to_numpy())),
+            "gdp": 400 * np.diff(np.log(data["realgdp"].to_numpy())),
+            "rate": data["realint"].to_numpy()[:-1],
+        },
+        index=pd.period_range("1959Q2", periods=len(data) - 1, freq="Q"),
+    )
     return smf.ols("inv ~ gdp + rate", data=frame).fit()
 
 
@@ -479,9 +499,11 @@ def test_report_sentence_against_statsmodels_reference_values():
     assert T.format_pvalue(d.tests[DW].pvalue) in text
     assert "against positive autocorrelation (Imhof inversion);" in text
     # quarterly index: the verdict's family is Durbin-Watson and its order-4 twin, weighted Holm
-    assert text.endswith(f"; Durbin-Watson and the order-4 test, weighted Holm (0.8 : 0.2) at alpha 0.05: "
-                         f"adjusted p = "
-                         f"{T.format_pvalue(d.verdict.adjusted_pvalue(DW))}.")
+    assert text.endswith(
+        f"; Durbin-Watson and the order-4 test, weighted Holm (0.8 : 0.2) at alpha 0.05: "
+        f"adjusted p = "
+        f"{T.format_pvalue(d.verdict.adjusted_pvalue(DW))}."
+    )
     assert md.startswith("Durbin-Watson *d* = 2.214 (*n* = 202, *k*\u2032 = 2), exact *p*-value ")
     # statsmodels test-suite reference: Breusch-Godfrey(4) LM 4.771042651230007, p 0.3116067133066697
     bg = T.report_sentence(d, "text", test=BG)
@@ -522,8 +544,14 @@ def test_plain_text_view_lists_every_test(water):
 def test_test_notes_and_data_notes_reach_the_static_html():
     rng = np.random.default_rng(2)
     x = rng.normal(size=60)
-    frame = pd.DataFrame({"y<&": rng.normal(size=60), "x": x, "x2": 2 * x,
-                          "g": np.array(["a"] * 25 + ["b"] * 25 + [None] * 10, dtype=object)})
+    frame = pd.DataFrame(
+        {
+            "y<&": rng.normal(size=60),
+            "x": x,
+            "x2": 2 * x,
+            "g": np.array(["a"] * 25 + ["b"] * 25 + [None] * 10, dtype=object),
+        }
+    )
     d = lagsight.diagnose(frame, response="y<&", predictors=["x", "x2"], groups="g")
     page = H.diagnosis_html(d, figures="none")
     assert escape("Durbin-Watson: the design has rank 2 < 3 columns; it was reduced to its column space") in page
@@ -545,6 +573,7 @@ def test_assumed_k_prime_in_the_key_figures_and_the_scale_subtitle():
 def test_lag_scatter_correlation_is_scale_free(scale):
     # Pearson's correlation does not depend on the units; numpy's corrcoef on unit data is the reference
     from lagsight.stats.correlogram import lag_pairs
+
     e = np.random.default_rng(8).normal(size=50)
     ref = float(np.corrcoef(e[:-1], e[1:])[0, 1])
     assert lag_pairs(e * scale, lag=1).correlation == pytest.approx(ref, rel=1e-12)
@@ -553,6 +582,7 @@ def test_lag_scatter_correlation_is_scale_free(scale):
 def test_a_warning_while_drawing_becomes_a_caption_note(water, monkeypatch):
     # e.g. matplotlib on a glyph its font lacks (a label in a script the font does not cover)
     import warnings
+
     real = F.residuals_figure
 
     def warns(diag, **kwargs):

@@ -5,6 +5,7 @@ Each case under "API parameters" failed on the main branch before this change (t
 ``max_lag=0``, ``bg_order=2.5`` became 2, ``seasonal_period=True`` was taken as 1, and a design of
 dummies that add up to a constant was given bounds "without constant" with k' one too large).
 """
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -37,23 +38,26 @@ def fit():
 
 
 # ---------------------------------------------------------------- API parameters
-@pytest.mark.parametrize("kwargs,kind,message", [
-    ({"max_lag": 0}, ValueError, "'max_lag' must be an integer ≥ 1 (got 0)"),
-    ({"max_lag": -3}, ValueError, "'max_lag' must be an integer ≥ 1 (got -3)"),
-    ({"max_lag": 2.5}, TypeError, "'max_lag' must be an integer ≥ 1 (got 2.5)"),
-    ({"bg_max_lag": 0}, ValueError, "'bg_max_lag' must be an integer ≥ 1 (got 0)"),
-    ({"bg_max_lag": -2}, ValueError, "'bg_max_lag' must be an integer ≥ 1 (got -2)"),
-    ({"bg_max_lag": 2.5}, TypeError, "'bg_max_lag' must be an integer ≥ 1 (got 2.5)"),
-    ({"period": 1}, ValueError, "'period' must be 0 (off) or an integer ≥ 2 (got 1)"),
-    ({"period": -4}, ValueError, "'period' must be 0 (off) or an integer ≥ 2 (got -4)"),
-    ({"period": True}, TypeError, "'period' must be 0 (off) or an integer ≥ 2 (got True)"),
-    ({"alpha": 1.5}, ValueError, "'alpha' must be in (0, 1) (got 1.5)"),
-    ({"alpha": "0.05"}, TypeError, "'alpha' must be a number in (0, 1) (got '0.05')"),
-    ({"alternative": "up"}, ValueError, "'alternative' must be one of"),
-    ({"remedies": 1}, ValueError, "'remedies' must be one of 'auto', True, False (got 1)"),
-    ({"power": "yes"}, TypeError, "'power' must be True or False (got 'yes')"),
-    ({"order": 3}, TypeError, "'order' must be 'auto', 'keep', 'index' or a column name (got 3)"),
-])
+@pytest.mark.parametrize(
+    "kwargs,kind,message",
+    [
+        ({"max_lag": 0}, ValueError, "'max_lag' must be an integer ≥ 1 (got 0)"),
+        ({"max_lag": -3}, ValueError, "'max_lag' must be an integer ≥ 1 (got -3)"),
+        ({"max_lag": 2.5}, TypeError, "'max_lag' must be an integer ≥ 1 (got 2.5)"),
+        ({"bg_max_lag": 0}, ValueError, "'bg_max_lag' must be an integer ≥ 1 (got 0)"),
+        ({"bg_max_lag": -2}, ValueError, "'bg_max_lag' must be an integer ≥ 1 (got -2)"),
+        ({"bg_max_lag": 2.5}, TypeError, "'bg_max_lag' must be an integer ≥ 1 (got 2.5)"),
+        ({"period": 1}, ValueError, "'period' must be 0 (off) or an integer ≥ 2 (got 1)"),
+        ({"period": -4}, ValueError, "'period' must be 0 (off) or an integer ≥ 2 (got -4)"),
+        ({"period": True}, TypeError, "'period' must be 0 (off) or an integer ≥ 2 (got True)"),
+        ({"alpha": 1.5}, ValueError, "'alpha' must be in (0, 1) (got 1.5)"),
+        ({"alpha": "0.05"}, TypeError, "'alpha' must be a number in (0, 1) (got '0.05')"),
+        ({"alternative": "up"}, ValueError, "'alternative' must be one of"),
+        ({"remedies": 1}, ValueError, "'remedies' must be one of 'auto', True, False (got 1)"),
+        ({"power": "yes"}, TypeError, "'power' must be True or False (got 'yes')"),
+        ({"order": 3}, TypeError, "'order' must be 'auto', 'keep', 'index' or a column name (got 3)"),
+    ],
+)
 def test_diagnose_refuses_what_the_magic_refuses(fit, kwargs, kind, message):
     with pytest.raises(kind) as info:
         lagsight.diagnose(fit, **kwargs)
@@ -61,19 +65,22 @@ def test_diagnose_refuses_what_the_magic_refuses(fit, kwargs, kind, message):
     assert text.startswith(message) and "\n" not in text
 
 
-@pytest.mark.parametrize("call", [
-    lambda e, X: breusch_godfrey(e, X, max_lag=2.5),
-    lambda e, X: durbin_alternative(e, X, max_lag=True),
-    lambda e, X: ljung_box(e, max_lag=2.5),
-    lambda e, X: correlogram(e, max_lag=2.5),
-    lambda e, X: lag_pairs(e, lag=1.0),
-    lambda e, X: lagsight.durbin_watson(e, X, lag=2.5),
-    lambda e, X: lagsight.dw_distribution(X, lag=True),
-    lambda e, X: lagsight.dw_bounds(50, 2.5),
-    lambda e, X: lagsight.dw_power(X, n_sim=500.0),
-    lambda e, X: lagsight.newey_west(e + 1.0, X, max_lag=1.5),
-    lambda e, X: lagsight.durbin_watson(e, k_prime=1.5),
-])
+@pytest.mark.parametrize(
+    "call",
+    [
+        lambda e, X: breusch_godfrey(e, X, max_lag=2.5),
+        lambda e, X: durbin_alternative(e, X, max_lag=True),
+        lambda e, X: ljung_box(e, max_lag=2.5),
+        lambda e, X: correlogram(e, max_lag=2.5),
+        lambda e, X: lag_pairs(e, lag=1.0),
+        lambda e, X: lagsight.durbin_watson(e, X, lag=2.5),
+        lambda e, X: lagsight.dw_distribution(X, lag=True),
+        lambda e, X: lagsight.dw_bounds(50, 2.5),
+        lambda e, X: lagsight.dw_power(X, n_sim=500.0),
+        lambda e, X: lagsight.newey_west(e + 1.0, X, max_lag=1.5),
+        lambda e, X: lagsight.durbin_watson(e, k_prime=1.5),
+    ],
+)
 def test_a_count_of_the_wrong_type_is_a_type_error_everywhere(fit, call):
     with pytest.raises(TypeError, match=r"must be an integer ≥ \d+ \(got (2\.5|True|1\.0|1\.5|500\.0)\)$"):
         call(np.asarray(fit.resid), fit.model.exog)
@@ -84,6 +91,7 @@ def test_panel_and_views_use_the_same_checks(fit):
     with pytest.raises(TypeError, match=r"^'max_lag' must be an integer ≥ 1 \(got 2\.5\)$"):
         DiagnosisPanel(d, max_lag=2.5, snapshot_delay=0)
     from lagsight.render.html import build_view
+
     with pytest.raises(ValueError, match=r"^'max_lag' must be an integer ≥ 1 \(got 0\)$"):
         build_view(d, max_lag=0)
 
@@ -103,12 +111,15 @@ def shell(fit):
     return ip
 
 
-@pytest.mark.parametrize("line,message", [
-    ("rules_fit --max-lag 0", "--max-lag must be an integer ≥ 1 (got 0)"),
-    ("rules_fit --bg-max-lag -2", "--bg-max-lag must be an integer ≥ 1 (got -2)"),
-    ("rules_fit --period 1", "--period must be 0 (off) or an integer ≥ 2 (got 1)"),
-    ("rules_fit --alpha 2", "--alpha must be in (0, 1) (got 2.0)"),
-])
+@pytest.mark.parametrize(
+    "line,message",
+    [
+        ("rules_fit --max-lag 0", "--max-lag must be an integer ≥ 1 (got 0)"),
+        ("rules_fit --bg-max-lag -2", "--bg-max-lag must be an integer ≥ 1 (got -2)"),
+        ("rules_fit --period 1", "--period must be 0 (off) or an integer ≥ 2 (got 1)"),
+        ("rules_fit --alpha 2", "--alpha must be in (0, 1) (got 2.0)"),
+    ],
+)
 def test_the_magic_gives_the_api_message_under_its_own_option_names(shell, line, message):
     with pytest.raises(UsageError) as info:
         shell.run_line_magic("lagsight", line)
@@ -133,7 +144,7 @@ def test_constant_detector_matches_statsmodels_on_implicit_constants():
         "two dummies and a trend": np.column_stack([groups[:, :2], x]),
         "a column of 7s": np.column_stack([np.full(n, 7.0), x]),
         "shares adding up to 100": np.column_stack([30 + x, 70 - x, rng.normal(size=n)]),
-        "no constant": np.column_stack([x, x ** 2]),
+        "no constant": np.column_stack([x, x**2]),
         "nearly constant": np.column_stack([1 + 1e-6 * x, rng.normal(size=n)]),
     }
     for name, X in cases.items():

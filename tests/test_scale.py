@@ -6,6 +6,7 @@ compared with the short-series path on the same data, or with the reference libr
 short path was checked against (named beside each check).  Speed and memory at 10^7 rows are
 measured by benchmarks/bench_scale.py, not here.
 """
+
 import importlib
 
 import numpy as np
@@ -81,23 +82,29 @@ def test_exact_durbin_watson_same_on_both_paths(monkeypatch, lag, blocks):
                 m.setattr(dw_module, "BLOCKED_BASIS_MIN_N", 0)
                 m.setattr(quadform._ChebMoments, "_COLS", 128)
                 m.setattr(quadform, "_WW_CACHE_MAX", 0)
-                if name == "direct":   # every evaluation by the direct sums, in column blocks
+                if name == "direct":  # every evaluation by the direct sums, in column blocks
                     m.setattr(quadform, "_CHEB_MIN_N", 1 << 40)
                     m.setattr(quadform, "_DIRECT_BLOCK", 20_000)
             dist = dw_module.DurbinWatsonDistribution(X, lag, blocks=rows)
-            out[name] = (dist.mean, dist.var, dist.cdf(np.array([d, d + 0.05, 1.6])), dist.tails(1.6)[0],
-                         dist.project(e), dist.rank)
-            probe = np.random.default_rng(0).standard_normal(X.shape[0])   # not orthogonal to X
+            out[name] = (
+                dist.mean,
+                dist.var,
+                dist.cdf(np.array([d, d + 0.05, 1.6])),
+                dist.tails(1.6)[0],
+                dist.project(e),
+                dist.rank,
+            )
+            probe = np.random.default_rng(0).standard_normal(X.shape[0])  # not orthogonal to X
             np.testing.assert_allclose(dist.project(probe, X), dist.project(probe), rtol=1e-10)
-    assert len(used) == 2   # the blocked basis ran for the long paths only
+    assert len(used) == 2  # the blocked basis ran for the long paths only
     short = out["short"]
     for name in ("long", "direct"):
         other = out[name]
         assert short[5] == other[5] == X.shape[1]
         np.testing.assert_allclose(other[0], short[0], rtol=1e-13)
         np.testing.assert_allclose(other[1], short[1], rtol=1e-11)
-        np.testing.assert_allclose(other[2], short[2], rtol=0, atol=1e-12)   # the engine's absolute accuracy
-        np.testing.assert_allclose(other[3], short[3], rtol=1e-9)            # a tail near 1e-10, relative
+        np.testing.assert_allclose(other[2], short[2], rtol=0, atol=1e-12)  # the engine's absolute accuracy
+        np.testing.assert_allclose(other[3], short[3], rtol=1e-9)  # a tail near 1e-10, relative
         # the residuals are orthogonal to the design on both paths (Q'e is rounding)
         assert np.abs(other[4]).max() < 1e-10 * np.linalg.norm(e)
 
@@ -106,6 +113,7 @@ def test_direct_sums_without_the_product_matrix(monkeypatch):
     y, X = _regression(n=600)
     Q = np.linalg.qr(X)[0]
     from scipy import fft
+
     W = fft.dct(Q.T, type=2, norm="ortho", axis=1)
     nu = 2.0 - 2.0 * np.cos(np.pi * np.arange(600) / 600)
     z = 2j * np.array([0.3, 1.0, 7.0, 40.0])
@@ -137,7 +145,7 @@ def test_fgls_from_lag_products_equals_the_transformed_rows(monkeypatch, long_pa
 
     def without_products(self, ols):
         original(self, ols)
-        self.lp = None   # every residual and transformed row formed block by block
+        self.lp = None  # every residual and transformed row formed block by block
 
     monkeypatch.setattr(remedies._ResidualMoments, "__init__", without_products)
     slow = prais_winsten(y, X), cochrane_orcutt(y, X, rho_method="autocorrelation")
@@ -224,13 +232,14 @@ def test_dataframe_fit_sharing_the_constant_check_equals_statsmodels(long_paths,
 
 def test_checks_read_in_blocks_find_what_a_whole_array_check_finds(long_paths):
     from lagsight.stats._arrays import as_design, constant_columns
+
     X = np.column_stack([np.full(1000, 2.0), np.ones(1000), np.arange(1000.0)])
-    X[999, 1] = 1.5   # no longer constant in the last block only
+    X[999, 1] = 1.5  # no longer constant in the last block only
     np.testing.assert_array_equal(constant_columns(X), (np.ptp(X, axis=0) == 0) & (X[0] != 0))
     X[777, 2] = np.nan
     with pytest.raises(ValueError, match="at row 777, column 2"):
         as_design(X, 1000, full_rank=False)
-    huge = np.full((500, 2), 1e308)   # finite, though their sum overflows
+    huge = np.full((500, 2), 1e308)  # finite, though their sum overflows
     assert as_design(huge, 500, full_rank=False) is huge
 
 
@@ -255,15 +264,16 @@ def test_diagnose_same_on_both_paths(monkeypatch):
         assert long.tests[name].statistic == pytest.approx(res.statistic, rel=1e-10), name
         assert long.tests[name].pvalue == pytest.approx(res.pvalue, rel=1e-8, abs=1e-12), name
     cols = ["coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls", "p_ols", "p_hac", "p_fgls"]
-    np.testing.assert_allclose(long.remedies.table[cols].to_numpy(float), short.remedies.table[cols].to_numpy(float),
-                               rtol=1e-9)
+    np.testing.assert_allclose(
+        long.remedies.table[cols].to_numpy(float), short.remedies.table[cols].to_numpy(float), rtol=1e-9
+    )
     assert long.remedies.hac_lag == short.remedies.hac_lag
 
 
 def test_residual_line_thinned_by_chunks_equals_one_pass(monkeypatch):
     figures = importlib.import_module("lagsight.render.figures")
     rng = np.random.default_rng(8)
-    e = np.round(rng.standard_normal(50_001), 1)   # many ties: the first extreme of each block counts
+    e = np.round(rng.standard_normal(50_001), 1)  # many ties: the first extreme of each block counts
     one_pass = figures._thin_series(e, 400)
     monkeypatch.setattr(figures, "_THIN_CHUNK", 300)
     np.testing.assert_array_equal(figures._thin_series(e, 400), one_pass)

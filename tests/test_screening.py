@@ -7,6 +7,7 @@ Durbin-Watson p-values, lagsight.durbin_watson on each model alone (the engine i
 is checked against outside references in test_durbin_watson.py; here the screen must
 agree with it).  The series below are invented for behaviour tests.
 """
+
 from __future__ import annotations
 
 import concurrent.futures as cf
@@ -102,8 +103,9 @@ def test_grunfeld_one_ols_per_firm_matches_statsmodels():
     # statsmodels' Grunfeld investment data: 11 firms x 20 years; invest on value and capital per firm
     data = sm.datasets.grunfeld.load_pandas().data
     shuffled = data.sample(frac=1.0, random_state=3)  # rows of firms interleaved and out of year order
-    res = screen(shuffled, response="invest", predictors=["value", "capital"], groups="firm",
-                 order="year", progress=False)
+    res = screen(
+        shuffled, response="invest", predictors=["value", "capital"], groups="firm", order="year", progress=False
+    )
     t = res.table.set_index("model")
     assert sorted(t.index) == sorted(data["firm"].unique()) and res.failed == {}
     for firm, part in data.groupby("firm"):
@@ -145,8 +147,9 @@ def test_residual_columns_shared_design_and_models_without_design():
     assert res.table["model"].iloc[0] == "sensor 1"  # the positively correlated one leads
 
     # a residual series without its design has bounds only: out of the adjustment, sorted after the rest
-    mixed = screen({"with design": {"model": cols["sensor 0"], "exog": X}, "no design": cols["sensor 1"]},
-                   progress=False)
+    mixed = screen(
+        {"with design": {"model": cols["sensor 0"], "exog": X}, "no design": cols["sensor 1"]}, progress=False
+    )
     last = mixed.table.iloc[-1]
     assert last["model"] == "no design" and last["dw_method"] == "bounds only"
     assert np.isnan(last["dw_pvalue"]) and np.isnan(last["dw_p_adjusted"]) and last["status"] == "ok"
@@ -159,13 +162,18 @@ def test_residual_columns_shared_design_and_models_without_design():
 
 def test_a_scikit_learn_entry_and_a_dataframe_entry():
     from sklearn.linear_model import LinearRegression
+
     rng = np.random.default_rng(8)
     X = rng.normal(size=(90, 2))
     y = 2 + X @ np.array([1.0, -1.0]) + _ar1(90, 0.3, rng)
     est = LinearRegression().fit(X, y)
     frame = pd.DataFrame({"load": y, "t1": X[:, 0], "t2": X[:, 1]})
-    res = screen({"sk": {"model": est, "exog": X, "endog": y}, "frame": frame},
-                 response="load", predictors=["t1", "t2"], progress=False)
+    res = screen(
+        {"sk": {"model": est, "exog": X, "endog": y}, "frame": frame},
+        response="load",
+        predictors=["t1", "t2"],
+        progress=False,
+    )
     t = res.table.set_index("model")
     design = sm.add_constant(X)
     alone = lagsight.durbin_watson(y - est.predict(X), design)
@@ -257,8 +265,9 @@ def test_dask_local_cluster_executor_gives_the_serial_results():
     serial = screen(models, progress=False)
     cluster = client = None
     try:
-        cluster = distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                           host="127.0.0.1", dashboard_address=None)
+        cluster = distributed.LocalCluster(
+            n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None
+        )
         client = distributed.Client(cluster)
         on_cluster = screen(models, executor=client.get_executor(), chunksize=2, progress=False)
     finally:
@@ -311,24 +320,47 @@ def test_progress_bar_and_views(capsys):
     assert quiet is not None and capsys.readouterr().err == ""
 
 
-@pytest.mark.parametrize("kwargs, error, message", [
-    ({"models": {"a": np.arange(10.0)}, "alpha": 1.5}, ValueError, "'alpha' must be in (0, 1) (got 1.5)"),
-    ({"models": {"a": np.arange(10.0)}, "alternative": "up"}, ValueError, "'alternative' must be one of"),
-    ({"models": [np.arange(10.0)]}, TypeError, "'models' must be a mapping"),
-    ({"models": {}}, ValueError, "'models' must hold at least one model (got 0)"),
-    ({"models": {"a": np.arange(10.0)}, "executor": "pool"}, TypeError,
-     "'executor' must be a concurrent.futures.Executor (got str)"),
-    ({"models": {"a": np.arange(10.0)}, "chunksize": 0}, ValueError, "'chunksize' must be an integer ≥ 1 (got 0)"),
-    ({"models": {"a": np.arange(10.0)}, "groups": "g"}, TypeError, "'groups' applies when 'models' is a DataFrame"),
-    ({"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "g"}, TypeError,
-     "needs response= and predictors="),
-    ({"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "g", "response": "y",
-      "predictors": ["x"]}, ValueError, "'predictors': column 'x' is not in the DataFrame"),
-    ({"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "h", "response": "y",
-      "predictors": []}, ValueError, "'groups': column 'h' is not in the DataFrame"),
-    ({"models": pd.DataFrame({"r": [1.0, 2.0, 0.5]}), "order": "time"}, ValueError,
-     "'order' must be 'auto', 'keep' or 'index' when each column is a residual series"),
-])
+@pytest.mark.parametrize(
+    "kwargs, error, message",
+    [
+        ({"models": {"a": np.arange(10.0)}, "alpha": 1.5}, ValueError, "'alpha' must be in (0, 1) (got 1.5)"),
+        ({"models": {"a": np.arange(10.0)}, "alternative": "up"}, ValueError, "'alternative' must be one of"),
+        ({"models": [np.arange(10.0)]}, TypeError, "'models' must be a mapping"),
+        ({"models": {}}, ValueError, "'models' must hold at least one model (got 0)"),
+        (
+            {"models": {"a": np.arange(10.0)}, "executor": "pool"},
+            TypeError,
+            "'executor' must be a concurrent.futures.Executor (got str)",
+        ),
+        ({"models": {"a": np.arange(10.0)}, "chunksize": 0}, ValueError, "'chunksize' must be an integer ≥ 1 (got 0)"),
+        ({"models": {"a": np.arange(10.0)}, "groups": "g"}, TypeError, "'groups' applies when 'models' is a DataFrame"),
+        (
+            {"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "g"},
+            TypeError,
+            "needs response= and predictors=",
+        ),
+        (
+            {
+                "models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}),
+                "groups": "g",
+                "response": "y",
+                "predictors": ["x"],
+            },
+            ValueError,
+            "'predictors': column 'x' is not in the DataFrame",
+        ),
+        (
+            {"models": pd.DataFrame({"y": [1.0, 2.0], "g": [1, 1]}), "groups": "h", "response": "y", "predictors": []},
+            ValueError,
+            "'groups': column 'h' is not in the DataFrame",
+        ),
+        (
+            {"models": pd.DataFrame({"r": [1.0, 2.0, 0.5]}), "order": "time"},
+            ValueError,
+            "'order' must be 'auto', 'keep' or 'index' when each column is a residual series",
+        ),
+    ],
+)
 def test_bad_arguments_get_one_line_messages(kwargs, error, message):
     with pytest.raises(error) as info:
         screen(progress=False, **kwargs)
@@ -343,9 +375,10 @@ def test_all_group_labels_missing_is_a_one_line_error():
 
 def test_library_warnings_become_notes_in_the_table():
     import warnings
+
     rng = np.random.default_rng(3)
     x = rng.normal(size=50)
-    frame = pd.DataFrame({"y": rng.normal(size=50), "x": x, "x2": 2 * x})          # collinear
+    frame = pd.DataFrame({"y": rng.normal(size=50), "x": x, "x2": 2 * x})  # collinear
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         res = screen({"collinear": {"model": frame, "response": "y", "predictors": ["x", "x2"]}}, progress=False)

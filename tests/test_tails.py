@@ -6,6 +6,7 @@ matrix A with LAPACK, then the inversion integral along the saddle-point line
 with QUADPACK, sharing no code with lagsight), and the closed form for two
 residual eigenvalues (a ratio of two squared normals is a Cauchy ratio).
 """
+
 from __future__ import annotations
 
 import math
@@ -18,18 +19,17 @@ from hypothesis import strategies as st
 from scipy import fft, optimize
 
 import lagsight
+from dense_reference import block_difference_matrix, log_dense_tail, mam_eigenvalues, two_eigenvalue_cdf
 from lagsight.stats.durbin_watson import DurbinWatsonDistribution
 from lagsight.stats.quadform import SpectralForm
 from lagsight.stats.tails import tail_probability
-
-from dense_reference import block_difference_matrix, log_dense_tail, mam_eigenvalues, two_eigenvalue_cdf
 
 EPS = np.finfo(float).eps
 
 
 def _poly(n, degree):
     t = np.arange(1.0, n + 1)
-    return np.column_stack([t ** j for j in range(degree + 1)])
+    return np.column_stack([t**j for j in range(degree + 1)])
 
 
 def _quarterly_dummies(n):
@@ -77,8 +77,10 @@ def _edges(X, lag, blocks):
 def _solve_target(dist, target, tail, lo, hi):
     """The c where the engine's tail equals ``target`` (found with the engine; the check
     that follows compares engine and reference at that same c)."""
+
     def f(c):
         return dist.tail(c, tail).log_value - math.log(target)
+
     try:
         return optimize.brentq(f, lo, hi, xtol=1e-15, rtol=4 * EPS, maxiter=200)
     except ValueError:
@@ -99,7 +101,7 @@ def test_far_tails_match_dense_reference(name, tail):
             lo, hi = mean + 1e-3 * (lam_max - mean), lam_max - 1e-13 * (lam_max - mean)
         c = _solve_target(dist, target, tail, lo, hi)
         if c is None:
-            continue   # not reachable for this design: the tail ends before the target
+            continue  # not reachable for this design: the tail ends before the target
         log_ref, s0 = _reference(X, c, tail, lag, blocks)
         # one rounding unit in c (or in an O(1) eigenvalue) moves log P by |s0| m eps:
         # targets where that alone exceeds 1e-7 are too ill-conditioned to compare to 1e-6
@@ -110,7 +112,7 @@ def test_far_tails_match_dense_reference(name, tail):
         assert rel <= 1e-6, (name, tail, target, c, res, math.exp(log_ref))
         assert res.method.startswith("exact (saddle-line inversion)")
         checked += 1
-        print(name, tail, target, f'{rel:.1e}')
+        print(name, tail, target, f"{rel:.1e}")
     assert checked >= 1, f"no target reachable for {name}, {tail}"
 
 
@@ -160,7 +162,7 @@ def test_cubic_residuals_on_a_quadratic_trend():
     # under the null is about 3e-15 (dense reference), and the test reports it exactly
     X = _poly(25, 2)
     t = np.arange(1.0, 26)
-    e = t ** 3 - X @ np.linalg.lstsq(X, t ** 3, rcond=None)[0]
+    e = t**3 - X @ np.linalg.lstsq(X, t**3, rcond=None)[0]
     res = lagsight.durbin_watson(e, X)
     log_ref = log_dense_tail(X, res.statistic, "lower")
     assert abs(res.pvalue / math.exp(log_ref) - 1) < 1e-6
@@ -171,8 +173,9 @@ def test_cubic_residuals_on_a_quadratic_trend():
 def test_edge_of_support_without_intercept():
     # a 5 x 2 design without a constant: the support of d starts at the smallest residual
     # eigenvalue (dense reference); just above it the tail is tiny, below it exactly 0
-    X = np.array([[1.52006, 0.53631], [2.54711, -1.10479], [1.15606, -0.18289],
-                  [1.05060, -0.24901], [0.61487, -0.27219]])
+    X = np.array(
+        [[1.52006, 0.53631], [2.54711, -1.10479], [1.15606, -0.18289], [1.05060, -0.24901], [0.61487, -0.27219]]
+    )
     lam = mam_eigenvalues(X)
     dist = DurbinWatsonDistribution(X)
     assert dist.cdf(lam[0] - 1e-4) == 0.0
@@ -212,6 +215,7 @@ def test_underflowed_p_value_is_written_from_its_logarithm():
     # a regression whose residuals follow a smooth wave: d is tiny, P(d <= d_obs) ~ 1e-500 (below
     # the smallest double); the verdict and the sentence to paste give it from log10 p
     from lagsight.render.text import report_sentence
+
     n = 800
     rng = np.random.default_rng(21)
     X = np.column_stack([np.ones(n), rng.normal(size=n)])
@@ -246,8 +250,13 @@ def test_scale_free_on_the_large_n_path(scale):
 
 @settings(max_examples=int(__import__("os").environ.get("LAGSIGHT_TAIL_EXAMPLES", "15")), deadline=None)
 @given(
-    n=st.integers(6, 40), k=st.integers(1, 4), intercept=st.booleans(), lag=st.sampled_from([1, 1, 2, 4]),
-    tail=st.sampled_from(["lower", "upper"]), closeness=st.floats(0.02, 9.0), seed=st.integers(0, 10**6),
+    n=st.integers(6, 40),
+    k=st.integers(1, 4),
+    intercept=st.booleans(),
+    lag=st.sampled_from([1, 1, 2, 4]),
+    tail=st.sampled_from(["lower", "upper"]),
+    closeness=st.floats(0.02, 9.0),
+    seed=st.integers(0, 10**6),
 )
 def test_random_designs_in_the_tails_match_dense_reference(n, k, intercept, lag, tail, closeness, seed):
     # property: for random designs (with or without a constant, lag 1, 2 or 4) and a c between
@@ -260,7 +269,7 @@ def test_random_designs_in_the_tails_match_dense_reference(n, k, intercept, lag,
     assume(n - lag > X.shape[1] + 2)
     dist = DurbinWatsonDistribution(X, lag)
     lam_min, lam_max, mean, m = _edges(X, lag, None)
-    depth = 1.0 - 10.0 ** -closeness          # c from the mean (0) to within 1e-9 of the end (1)
+    depth = 1.0 - 10.0**-closeness  # c from the mean (0) to within 1e-9 of the end (1)
     c = mean - depth * (mean - lam_min) if tail == "lower" else mean + depth * (lam_max - mean)
     res = dist.tail(c, tail)
     log_ref, s0 = _reference(X, c, tail, lag, None)

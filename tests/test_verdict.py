@@ -1,5 +1,6 @@
 """The verdict: one rule for the leading test and the finding, its error rate, the four findings, and
 every view reading it."""
+
 from __future__ import annotations
 
 import math
@@ -34,8 +35,9 @@ def _design(name_start):
 
 
 # ----------------------------------------------------------------------------- size and power
-@pytest.mark.parametrize("start,seed", [("tiny shop", 11), ("ferry tickets", 12), ("pressure log", 13),
-                                        ("warehouse stock", 14)])
+@pytest.mark.parametrize(
+    "start,seed", [("tiny shop", 11), ("ferry tickets", 12), ("pressure log", 13), ("warehouse stock", 14)]
+)
 def test_white_noise_evidence_rate_is_at_most_alpha(start, seed):
     # a seeded version of benchmarks/bench_verdict.py: on white-noise errors the verdict says
     # "evidence" at most alpha of the time (fails beyond 3 Monte Carlo standard errors at alpha)
@@ -56,7 +58,7 @@ def test_holm_matches_statsmodels():
     # reference: statsmodels.stats.multitest.multipletests(method='holm')
     rng = np.random.default_rng(5)
     for m in (1, 2, 3, 6):
-        for _ in range(3):   # few calls: each one runs a full garbage collection
+        for _ in range(3):  # few calls: each one runs a full garbage collection
             p = rng.uniform(size=m) ** 3
             np.testing.assert_allclose(holm(p), multipletests(p, method="holm")[1], rtol=1e-12)
 
@@ -103,7 +105,7 @@ def test_seasonal_test_runs_only_when_the_period_is_known():
     rng = np.random.default_rng(2)
     design = _design("heat pump")
     kw = design.draw(0.0, rng)
-    plain = dict(kw, model=kw["model"].reset_index(drop=True))        # same residuals, no frequency
+    plain = dict(kw, model=kw["model"].reset_index(drop=True))  # same residuals, no frequency
     assert SEASONAL in lagsight.diagnose(**kw, remedies=False).tests
     d = lagsight.diagnose(**plain, remedies=False)
     assert SEASONAL not in d.tests and SEASONAL not in d.errors
@@ -117,9 +119,10 @@ def _phillips_style_fit():
     # statsmodels' bundled macrodata (US quarterly, 1959Q1-2009Q3): inflation on its own lag and
     # unemployment, a regression with the lagged response as a regressor
     m = sm.datasets.macrodata.load_pandas().data
-    frame = pd.DataFrame({"infl": m["infl"].to_numpy()[1:], "infl_lag": m["infl"].to_numpy()[:-1],
-                          "unemp": m["unemp"].to_numpy()[1:]},
-                         index=pd.period_range("1959Q2", periods=len(m) - 1, freq="Q"))
+    frame = pd.DataFrame(
+        {"infl": m["infl"].to_numpy()[1:], "infl_lag": m["infl"].to_numpy()[:-1], "unemp": m["unemp"].to_numpy()[1:]},
+        index=pd.period_range("1959Q2", periods=len(m) - 1, freq="Q"),
+    )
     return smf.ols("infl ~ infl_lag + unemp", data=frame).fit()
 
 
@@ -150,6 +153,7 @@ def test_arima_residuals_are_led_by_ljung_box_with_the_model_df():
     rng = np.random.default_rng(8)
     y = pd.Series(ar1_errors(150, 0.6, rng), index=pd.RangeIndex(150))
     from statsmodels.tsa.arima.model import ARIMA
+
     fit = ARIMA(y, order=(1, 0, 0)).fit()
     d = lagsight.diagnose(fit)
     lb = d.tests[LB]
@@ -192,17 +196,23 @@ def test_degenerate_input_cannot_be_judged(case):
     assert d.remedies is None
 
 
-@pytest.mark.parametrize("case,rows", [
-    ("perfect fit", lambda x: {"x": x, "y": 1 + 2 * x}),
-    ("constant response", lambda x: {"x": x, "y": np.full(x.size, 4.0)}),
-    ("n = k + 1", lambda x: {"x": x[:3], "y": [1.0, 0.4, 2.2]}),
-])
+@pytest.mark.parametrize(
+    "case,rows",
+    [
+        ("perfect fit", lambda x: {"x": x, "y": 1 + 2 * x}),
+        ("constant response", lambda x: {"x": x, "y": np.full(x.size, 4.0)}),
+        ("n = k + 1", lambda x: {"x": x[:3], "y": [1.0, 0.4, 2.2]}),
+    ],
+)
 def test_cli_exits_three_without_a_traceback(tmp_path, case, rows):
     path = tmp_path / "d.csv"
     pd.DataFrame(rows(_X)).to_csv(path, index=False)
     exe = Path(sys.executable).parent / "lagsight"  # installed by pyproject.toml [project.scripts]
-    proc = subprocess.run([str(exe), "report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "r.html")],
-                          capture_output=True, text=True)
+    proc = subprocess.run(
+        [str(exe), "report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "r.html")],
+        capture_output=True,
+        text=True,
+    )
     assert proc.returncode == 3, proc.stderr
     assert "Traceback" not in proc.stderr and proc.stdout.startswith("Cannot judge: ")
 
@@ -214,8 +224,10 @@ def _scaled_inputs(scale):
     y = X @ [1.0, 0.5, 2.0] + ar1_errors(n, 0.3, rng)
     e = y - X @ np.linalg.lstsq(X, y, rcond=None)[0]
     idx = pd.date_range("2020-01-01", periods=n, freq="MS")
-    return {"with design": dict(model=pd.Series(e * scale, index=idx), exog=X * scale),
-            "residuals only": dict(model=pd.Series(e * scale, index=idx))}
+    return {
+        "with design": dict(model=pd.Series(e * scale, index=idx), exog=X * scale),
+        "residuals only": dict(model=pd.Series(e * scale, index=idx)),
+    }
 
 
 @pytest.mark.parametrize("scale", [1e200, 1e-200])
@@ -268,6 +280,7 @@ def test_headline_follows_the_alternative():
         assert f"{T.format_pvalue(p)} against negative autocorrelation" in T.report_sentence(view, "text")
     assert neg.verdict.headline == again.verdict.headline
     from lagsight.render.scale import scale_figure
+
     words = " ".join(t.get_text() for ax in scale_figure(neg).axes for t in ax.texts)
     assert "negative alternative" in words and "no evidence at \u03b1 = 0.05" in words
 
@@ -275,7 +288,7 @@ def test_headline_follows_the_alternative():
 def test_headline_follows_alpha():
     d = lagsight.diagnose(_ar1_fit(rho=0.2, seed=9))
     p = d.tests[DW].pvalue
-    assert 1e-4 < p < 0.2                              # this draw sits where the level matters
+    assert 1e-4 < p < 0.2  # this draw sits where the level matters
     for alpha in (p / 2, min(0.5, 2 * p)):
         moved = d.reassess(alpha=alpha)
         assert moved.verdict.finding == ("evidence" if p < alpha else "no evidence")
@@ -303,14 +316,17 @@ def test_rows_out_of_time_order_are_not_meaningful_everywhere():
         assert fig.caption.startswith("Not meaningful: the rows are not in time order"), fig.key
     assert view.remedies is not None and view.remedies.caption.startswith("Not meaningful")
     from lagsight.display import remedies_html
+
     assert "not meaningful" in remedies_html(lagsight.diagnose(smf.ols("y ~ x", data=shuffled).fit()))
     from lagsight.render.scale import scale_figure
+
     words = " ".join(t.get_text() for ax in scale_figure(d).axes for t in ax.texts)
     assert "not meaningful" in words and "exact p" not in words
 
 
 def test_cli_checks_the_order_of_a_date_column(tmp_path, capsys):
     from lagsight.scenarios import water_demand
+
     frame = water_demand(200).reset_index()
     in_order, shuffled = tmp_path / "in_order.csv", tmp_path / "shuffled.csv"
     frame.to_csv(in_order, index=False)
@@ -321,13 +337,14 @@ def test_cli_checks_the_order_of_a_date_column(tmp_path, capsys):
     assert out.startswith("Not meaningful") and "checked on the date column 'date'" in out
     assert main(["report", str(in_order), *args]) == 1
     assert "checked on the date column 'date'" in capsys.readouterr().out
-    assert main(["report", str(shuffled), *args, "--time", "date"]) == 1   # sorted by it
+    assert main(["report", str(shuffled), *args, "--time", "date"]) == 1  # sorted by it
     assert "rows sorted by --time 'date'" in capsys.readouterr().out
 
 
 def test_report_help_documents_the_exit_status():
-    proc = subprocess.run([str(Path(sys.executable).parent / "lagsight"), "report", "--help"],
-                          capture_output=True, text=True)
+    proc = subprocess.run(
+        [str(Path(sys.executable).parent / "lagsight"), "report", "--help"], capture_output=True, text=True
+    )
     assert proc.returncode == 0
     for line in ("0  no evidence", "1  evidence", "2  usage or input error", "3  cannot judge"):
         assert line in proc.stdout
@@ -364,14 +381,18 @@ def test_seasonal_advice_is_not_set_off_by_lag1_correlation():
         raw += d.tests[SEASONAL].pvalue < ALPHA
     se = math.sqrt(ALPHA * (1 - ALPHA) / reps)
     assert advised / reps <= ALPHA + 3 * se
-    assert raw > advised      # the order-12 test alone would have advised more often
+    assert raw > advised  # the order-12 test alone would have advised more often
 
 
 def test_seasonal_advice_finds_seasonal_errors():
     # errors u_t = 0.5 u_{t-12} + e_t: the advice should appear in most draws
     rng = np.random.default_rng(78)
     reps = 40
-    advised = sum(any("seasonal terms" in s for s in
-                      lagsight.diagnose(**_monthly_errors_fit(rng, _seasonal_ar), remedies=False).verdict.next_steps)
-                  for _ in range(reps))
+    advised = sum(
+        any(
+            "seasonal terms" in s
+            for s in lagsight.diagnose(**_monthly_errors_fit(rng, _seasonal_ar), remedies=False).verdict.next_steps
+        )
+        for _ in range(reps)
+    )
     assert advised / reps >= 0.8

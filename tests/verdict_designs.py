@@ -4,11 +4,12 @@ benchmarks/bench_verdict.py).
 Each design draws one model's input for ``diagnose`` from a seeded generator, with errors that are white
 noise (rho = 0) or AR(1) with coefficient rho.  The scenarios are our own; nothing here is data.
 """
+
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass
-from typing import Callable
 
 import numpy as np
 import pandas as pd
@@ -37,6 +38,7 @@ def _regression(n: int, index: pd.Index | None, columns: Callable[[int], list]) 
     def draw(rho: float, rng: np.random.Generator) -> dict:
         y = X @ np.linspace(1.0, 0.2, X.shape[1]) + ar1_errors(n, rho, rng)
         return {"model": pd.Series(_ols_residuals(y, X), index=idx), "exog": X}
+
     return draw
 
 
@@ -44,6 +46,7 @@ def _residuals_only(n: int, index: pd.Index) -> Callable:
     def draw(rho: float, rng: np.random.Generator) -> dict:
         u = ar1_errors(n, rho, rng)
         return {"model": pd.Series(u - u.mean(), index=index)}  # residuals of a mean-only model
+
     return draw
 
 
@@ -58,6 +61,7 @@ def _lagged_response(n: int) -> Callable:
             y[t] = 1.0 + 0.5 * y[t - 1] + 2.0 * x[t] + u[t]
         frame = pd.DataFrame({"y": y[1:], "y_lag": y[:-1], "x": x[1:]})
         return {"model": frame, "response": "y", "predictors": ["y_lag", "x"]}
+
     return draw
 
 
@@ -74,28 +78,62 @@ def _trend(n):
 
 
 DESIGNS = (
-    Design("tiny shop, 8 periods", 8, "constant + trend, no frequency",
-           _regression(8, None, _trend)),
-    Design("orchard, 9 years", 9, "annual index, constant + trend",
-           _regression(9, pd.date_range("2015-01-01", periods=9, freq="YS"), _trend)),
-    Design("ferry tickets, 40 quarters", 40, "quarterly index, trend + timetable-change dummy",
-           _regression(40, pd.period_range("2014Q1", periods=40, freq="Q"),
-                       lambda n: [np.arange(n) / n, (np.arange(n) >= 26).astype(float)])),
-    Design("heat pump, 96 months", 96, "monthly index, constant + outdoor-temperature wave",
-           _regression(96, pd.date_range("2016-01-01", periods=96, freq="MS"),
-                       lambda n: [np.cos(2 * np.pi * np.arange(n) / 12 + 0.4)])),
-    Design("bike counter, 365 days", 365, "daily index, constant + rain + holiday dummy",
-           _regression(365, pd.date_range("2023-01-01", periods=365, freq="D"),
-                       lambda n: [np.abs(np.sin(np.arange(n) * 0.37)) * 8,
-                                  (np.arange(n) % 53 == 0).astype(float)])),
-    Design("wind mast, 1,000 hours", 1000, "hourly index, constant + 3 regressors",
-           _regression(1000, pd.date_range("2024-03-01", periods=1000, freq="h"),
-                       lambda n: [np.sin(np.arange(n) / 17.0), np.cos(np.arange(n) / 5.0),
-                                  np.arange(n) / n])),
-    Design("pressure log, 120 months, residuals only", 120, "monthly index, no design",
-           _residuals_only(120, pd.date_range("2010-01-01", periods=120, freq="MS"))),
-    Design("warehouse stock, 80 weeks, lagged response", 80, "y on its own lag and one regressor",
-           _lagged_response(80)),
+    Design("tiny shop, 8 periods", 8, "constant + trend, no frequency", _regression(8, None, _trend)),
+    Design(
+        "orchard, 9 years",
+        9,
+        "annual index, constant + trend",
+        _regression(9, pd.date_range("2015-01-01", periods=9, freq="YS"), _trend),
+    ),
+    Design(
+        "ferry tickets, 40 quarters",
+        40,
+        "quarterly index, trend + timetable-change dummy",
+        _regression(
+            40,
+            pd.period_range("2014Q1", periods=40, freq="Q"),
+            lambda n: [np.arange(n) / n, (np.arange(n) >= 26).astype(float)],
+        ),
+    ),
+    Design(
+        "heat pump, 96 months",
+        96,
+        "monthly index, constant + outdoor-temperature wave",
+        _regression(
+            96,
+            pd.date_range("2016-01-01", periods=96, freq="MS"),
+            lambda n: [np.cos(2 * np.pi * np.arange(n) / 12 + 0.4)],
+        ),
+    ),
+    Design(
+        "bike counter, 365 days",
+        365,
+        "daily index, constant + rain + holiday dummy",
+        _regression(
+            365,
+            pd.date_range("2023-01-01", periods=365, freq="D"),
+            lambda n: [np.abs(np.sin(np.arange(n) * 0.37)) * 8, (np.arange(n) % 53 == 0).astype(float)],
+        ),
+    ),
+    Design(
+        "wind mast, 1,000 hours",
+        1000,
+        "hourly index, constant + 3 regressors",
+        _regression(
+            1000,
+            pd.date_range("2024-03-01", periods=1000, freq="h"),
+            lambda n: [np.sin(np.arange(n) / 17.0), np.cos(np.arange(n) / 5.0), np.arange(n) / n],
+        ),
+    ),
+    Design(
+        "pressure log, 120 months, residuals only",
+        120,
+        "monthly index, no design",
+        _residuals_only(120, pd.date_range("2010-01-01", periods=120, freq="MS")),
+    ),
+    Design(
+        "warehouse stock, 80 weeks, lagged response", 80, "y on its own lag and one regressor", _lagged_response(80)
+    ),
 )
 
 

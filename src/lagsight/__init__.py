@@ -2,6 +2,7 @@
 
 Start with :func:`diagnose`; in a notebook, ``%load_ext lagsight`` then ``%lagsight model``.
 """
+
 from .diagnosis import Diagnosis, diagnose
 from .groups import GroupSummary
 from .inputs import ResidualData, as_residual_data

@@ -5,6 +5,7 @@ This is the single place that decides which tests apply to a
 and the per-group panel both call it.  A test that cannot run records its
 error message instead of stopping the others.
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -16,14 +17,23 @@ import numpy as np
 from .inputs import ResidualData
 from .order import infer_bg_order
 from .stats import battery, runs
+from .stats._arrays import scaled, unit_scale
+from .stats._caught import caught_warnings
 from .stats.correlogram import Correlogram, correlogram
 from .stats.durbin_watson import DurbinWatsonDistribution, durbin_watson, durbin_watson_exact
-from .stats._arrays import scaled, unit_columns, unit_scale
-from .stats._caught import caught_warnings
 from .stats.results import TestResult
 
-__all__ = ["SEASONAL_GIVEN", "BatterySettings", "BatteryRun", "LeadPlan", "run_battery", "lead_plan", "input_problem",
-           "ljung_box_lag", "MIN_PORTMANTEAU_N"]
+__all__ = [
+    "SEASONAL_GIVEN",
+    "BatterySettings",
+    "BatteryRun",
+    "LeadPlan",
+    "run_battery",
+    "lead_plan",
+    "input_problem",
+    "ljung_box_lag",
+    "MIN_PORTMANTEAU_N",
+]
 
 # test names, used as keys of Diagnosis.tests and as labels in every view
 DW = "Durbin-Watson"
@@ -135,8 +145,10 @@ def input_problem(data: ResidualData) -> str | None:
         eu = e / top  # the residuals in the response's units
         size = float(np.linalg.norm(eu))
         if size <= max(1e-8 * float(np.linalg.norm(yu - yu.mean())), 1e-12 * float(np.linalg.norm(yu))):
-            return ("the residuals are numerically zero relative to the response: the model fits the data "
-                    "exactly, so there is no error left to test")
+            return (
+                "the residuals are numerically zero relative to the response: the model fits the data "
+                "exactly, so there is no error left to test"
+            )
     if _relative_spread(e) <= 1e-12:
         what = "all zero" if not np.any(e) else "constant"
         return f"the residuals are {what}, so their serial correlation is undefined"
@@ -145,7 +157,7 @@ def input_problem(data: ResidualData) -> str | None:
 
 def _seasonal_fits(n: int, period: int | None, k: int) -> bool:
     """Enough observations for the order-s statistic: n > 2s + k."""
-    return bool(period) and n > 2 * period + k
+    return period is not None and period > 0 and n > 2 * period + k
 
 
 def lead_plan(data: ResidualData, *, lagged_response: str | None, period: int | None) -> LeadPlan:
@@ -165,11 +177,15 @@ def lead_plan(data: ResidualData, *, lagged_response: str | None, period: int | 
         plan = LeadPlan("arma" if not data.dw_applicable else "residuals", LB, (LB,))
     problem = input_problem(data)
     if problem is None and n <= k + 1:
-        problem = (f"n = {n} observations for k = {k} coefficients: the residuals have at most one degree of "
-                   f"freedom, and the tests need n > k + 1")
+        problem = (
+            f"n = {n} observations for k = {k} coefficients: the residuals have at most one degree of "
+            f"freedom, and the tests need n > k + 1"
+        )
     if problem is None and plan.leading == LB and n < MIN_PORTMANTEAU_N:
-        problem = (f"n = {n} observations are too few for the large-sample Ljung-Box test that leads without "
-                   f"a design (at least {MIN_PORTMANTEAU_N})")
+        problem = (
+            f"n = {n} observations are too few for the large-sample Ljung-Box test that leads without "
+            f"a design (at least {MIN_PORTMANTEAU_N})"
+        )
     return dataclasses.replace(plan, problem=problem) if problem else plan
 
 
@@ -212,9 +228,17 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     if plan.problem is not None:
         for name in (DW, BG, LB, RUNS):
             errors[name] = "not run: the input is degenerate (see the verdict)"
-        return BatteryRun(tests=tests, errors=errors, correlogram=None, distribution=None,
-                          lagged_response=lagged_name, period=period, bg_max_lag=bg_max_lag,
-                          notes=(f"No test was run: {plan.problem}.",), plan=plan)
+        return BatteryRun(
+            tests=tests,
+            errors=errors,
+            correlogram=None,
+            distribution=None,
+            lagged_response=lagged_name,
+            period=period,
+            bg_max_lag=bg_max_lag,
+            notes=(f"No test was run: {plan.problem}.",),
+            plan=plan,
+        )
 
     # every statistic is scale-free: residuals of unit size keep sums of squares finite; the tests
     # bring the design's columns to unit size a block of rows at a time (no copy of the design)
@@ -228,26 +252,34 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     seasonal_errors: dict = {}
     if period and exog is not None and data.dw_applicable and _seasonal_fits(n, period, exog.shape[1]):
         s_lag, s_exog = int(period), exog
-        attempt(SEASONAL, lambda: durbin_watson(e, s_exog, alternative=alt, lag=s_lag, alpha=settings.alpha),
-                seasonal_tests, seasonal_errors)
+        attempt(
+            SEASONAL,
+            lambda: durbin_watson(e, s_exog, alternative=alt, lag=s_lag, alpha=settings.alpha),
+            seasonal_tests,
+            seasonal_errors,
+        )
 
     # Durbin-Watson, exact when the design is known
     dist = None
     if data.dw_applicable:
         if exog is not None:
+
             def dw():
                 nonlocal dist
                 res, dist = durbin_watson_exact(e, exog, alternative=alt, alpha=settings.alpha)
                 return res
+
             attempt(DW, dw)
         else:
             attempt(DW, lambda: durbin_watson(e, alternative=alt, alpha=settings.alpha))
             res = tests.get(DW)
             assumed = getattr(res, "k_prime", None) if getattr(res, "k_prime_assumed", False) else None
             if assumed is not None and getattr(res, "bounds", None) is not None:
-                notes.append(f"No design was given, so the Durbin-Watson bounds dL/dU assume k' = "
-                             f"{assumed} (one regressor besides a constant); pass the fitted model "
-                             "or exog= for the exact p-value of the real design.")
+                notes.append(
+                    f"No design was given, so the Durbin-Watson bounds dL/dU assume k' = "
+                    f"{assumed} (one regressor besides a constant); pass the fitted model "
+                    "or exog= for the exact p-value of the real design."
+                )
     else:
         errors[DW] = (
             "not applicable: the exact Durbin-Watson distribution assumes fixed regressors "
@@ -272,7 +304,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
 
     # seasonal order-s Durbin-Watson: only when the period is known (index frequency or given)
     if period:
-        if data.exog is None or not data.dw_applicable:
+        if exog is None or data.exog is None or not data.dw_applicable:
             errors[SEASONAL] = "needs the model's design matrix (pass exog) for an exact p-value"
         elif not _seasonal_fits(n, period, exog.shape[1]):
             errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"
@@ -298,9 +330,16 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
             warned["Correlogram"] = caught.notes()
             notes += [f"Correlogram: {note}" for note in warned["Correlogram"]]
     return BatteryRun(
-        tests=tests, errors=errors, correlogram=cg, distribution=dist,
-        lagged_response=lagged_name, period=period,
-        bg_max_lag=bg_max_lag, notes=tuple(notes), plan=plan, warned=warned,
+        tests=tests,
+        errors=errors,
+        correlogram=cg,
+        distribution=dist,
+        lagged_response=lagged_name,
+        period=period,
+        bg_max_lag=bg_max_lag,
+        notes=tuple(notes),
+        plan=plan,
+        warned=warned,
     )
 
 

@@ -7,6 +7,7 @@ autocorrelation, 1 evidence, 2 usage or input error (one line on stderr),
 pipeline.  Without ``--time`` the order of the rows is checked on the first
 column that holds dates, and the output says which column that was.
 """
+
 from __future__ import annotations
 
 import argparse
@@ -20,8 +21,12 @@ __all__ = ["main"]
 
 EXIT_CLEAN, EXIT_FOUND, EXIT_ERROR, EXIT_UNJUDGED = 0, 1, 2, 3
 #: verdict finding -> exit status
-EXIT_CODES = {"no evidence": EXIT_CLEAN, "evidence": EXIT_FOUND, "cannot judge": EXIT_UNJUDGED,
-              "not meaningful": EXIT_UNJUDGED}
+EXIT_CODES = {
+    "no evidence": EXIT_CLEAN,
+    "evidence": EXIT_FOUND,
+    "cannot judge": EXIT_UNJUDGED,
+    "not meaningful": EXIT_UNJUDGED,
+}
 #: share of a text column's values that must parse as dates for it to count as a date column (our own rule)
 DATE_SHARE = 0.9
 
@@ -52,16 +57,26 @@ class _InputError(Exception):
 def _parser() -> argparse.ArgumentParser:
     p = _Parser(prog="lagsight", description="Serial-correlation diagnosis of a regression's residuals.")
     sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
-    r = sub.add_parser("report", help="fit OLS on a CSV file, write the HTML report, print the verdict",
-                       description="Fit OLS on a CSV file, write the HTML report and print the verdict.",
-                       epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    r = sub.add_parser(
+        "report",
+        help="fit OLS on a CSV file, write the HTML report, print the verdict",
+        description="Fit OLS on a CSV file, write the HTML report and print the verdict.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
     r.add_argument("data", help="CSV file with a header row")
     r.add_argument("--y", required=True, help="response column")
     r.add_argument("--x", required=True, help="predictor columns, comma separated")
-    r.add_argument("--time", help="time column: rows are sorted by it and it becomes the index; numbers or "
-                                  "ISO 8601 dates/times unless --time-format is given")
-    r.add_argument("--time-format", metavar="FORMAT",
-                   help="strftime format of the --time values, e.g. %%d/%%m/%%Y or %%Y-%%m-%%d %%H:%%M")
+    r.add_argument(
+        "--time",
+        help="time column: rows are sorted by it and it becomes the index; numbers or "
+        "ISO 8601 dates/times unless --time-format is given",
+    )
+    r.add_argument(
+        "--time-format",
+        metavar="FORMAT",
+        help="strftime format of the --time values, e.g. %%d/%%m/%%Y or %%Y-%%m-%%d %%H:%%M",
+    )
     r.add_argument("--group", help="group column: the battery runs within each group")
     r.add_argument("--alpha", type=float, default=0.05, help="level of the tests (default 0.05)")
     r.add_argument("--alternative", default="positive", choices=("positive", "negative", "two-sided"))
@@ -111,24 +126,31 @@ def _time_values(column: pd.Series, name: str, fmt: str | None) -> pd.Series:
             raise _InputError(f"--time-format {fmt!r} cannot be used: {str(err).splitlines()[0]}") from None
         bad = given & parsed.isna()
         if bad.any():
-            raise _InputError(f"--time {name!r}: {int(bad.sum())} value(s) do not match --time-format {fmt!r} "
-                              f"(first: {_examples(column[bad])})")
+            raise _InputError(
+                f"--time {name!r}: {int(bad.sum())} value(s) do not match --time-format {fmt!r} "
+                f"(first: {_examples(column[bad])})"
+            )
         return parsed
     if pd.api.types.is_datetime64_any_dtype(column) or (
-            pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column)):
+        pd.api.types.is_numeric_dtype(column) and not pd.api.types.is_bool_dtype(column)
+    ):
         return column
     numbers = pd.to_numeric(column, errors="coerce")
     if (numbers.notna() == given).all() and given.any():
         return numbers
     parsed = _iso_times(column)
     if parsed is None:
-        raise _InputError(f"--time {name!r} mixes values with and without a time zone "
-                          f"(first: {_examples(column[given])}); write every value with its UTC offset, or "
-                          f"{_TIME_HELP}")
+        raise _InputError(
+            f"--time {name!r} mixes values with and without a time zone "
+            f"(first: {_examples(column[given])}); write every value with its UTC offset, or "
+            f"{_TIME_HELP}"
+        )
     bad = given & parsed.isna()
     if bad.any():
-        raise _InputError(f"--time {name!r}: {int(bad.sum())} value(s) are neither numbers nor ISO 8601 dates "
-                          f"(first: {_examples(column[bad])}); {_TIME_HELP}")
+        raise _InputError(
+            f"--time {name!r}: {int(bad.sum())} value(s) are neither numbers nor ISO 8601 dates "
+            f"(first: {_examples(column[bad])}); {_TIME_HELP}"
+        )
     return parsed
 
 
@@ -161,16 +183,21 @@ def _load(args) -> pd.DataFrame:
     header = _header(path)
     repeated = sorted({c for c in needed if header.count(c) > 1})
     if repeated:
-        raise _InputError(f"{path.name} has more than one column named {', '.join(map(repr, repeated))}; "
-                          "rename the repeats so each column is named once")
+        raise _InputError(
+            f"{path.name} has more than one column named {', '.join(map(repr, repeated))}; "
+            "rename the repeats so each column is named once"
+        )
     missing = [c for c in needed if c not in frame.columns]
     if missing:
-        raise _InputError(f"column(s) not in {path.name}: {', '.join(map(repr, missing))} "
-                          f"(have: {', '.join(map(repr, frame.columns))})")
+        raise _InputError(
+            f"column(s) not in {path.name}: {', '.join(map(repr, missing))} "
+            f"(have: {', '.join(map(repr, frame.columns))})"
+        )
     twice = sorted({c for c in needed if needed.count(c) > 1})
     if twice:
-        raise _InputError(f"column(s) {', '.join(map(repr, twice))} given for more than one of --y, --x, "
-                          "--time and --group")
+        raise _InputError(
+            f"column(s) {', '.join(map(repr, twice))} given for more than one of --y, --x, --time and --group"
+        )
     for col in [args.y, *predictors]:
         if not pd.api.types.is_numeric_dtype(frame[col]):
             bad = pd.to_numeric(frame[col], errors="coerce").isna() & frame[col].notna()
@@ -217,8 +244,13 @@ def _report(args) -> int:
         frame = _load(args)
     try:
         diag = diagnose(
-            frame, response=args.y, predictors=args.predictors, groups=args.group,
-            order="index" if args.time else "auto", alpha=args.alpha, alternative=args.alternative,
+            frame,
+            response=args.y,
+            predictors=args.predictors,
+            groups=args.group,
+            order="index" if args.time else "auto",
+            alpha=args.alpha,
+            alternative=args.alternative,
         )
     except (ValueError, TypeError, ArithmeticError, np.linalg.LinAlgError) as err:
         raise _InputError(str(err).splitlines()[0] or type(err).__name__) from None
@@ -232,8 +264,7 @@ def _report(args) -> int:
     if args.time:
         print(f"order: rows sorted by --time {args.time!r}")
     elif args.checked_on is not None:
-        print(f"order: checked on the date column {args.checked_on!r} (pass --time {args.checked_on} to sort "
-              "by it)")
+        print(f"order: checked on the date column {args.checked_on!r} (pass --time {args.checked_on} to sort by it)")
     else:
         print("order: rows as given (no date column found; pass --time to name one)")
     print(f"rows: {diag.n} of {len(frame)} tested")

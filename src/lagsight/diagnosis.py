@@ -4,6 +4,7 @@ Runs the order guard, the test battery (or the per-group battery for panels),
 the remedies when correlation is found, optionally the power curve, and writes
 the verdict.  Everything the notebook panel and the magic show comes from here.
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -16,10 +17,10 @@ from .battery_run import DW, BatterySettings, LeadPlan, failure_reason, run_batt
 from .groups import GroupSummary, run_groups
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
+from .stats._arrays import check_alpha, check_choice, check_flag, check_optional_int, check_period
 from .stats._caught import caught_warnings
 from .stats.bounds import dw_bounds
 from .stats.correlogram import Correlogram
-from .stats._arrays import check_alpha, check_choice, check_flag, check_optional_int, check_period
 from .stats.durbin_watson import DurbinWatsonDistribution
 from .stats.power import PowerCurve, dw_power
 from .stats.remedies import InferenceComparison, compare_inference
@@ -83,46 +84,60 @@ class Diagnosis:
         rows = []
         for name, res in self.tests.items():
             p = res.pvalue
-            rows.append({
-                "test": name,
-                "statistic": res.statistic,
-                "pvalue": p,
-                "alternative": res.alternative,
-                "df": ", ".join(f"{d:g}" for d in res.df) if res.df else "",
-                "method": res.method,
-                "reading": self.verdict.reading(name, p),
-            })
+            rows.append(
+                {
+                    "test": name,
+                    "statistic": res.statistic,
+                    "pvalue": p,
+                    "alternative": res.alternative,
+                    "df": ", ".join(f"{d:g}" for d in res.df) if res.df else "",
+                    "method": res.method,
+                    "reading": self.verdict.reading(name, p),
+                }
+            )
         for name, msg in self.errors.items():
-            rows.append({"test": name, "statistic": math.nan, "pvalue": math.nan, "alternative": "",
-                         "df": "", "method": "", "reading": f"not run: {msg}"})
+            rows.append(
+                {
+                    "test": name,
+                    "statistic": math.nan,
+                    "pvalue": math.nan,
+                    "alternative": "",
+                    "df": "",
+                    "method": "",
+                    "reading": f"not run: {msg}",
+                }
+            )
         return pd.DataFrame(rows, columns=["test", "statistic", "pvalue", "alternative", "df", "method", "reading"])
 
-    def reassess(self, *, alpha: float | None = None, alternative: str | None = None) -> "Diagnosis":
+    def reassess(self, *, alpha: float | None = None, alternative: str | None = None) -> Diagnosis:
         """The same diagnosis at another alpha or alternative, without recomputing distributions."""
         alpha = self.alpha if alpha is None else check_alpha(alpha)
         alternative = self.alternative if alternative is None else check_alternative(alternative)
         tests = dict(self.tests)
         for name, res in self.tests.items():
-            changes = {}
+            changes: dict = {}
             if hasattr(res, "lower_tail") and not math.isnan(res.pvalue):
                 toward_positive, toward_negative = res.lower_tail, res.upper_tail
                 if getattr(res, "large_means_positive", False):
                     toward_positive, toward_negative = toward_negative, toward_positive
-                changes.update(pvalue=tail_pvalue(toward_positive, toward_negative, alternative),
-                               alternative=alternative)
+                changes.update(
+                    pvalue=tail_pvalue(toward_positive, toward_negative, alternative), alternative=alternative
+                )
             bounds = getattr(res, "bounds", None)
             if bounds is not None:  # the bounds are for one level: draw them again at this one
                 if bounds.alpha != alpha:
                     bounds = dw_bounds(bounds.n, bounds.k_prime, alpha=alpha, has_constant=bounds.has_constant)
-                changes.update(bounds=bounds, bounds_decision=bounds.decision(res.statistic, alternative),
-                               alternative=alternative)
+                changes.update(
+                    bounds=bounds, bounds_decision=bounds.decision(res.statistic, alternative), alternative=alternative
+                )
             if changes:
                 tests[name] = dataclasses.replace(res, **changes)
         remedies = self.remedies
         groups = None if self.groups is None else self.groups.at_level(alpha, alternative)
         correlogram = None if self.correlogram is None else self.correlogram.at_alpha(alpha)
-        new = dataclasses.replace(self, tests=tests, alpha=alpha, alternative=alternative, groups=groups,
-                                  correlogram=correlogram)
+        new = dataclasses.replace(
+            self, tests=tests, alpha=alpha, alternative=alternative, groups=groups, correlogram=correlogram
+        )
         verdict = _verdict(new, remedies)
         if verdict.finding == "evidence" and remedies is None:
             remedies = _remedies(self.data, alpha)
@@ -151,20 +166,24 @@ class Diagnosis:
     # -- notebook display (glue in lagsight.display and lagsight.panel) --------------
     def _repr_mimebundle_(self, include=None, exclude=None):
         from .display import mimebundle
+
         return mimebundle(self, include=include, exclude=exclude)
 
     def _ipython_display_(self):
         from .display import show
+
         show(self)
 
     def save_html(self, path, **view_options):
         """Write a standalone HTML report (no network needed) and return its path."""
         from .render.html import save_html
+
         return save_html(self, path, **view_options)
 
     def panel(self, **options):
         """The interactive panel (:class:`lagsight.panel.DiagnosisPanel`) for this diagnosis."""
         from .panel import DiagnosisPanel
+
         return DiagnosisPanel(self, **options)
 
 
@@ -174,8 +193,9 @@ def _remedies(data: ResidualData, alpha: float, notes: list | None = None):
         return None
     with caught_warnings() as caught:
         try:
-            fixes = compare_inference(data.endog, data.exog,
-                                      names=list(data.exog_names) if data.exog_names else None, alpha=alpha)
+            fixes = compare_inference(
+                data.endog, data.exog, names=list(data.exog_names) if data.exog_names else None, alpha=alpha
+            )
         except Exception as err:
             fixes = None
             if notes is not None:
@@ -187,16 +207,38 @@ def _remedies(data: ResidualData, alpha: float, notes: list | None = None):
 
 def _verdict(d: Diagnosis, remedies) -> Verdict:
     return write_verdict(
-        d.tests, d.plan, alpha=d.alpha, alternative=d.alternative, errors=d.errors,
-        order_warnings=d.order.warnings, shuffled=d.shuffled, lagged_response=d.lagged_response,
-        remedies=remedies, period=d.period, groups=d.groups,
+        d.tests,
+        d.plan,
+        alpha=d.alpha,
+        alternative=d.alternative,
+        errors=d.errors,
+        order_warnings=d.order.warnings,
+        shuffled=d.shuffled,
+        lagged_response=d.lagged_response,
+        remedies=remedies,
+        period=d.period,
+        groups=d.groups,
     )
 
 
-def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, groups=None,
-             order: str = "auto", time=None, alpha: float = 0.05, alternative: str = "positive",
-             max_lag: int | None = None, bg_max_lag: int | None = None, period: int | None = None,
-             remedies: bool | str = "auto", power: bool = False) -> Diagnosis:
+def diagnose(
+    model,
+    *,
+    exog=None,
+    endog=None,
+    response=None,
+    predictors=None,
+    groups=None,
+    order: str = "auto",
+    time=None,
+    alpha: float = 0.05,
+    alternative: str = "positive",
+    max_lag: int | None = None,
+    bg_max_lag: int | None = None,
+    period: int | None = None,
+    remedies: bool | str = "auto",
+    power: bool = False,
+) -> Diagnosis:
     """Diagnose serial correlation in a model's residuals.
 
     Parameters
@@ -233,24 +275,56 @@ def diagnose(model, *, exog=None, endog=None, response=None, predictors=None, gr
     power = check_flag(power, "power")
     # the libraries underneath warn as they compute: those warnings become notes, none escapes
     with caught_warnings() as caught:
-        d = _diagnose(model, exog=exog, endog=endog, response=response, predictors=predictors, groups=groups,
-                      order=order, time=time, alpha=alpha, alternative=alternative, max_lag=max_lag,
-                      bg_max_lag=bg_max_lag, period=period, remedies=remedies, power=power)
+        d = _diagnose(
+            model,
+            exog=exog,
+            endog=endog,
+            response=response,
+            predictors=predictors,
+            groups=groups,
+            order=order,
+            time=time,
+            alpha=alpha,
+            alternative=alternative,
+            max_lag=max_lag,
+            bg_max_lag=bg_max_lag,
+            period=period,
+            remedies=remedies,
+            power=power,
+        )
     if caught:
         d = dataclasses.replace(d, notes=d.notes + caught.notes())
     return d
 
 
-def _diagnose(model, *, exog, endog, response, predictors, groups, order, time, alpha, alternative,
-              max_lag, bg_max_lag, period, remedies, power) -> Diagnosis:
-    data = as_residual_data(model, exog=exog, endog=endog, response=response, predictors=predictors,
-                            groups=groups, time=time)
+def _diagnose(
+    model,
+    *,
+    exog,
+    endog,
+    response,
+    predictors,
+    groups,
+    order,
+    time,
+    alpha,
+    alternative,
+    max_lag,
+    bg_max_lag,
+    period,
+    remedies,
+    power,
+) -> Diagnosis:
+    data = as_residual_data(
+        model, exog=exog, endog=endog, response=response, predictors=predictors, groups=groups, time=time
+    )
     report = check_order(data, order=order)
     data = report.apply(data)
     if period is None:
         period = infer_seasonal_period(data.index)
-    settings = BatterySettings(alpha=alpha, alternative=alternative, max_lag=max_lag, bg_max_lag=bg_max_lag,
-                               period=period or None)
+    settings = BatterySettings(
+        alpha=alpha, alternative=alternative, max_lag=max_lag, bg_max_lag=bg_max_lag, period=period or None
+    )
     notes = list(data.notes) + list(report.warnings)
     group_summary = None
     if data.groups is not None and pd.Series(data.groups).nunique() > 1:
@@ -259,19 +333,30 @@ def _diagnose(model, *, exog, endog, response, predictors, groups, order, time, 
         # the pooled series is still tested, but never across group boundaries for DW
     elif data.groups is not None:
         label = pd.Series(data.groups).iloc[0]
-        notes.append(f"'groups' gives every row the same label ({label!r}), so the rows were tested as one "
-                     "series.")
+        notes.append(f"'groups' gives every row the same label ({label!r}), so the rows were tested as one series.")
     run = run_battery(data, settings)
     notes += list(run.notes)
     tests = dict(run.tests)
     if group_summary is not None and DW in tests:
-        notes.append("With groups, read the per-group table and the pooled within-group d; the "
-                     "whole-series tests below run across group boundaries.")
+        notes.append(
+            "With groups, read the per-group table and the pooled within-group d; the "
+            "whole-series tests below run across group boundaries."
+        )
     d = Diagnosis(
-        data=data, order=report, tests=tests, errors=dict(run.errors), verdict=None, alpha=alpha,
-        alternative=alternative, correlogram=run.correlogram, distribution=run.distribution,
-        groups=group_summary, period=run.period, lagged_response=run.lagged_response,
-        notes=tuple(notes), plan=run.plan,
+        data=data,
+        order=report,
+        tests=tests,
+        errors=dict(run.errors),
+        verdict=None,  # type: ignore[arg-type]
+        alpha=alpha,
+        alternative=alternative,
+        correlogram=run.correlogram,
+        distribution=run.distribution,
+        groups=group_summary,
+        period=run.period,
+        lagged_response=run.lagged_response,
+        notes=tuple(notes),
+        plan=run.plan,
     )
     verdict = _verdict(d, None)
     fixes = None

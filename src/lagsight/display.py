@@ -15,6 +15,7 @@ In a running kernel with ipywidgets a diagnosis is shown as two outputs:
 Everywhere else (a terminal, a plain ``InteractiveShell``, ``--static``) the
 diagnosis is shown as one static bundle.  Nothing here runs at import time.
 """
+
 from __future__ import annotations
 
 import html
@@ -27,9 +28,25 @@ if TYPE_CHECKING:
     from .stats.bounds import BoundsResult
 
 __all__ = [
-    "MODES", "SNAPSHOT_CLASS", "BoundsView", "mimebundle", "static_html", "snapshot_bundle", "quiet_bundle",
-    "show", "set_preferences", "preferences", "silence_in_cell", "widgets_available", "widget_bundle",
-    "error_box", "headline_html", "test_html", "remedies_html", "groups_html", "figure_html",
+    "MODES",
+    "SNAPSHOT_CLASS",
+    "BoundsView",
+    "mimebundle",
+    "static_html",
+    "snapshot_bundle",
+    "quiet_bundle",
+    "show",
+    "set_preferences",
+    "preferences",
+    "silence_in_cell",
+    "widgets_available",
+    "widget_bundle",
+    "error_box",
+    "headline_html",
+    "test_html",
+    "remedies_html",
+    "groups_html",
+    "figure_html",
 ]
 
 #: display modes: the live panel, one static bundle, or the verdict alone
@@ -38,7 +55,7 @@ MODES = ("panel", "static", "quiet")
 SNAPSHOT_CLASS = "lgs-snapshot"
 
 _VIEW_KEYS = ("max_lag", "band", "lag", "test", "figures")
-_PREFS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_PREFS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
 def set_preferences(diag, *, mode: str | None = None, **view_options) -> None:
@@ -79,6 +96,7 @@ def _silenced(diag) -> bool:
     if cell is None:
         return False
     from IPython import get_ipython
+
     shell = get_ipython()
     return shell is not None and shell.execution_count == cell
 
@@ -112,6 +130,7 @@ def static_html(diag, **view_options) -> str:
     shared notebooks show, and sanitizing viewers drop inline SVG.
     """
     from .render.html import diagnosis_html
+
     options = _view(diag, view_options)
     options.setdefault("figures", "png")
     return diagnosis_html(diag, **options)
@@ -136,8 +155,10 @@ def _message(err: BaseException) -> str:
 
 def _fallback_html(diag, err: BaseException) -> str:
     message = _message(err)
-    return (f'<div class="lgs-fallback"><pre>{html.escape(str(diag))}</pre>'
-            f"<p>(The rich view could not be drawn: {html.escape(message)})</p></div>")
+    return (
+        f'<div class="lgs-fallback"><pre>{html.escape(str(diag))}</pre>'
+        f"<p>(The rich view could not be drawn: {html.escape(message)})</p></div>"
+    )
 
 
 def snapshot_bundle(diag, uid: str, *, body: str | None = None, **view_options) -> dict:
@@ -160,6 +181,7 @@ def snapshot_bundle(diag, uid: str, *, body: str | None = None, **view_options) 
 def quiet_bundle(diag) -> dict:
     """The verdict's headline and the sentence to paste, nothing else."""
     from .render.text import report_sentence
+
     headline = diag.verdict.headline
     sentence = report_sentence(diag, "text")
     text = f"{headline}\n{sentence}"
@@ -175,10 +197,13 @@ def quiet_bundle(diag) -> dict:
 def widget_bundle(widget) -> dict:
     """The output of a widget: its view, and a short text line instead of the widget's repr."""
     return {
-        "application/vnd.jupyter.widget-view+json": {"version_major": 2, "version_minor": 0,
-                                                     "model_id": widget.model_id},
+        "application/vnd.jupyter.widget-view+json": {
+            "version_major": 2,
+            "version_minor": 0,
+            "model_id": widget.model_id,
+        },
         "text/plain": "lagsight interactive panel (needs a running kernel; where widgets do not render, "
-                      "the static report above stands in)",
+        "the static report above stands in)",
     }
 
 
@@ -200,6 +225,7 @@ def widgets_available() -> bool:
 
 def _publish(bundle: dict, **kwargs) -> None:
     from IPython.display import display
+
     display(bundle, raw=True, **kwargs)
 
 
@@ -234,11 +260,15 @@ def show(diag, *, mode: str | None = None, widgets: bool | None = None, **view_o
         _publish(mimebundle(diag, **view_options))
         return None
     from .panel import DiagnosisPanel
+
     try:
         panel = DiagnosisPanel(diag, **_view(diag, view_options))
     except Exception as err:  # the static view still shows; say why the panel did not
-        warnings.warn(f"lagsight: the interactive panel could not be built ({_message(err)}); "
-                      "showing the static view", RuntimeWarning, stacklevel=2)
+        warnings.warn(
+            f"lagsight: the interactive panel could not be built ({_message(err)}); showing the static view",
+            RuntimeWarning,
+            stacklevel=2,
+        )
         _publish(mimebundle(diag, **view_options))
         return None
     panel.show()
@@ -258,8 +288,10 @@ def error_box(title: str, message: str) -> str:
 
 def headline_html(diag) -> str:
     """Verdict, key figures, order-guard warnings, next steps and the sentence to paste."""
-    from .render.html import headline_html as verdict_html, keys_html, warnings_html
+    from .render.html import headline_html as verdict_html
+    from .render.html import keys_html, warnings_html
     from .render.text import key_figures, report_sentence
+
     v = diag.verdict
     parts = [verdict_html(v.finding, v.headline), keys_html(key_figures(diag)), warnings_html(diag.order.warnings)]
     if v.next_steps:
@@ -267,8 +299,11 @@ def headline_html(diag) -> str:
     parts.append(f'<div class="lgs-sentence">{_esc(report_sentence(diag, "text"))}</div>')
     notes = [n for n in diag.notes if n not in diag.order.warnings]
     if notes:
-        parts.append('<div class="lgs-caption"><b>Notes</b></div><ul class="lgs-list lgs-notes">'
-                     + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
+        parts.append(
+            '<div class="lgs-caption"><b>Notes</b></div><ul class="lgs-list lgs-notes">'
+            + "".join(f"<li>{_esc(n)}</li>" for n in notes)
+            + "</ul>"
+        )
     return "".join(parts)
 
 
@@ -276,6 +311,7 @@ def test_html(diag, name: str | None) -> str:
     """One test: statistic, p-value, what it looks for, the reading, how to read it; or why it did not run."""
     from .render.html import keys_html
     from .render.text import TEST_COLUMNS, TEST_GUIDE, test_rows
+
     if name is None:
         return error_box("No test could be run.", "")
     if name in diag.errors:
@@ -292,12 +328,14 @@ def remedies_html(diag) -> str:
     """The OLS / HAC / FGLS table, or why there is none."""
     from .render.html import remedies_table, table_html
     from .render.text import order_caveat
+
     finding = diag.verdict.finding
     if diag.remedies is None:
-        why = {"evidence": "it needs the response and the design of a fitted regression",
-               "no evidence": "no correlation was found at this alpha",
-               "not meaningful": "not meaningful, because the rows are not in time order",
-               }.get(finding, f"cannot judge ({diag.verdict.reason})")
+        why = {
+            "evidence": "it needs the response and the design of a fitted regression",
+            "no evidence": "no correlation was found at this alpha",
+            "not meaningful": "not meaningful, because the rows are not in time order",
+        }.get(finding, f"cannot judge ({diag.verdict.reason})")
         return f'<p class="lgs-caption">No corrected inference: {_esc(why)}.</p>'
     return table_html(remedies_table(diag.remedies, order_caveat(diag)), "lgs-remedies")
 
@@ -305,6 +343,7 @@ def remedies_html(diag) -> str:
 def groups_html(diag) -> str:
     """The per-group table (strongest evidence first)."""
     from .render.html import groups_table, table_html
+
     return table_html(groups_table(diag.groups), "lgs-groups")
 
 
@@ -334,10 +373,15 @@ class BoundsView:
     def rows(self) -> list[tuple[str, str]]:
         b = self.bounds
         return [
-            ("n", f"{b.n:,}"), ("k' (regressors without the constant)", str(b.k_prime)), ("alpha", f"{b.alpha:g}"),
+            ("n", f"{b.n:,}"),
+            ("k' (regressors without the constant)", str(b.k_prime)),
+            ("alpha", f"{b.alpha:g}"),
             ("model has a constant", "yes" if b.has_constant else "no"),
-            ("dL", f"{b.lower:.3f}"), ("dU", f"{b.upper:.3f}"),
-            ("4 - dU", f"{4 - b.upper:.3f}"), ("4 - dL", f"{4 - b.lower:.3f}"), ("method", str(b.method)),
+            ("dL", f"{b.lower:.3f}"),
+            ("dU", f"{b.upper:.3f}"),
+            ("4 - dU", f"{4 - b.upper:.3f}"),
+            ("4 - dL", f"{4 - b.lower:.3f}"),
+            ("method", str(b.method)),
         ]
 
     def __str__(self) -> str:
@@ -350,6 +394,7 @@ class BoundsView:
     def figure(self):
         """The 0-4 scale with the five regions for these bounds (a matplotlib Figure)."""
         from .render.figures import bounds_figure
+
         return bounds_figure(self.bounds)
 
     def _repr_mimebundle_(self, include=None, exclude=None):
@@ -357,6 +402,7 @@ class BoundsView:
         parts = ['<div class="lgs-bounds">', '<table class="lgs-table">', cells, "</table>"]
         try:  # PNG: shared notebooks are shown by viewers that drop inline SVG
             from .render.export import figure_to_png_data_uri
+
             uri = figure_to_png_data_uri(self.figure(), dpi=96)
             parts.append(f'<figure><img src="{uri}" alt="Durbin-Watson bounds on the 0-4 scale"></figure>')
         except (ImportError, ValueError, TypeError) as err:

@@ -3,6 +3,7 @@
 Differences are never taken across a group boundary.  Each group is tested in
 its own time order (the order guard sorts groups into blocks first).
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -53,7 +54,7 @@ class GroupSummary:
     #: group label -> one-sided probabilities (DW lower, DW upper, runs lower, runs upper)
     tails: dict = field(default_factory=dict, repr=False)
 
-    def at_level(self, alpha: float, alternative: str) -> "GroupSummary":
+    def at_level(self, alpha: float, alternative: str) -> GroupSummary:
         """The same groups judged at another alpha and alternative (no test is run again)."""
         table = self.table.copy()
         if len(table):
@@ -154,8 +155,12 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     codes, uniques = pd.factorize(labels, sort=False)
     blocks = [np.flatnonzero(codes == g) for g in range(len(uniques))]
     light = BatterySettings(
-        alpha=settings.alpha, alternative=settings.alternative, bg_max_lag=settings.bg_max_lag,
-        period=None, lb_lag=settings.lb_lag, correlogram=False,
+        alpha=settings.alpha,
+        alternative=settings.alternative,
+        bg_max_lag=settings.bg_max_lag,
+        period=None,
+        lb_lag=settings.lb_lag,
+        correlogram=False,
     )
     rows: list = []
     skipped: dict = {}
@@ -188,9 +193,7 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     notes = _warning_notes(warned)
     if len(table):
         table = _adjust(table, settings.alpha)
-        notes.append(
-            "Adjusted p-values control the false discovery rate across groups (Benjamini-Hochberg)."
-        )
+        notes.append("Adjusted p-values control the false discovery rate across groups (Benjamini-Hochberg).")
     # pooled within-group statistic, exact for the pooled design, over the groups in the table
     in_table = {row["group"] for row in rows}
     tested = [b for g, b in enumerate(blocks) if uniques[g] in in_table]
@@ -225,7 +228,16 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     if skipped:
         notes.append(f"{len(skipped)} group(s) skipped: see 'skipped'.")
     return GroupSummary(
-        table=table, pooled_dw=pooled_dw, pooled_pvalue=pooled_p, naive_dw=naive,
-        n_groups=len(blocks), skipped=skipped, method=method, notes=tuple(notes),
-        alpha=settings.alpha, alternative=settings.alternative, pooled_lower_tail=pooled_lower, tails=tails,
+        table=table,
+        pooled_dw=pooled_dw,
+        pooled_pvalue=pooled_p,
+        naive_dw=naive,
+        n_groups=len(blocks),
+        skipped=skipped,
+        method=method,
+        notes=tuple(notes),
+        alpha=settings.alpha,
+        alternative=settings.alternative,
+        pooled_lower_tail=pooled_lower,
+        tails=tails,
     )

@@ -7,6 +7,7 @@ regressors with their ``X`` and ``y``, plain residual vectors and DataFrames
 note; nothing is dropped silently.  scikit-learn is never imported at module
 import time.
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -28,8 +29,12 @@ ACCEPTED_KINDS = (
     "a pandas DataFrame with response= and predictors=",
 )
 
-_ARG_KIND = {"exog": "residual arrays and scikit-learn estimators", "endog": "scikit-learn estimators",
-             "response": "DataFrames", "predictors": "DataFrames"}
+_ARG_KIND = {
+    "exog": "residual arrays and scikit-learn estimators",
+    "endog": "scikit-learn estimators",
+    "response": "DataFrames",
+    "predictors": "DataFrames",
+}
 _ROW_FIELDS = ("resid", "exog", "endog", "groups", "order_values")
 
 
@@ -43,8 +48,10 @@ def frame_column(frame: pd.DataFrame, column, arg: str) -> pd.Series:
         raise ValueError(f"'{arg}': column {column!r} is not in the DataFrame (columns: {list(frame.columns)})")
     picked = frame.loc[:, frame.columns == column] if not isinstance(frame.columns, pd.MultiIndex) else None
     if picked is not None and picked.shape[1] > 1:
-        raise ValueError(f"'{arg}': the DataFrame has {picked.shape[1]} columns named {column!r}; "
-                         "column names must be unique (rename the duplicates)")
+        raise ValueError(
+            f"'{arg}': the DataFrame has {picked.shape[1]} columns named {column!r}; "
+            "column names must be unique (rename the duplicates)"
+        )
     col = frame[column]
     if isinstance(col, pd.DataFrame):  # a MultiIndex level names several columns
         raise ValueError(f"'{arg}': {column!r} names {col.shape[1]} columns of the DataFrame; name one column")
@@ -55,15 +62,16 @@ def unlabelled(labels) -> np.ndarray:
     """Mask of the group labels that are missing (NaN, None, NaT); a ValueError when all are."""
     missing = np.asarray(pd.isna(pd.Series(labels, dtype=object)), dtype=bool)
     if missing.size and missing.all():
-        raise ValueError(f"'groups': all {missing.size} group labels are missing (NaN or None); "
-                         "give each row a label, or leave groups out")
+        raise ValueError(
+            f"'groups': all {missing.size} group labels are missing (NaN or None); "
+            "give each row a label, or leave groups out"
+        )
     return missing
 
 
 def unlabelled_note(k: int) -> str:
     """The note for rows left out because they have no group label (one wording everywhere)."""
-    return (f"{_rows(k)} {'has' if k == 1 else 'have'} no group label and "
-            f"{'was' if k == 1 else 'were'} left out.")
+    return f"{_rows(k)} {'has' if k == 1 else 'have'} no group label and {'was' if k == 1 else 'were'} left out."
 
 
 _NO_DW_NOTE = (
@@ -113,32 +121,37 @@ class ResidualData:
         """Number of residuals."""
         return int(self.resid.shape[0])
 
-    def replace(self, **changes) -> "ResidualData":
+    def replace(self, **changes) -> ResidualData:
         """Return a copy with some fields changed."""
         return dataclasses.replace(self, **changes)
 
-    def with_notes(self, *notes: str) -> "ResidualData":
+    def with_notes(self, *notes: str) -> ResidualData:
         """Return a copy with ``notes`` appended."""
         return self.replace(notes=self.notes + tuple(notes))
 
-    def _take(self, pos: np.ndarray) -> "ResidualData":
+    def _take(self, pos: np.ndarray) -> ResidualData:
         changes = {k: getattr(self, k)[pos] for k in _ROW_FIELDS if getattr(self, k) is not None}
         changes["index"] = self.index[pos]
         if self.frame is not None:
             changes["frame"] = self.frame.iloc[pos]
         return self.replace(**changes)
 
-    def reorder(self, permutation) -> "ResidualData":
+    def reorder(self, permutation) -> ResidualData:
         """Return a copy whose rows are taken in the order ``permutation``."""
         perm = np.asarray(permutation)
-        if (perm.ndim != 1 or perm.size != self.n or perm.dtype.kind not in "iu"
-                or not np.array_equal(np.sort(perm), np.arange(self.n))):
+        if (
+            perm.ndim != 1
+            or perm.size != self.n
+            or perm.dtype.kind not in "iu"
+            or not np.array_equal(np.sort(perm), np.arange(self.n))
+        ):
             raise ValueError(
                 f"'permutation' must be an integer permutation of 0..{self.n - 1} "
-                f"(got shape {perm.shape}, dtype {perm.dtype})")
+                f"(got shape {perm.shape}, dtype {perm.dtype})"
+            )
         return self._take(perm.astype(np.intp))
 
-    def subset(self, selector) -> "ResidualData":
+    def subset(self, selector) -> ResidualData:
         """Return the rows picked by a boolean mask or by integer positions."""
         sel = np.asarray(selector)
         if sel.dtype == bool:
@@ -182,6 +195,7 @@ def _unwrap(res):
 def _kind(model) -> str | None:
     from statsmodels.regression.linear_model import RegressionResults
     from statsmodels.tsa.statespace.mlemodel import MLEResults
+
     inner = _unwrap(model)
     if isinstance(inner, RegressionResults):
         return "regression"
@@ -198,6 +212,7 @@ def _kind(model) -> str | None:
 
 def _from_regression(res) -> tuple[ResidualData, np.ndarray | None]:
     from statsmodels.regression.linear_model import OLS
+
     inner = _unwrap(res)
     mod, data = inner.model, inner.model.data
     name = type(mod).__name__
@@ -207,30 +222,44 @@ def _from_regression(res) -> tuple[ResidualData, np.ndarray | None]:
     notes = []
     missing = getattr(data, "missing_row_idx", None)
     if missing is not None and len(missing):
-        notes.append(f"statsmodels dropped {_rows(len(missing))} with missing values before fitting; "
-                     "the time order has gaps there.")
+        notes.append(
+            f"statsmodels dropped {_rows(len(missing))} with missing values before fitting; "
+            "the time order has gaps there."
+        )
     lost = len(index) - resid.size
     if lost > 0:  # GLSAR whitening loses the first `order` rows
         index = index[lost:]
-        notes.append(f"{name} whitening uses the first {_rows(lost)} as start-up values; "
-                     "they have no whitened residual and are not tested.")
+        notes.append(
+            f"{name} whitening uses the first {_rows(lost)} as start-up values; "
+            "they have no whitened residual and are not tested."
+        )
     frame = None
     if getattr(mod, "formula", None) is not None and getattr(data, "frame", None) is not None:
         kept = np.setdiff1d(np.arange(len(data.frame)), np.asarray(missing if missing is not None else [], int))
-        frame = data.frame.iloc[kept].iloc[max(lost, 0):]
+        frame = data.frame.iloc[kept].iloc[max(lost, 0) :]
     X = np.asarray(mod.wexog, dtype=float)
     if isinstance(mod, OLS):
         k_const = getattr(mod, "k_constant", None)
         has_const = None if k_const is None else bool(k_const)
     else:
         has_const = None  # detected on the whitened design: weighting can turn a constant into a variable
-        notes.append(f"{name}: the residuals tested are the whitened residuals (wresid) and the design "
-                     "is the whitened design (wexog), which satisfy the OLS assumptions the tests use.")
+        notes.append(
+            f"{name}: the residuals tested are the whitened residuals (wresid) and the design "
+            "is the whitened design (wexog), which satisfy the OLS assumptions the tests use."
+        )
     return ResidualData(
-        resid=resid, index=index, exog=X, exog_names=tuple(mod.exog_names), has_constant=has_const,
-        endog=np.asarray(mod.wendog, dtype=float).ravel(), endog_name=str(mod.endog_names),
+        resid=resid,
+        index=index,
+        exog=X,
+        exog_names=tuple(mod.exog_names),
+        has_constant=has_const,
+        endog=np.asarray(mod.wendog, dtype=float).ravel(),
+        endog_name=str(mod.endog_names),
         source=f"statsmodels {name} results" + (" (formula)" if frame is not None else ""),
-        notes=tuple(notes), frame=frame, fitted=res), None
+        notes=tuple(notes),
+        frame=frame,
+        fitted=res,
+    ), None
 
 
 def _from_statespace(res) -> tuple[ResidualData, np.ndarray | None]:
@@ -242,8 +271,10 @@ def _from_statespace(res) -> tuple[ResidualData, np.ndarray | None]:
         raise TypeError(f"'model' is a multivariate {type(mod).__name__} result; one residual series is needed")
     values = values.ravel()
     index = r.index if isinstance(r, pd.Series) else pd.RangeIndex(values.size)
-    arma_df = sum(int(getattr(mod, a, 0) or 0) for a in (
-        "k_ar_params", "k_ma_params", "k_seasonal_ar_params", "k_seasonal_ma_params"))
+    arma_df = sum(
+        int(getattr(mod, a, 0) or 0)
+        for a in ("k_ar_params", "k_ma_params", "k_seasonal_ar_params", "k_seasonal_ma_params")
+    )
     d, D = int(getattr(mod, "k_diff", 0) or 0), int(getattr(mod, "k_seasonal_diff", 0) or 0)
     s = int(getattr(mod, "seasonal_periods", 0) or 0)
     burn = int(getattr(inner, "loglikelihood_burn", 0) or 0)
@@ -253,22 +284,33 @@ def _from_statespace(res) -> tuple[ResidualData, np.ndarray | None]:
         keep[:burn] = False
         why = f"d + D*s = {d} + {D}*{s}" if d or D else "diffuse initialisation"
         first = "The first residual was" if burn == 1 else f"The first {burn} residuals were"
-        notes.append(f"{first} dropped as burn-in ({why}), as statsmodels does for the likelihood; "
-                     "burn-in residuals are not one-step forecast errors.")
+        notes.append(
+            f"{first} dropped as burn-in ({why}), as statsmodels does for the likelihood; "
+            "burn-in residuals are not one-step forecast errors."
+        )
     elif d or D:
-        notes.append("The model was fitted to the differenced series, so its residuals already "
-                     f"exclude the first d + D*s = {d + D * s} observations.")
-    endog = np.asarray(mod.endog, dtype=float)
-    endog = endog.ravel() if endog.size == values.size else None
+        notes.append(
+            "The model was fitted to the differenced series, so its residuals already "
+            f"exclude the first d + D*s = {d + D * s} observations."
+        )
+    raw_endog = np.asarray(mod.endog, dtype=float)
+    endog = raw_endog.ravel() if raw_endog.size == values.size else None
     order = getattr(mod, "order", None)
     spec = "" if order is None else str(tuple(order))
     sorder = getattr(mod, "seasonal_order", None)
     if sorder is not None and any(sorder):
         spec += f"x{tuple(sorder)}"
     return ResidualData(
-        resid=values, index=pd.Index(index), endog=endog, endog_name=str(getattr(mod, "endog_names", "y")),
-        arma_df=arma_df, dw_applicable=False, notes=tuple(notes), fitted=res,
-        source=f"statsmodels {type(mod).__name__}{spec} results"), keep
+        resid=values,
+        index=pd.Index(index),
+        endog=endog,
+        endog_name=str(getattr(mod, "endog_names", "y")),
+        arma_df=arma_df,
+        dw_applicable=False,
+        notes=tuple(notes),
+        fitted=res,
+        source=f"statsmodels {type(mod).__name__}{spec} results",
+    ), keep
 
 
 def _check_fitted(est) -> None:
@@ -280,8 +322,9 @@ def _check_fitted(est) -> None:
     try:
         check_is_fitted(est)
     except NotFittedError:
-        raise ValueError(f"'model' is a scikit-learn {type(est).__name__} that has not been fitted "
-                         "(call .fit(X, y) first)") from None
+        raise ValueError(
+            f"'model' is a scikit-learn {type(est).__name__} that has not been fitted (call .fit(X, y) first)"
+        ) from None
 
 
 def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
@@ -296,8 +339,11 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
     n = yv.size
     if len(X) != n:
         raise ValueError(f"'exog' and 'endog' must have the same number of rows (got {len(X)} and {n})")
-    index = X.index if isinstance(X, (pd.DataFrame, pd.Series)) else (
-        y.index if isinstance(y, (pd.Series, pd.DataFrame)) else pd.RangeIndex(n))
+    index = (
+        X.index
+        if isinstance(X, (pd.DataFrame, pd.Series))
+        else (y.index if isinstance(y, (pd.Series, pd.DataFrame)) else pd.RangeIndex(n))
+    )
     try:
         Xv, names, _ = _as_2d(X, "exog")
     except ValueError:
@@ -305,8 +351,10 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
     keep = np.isfinite(yv) & (finite_rows(Xv) if Xv is not None else True)
     notes = []
     if (~keep).any():
-        notes.append(f"{_rows(int((~keep).sum()))} with missing or infinite values in exog or endog were dropped; "
-                     "the time order has gaps there.")
+        notes.append(
+            f"{_rows(int((~keep).sum()))} with missing or infinite values in exog or endog were dropped; "
+            "the time order has gaps there."
+        )
     pos = np.flatnonzero(keep)
     X_kept = X.iloc[pos] if isinstance(X, (pd.DataFrame, pd.Series)) else np.asarray(X)[pos]
     pred = np.full(n, np.nan)
@@ -320,15 +368,26 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
         if fit_intercept and not has_const:
             exog, names, has_const = np.column_stack([np.ones(n), Xv]), ("const",) + names, True
         if name != "LinearRegression":
-            notes.append(f"{name} residuals are not least-squares residuals; tests that assume "
-                         "OLS residuals for this design are approximate.")
+            notes.append(
+                f"{name} residuals are not least-squares residuals; tests that assume "
+                "OLS residuals for this design are approximate."
+            )
     else:
-        notes.append(f"{name} is not a linear model of X, so there is no design matrix for the exact "
-                     "Durbin-Watson distribution.")
+        notes.append(
+            f"{name} is not a linear model of X, so there is no design matrix for the exact Durbin-Watson distribution."
+        )
     return ResidualData(
-        resid=resid, index=pd.Index(index), exog=exog, exog_names=names, has_constant=has_const,
-        endog=yv, endog_name=str(getattr(y, "name", None) or "y"), notes=tuple(notes),
-        frame=X if isinstance(X, pd.DataFrame) else None, source=f"scikit-learn {name} with X and y"), keep
+        resid=resid,
+        index=pd.Index(index),
+        exog=exog,
+        exog_names=names,
+        has_constant=has_const,
+        endog=yv,
+        endog_name=str(getattr(y, "name", None) or "y"),
+        notes=tuple(notes),
+        frame=X if isinstance(X, pd.DataFrame) else None,
+        source=f"scikit-learn {name} with X and y",
+    ), keep
 
 
 def _from_array(values, exog) -> tuple[ResidualData, np.ndarray | None]:
@@ -351,16 +410,24 @@ def _from_array(values, exog) -> tuple[ResidualData, np.ndarray | None]:
         if xidx is not None and isinstance(values, pd.Series) and not xidx.equals(index):
             raise ValueError("'exog' index must equal the residuals' index (got different labels)")
     kind = "Series" if isinstance(values, pd.Series) else type(values).__name__
-    return ResidualData(resid=arr, index=index, exog=X, exog_names=names,
-                        source=f"residual {kind}" + (" with exog" if X is not None else "")), None
+    return ResidualData(
+        resid=arr,
+        index=index,
+        exog=X,
+        exog_names=names,
+        source=f"residual {kind}" + (" with exog" if X is not None else ""),
+    ), None
 
 
-def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
-                left_out=None) -> tuple[ResidualData, np.ndarray | None]:
+def _from_frame(
+    df: pd.DataFrame, response, predictors, add_constant: bool, left_out=None
+) -> tuple[ResidualData, np.ndarray | None]:
     """OLS of ``response`` on ``predictors``; rows in ``left_out`` (no group label) are not fitted."""
     if response is None or predictors is None:
-        raise TypeError("a DataFrame needs response= (the response column) and predictors= "
-                        f"(a list of column names) (got response={response!r}, predictors={predictors!r})")
+        raise TypeError(
+            "a DataFrame needs response= (the response column) and predictors= "
+            f"(a list of column names) (got response={response!r}, predictors={predictors!r})"
+        )
     response = check_label(response, "response")
     preds = check_labels(predictors, "predictors")
     columns = [("response", response)] + [("predictors", c) for c in preds]
@@ -389,8 +456,10 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
     complete = bool(ok.all())
     names, notes = tuple(str(c) for c in preds), []
     if not finite.all():
-        notes.append(f"{_rows(int((~finite).sum()))} with missing or infinite values in {response!r} or the "
-                     "predictors were dropped before fitting; the time order has gaps there.")
+        notes.append(
+            f"{_rows(int((~finite).sum()))} with missing or infinite values in {response!r} or the "
+            "predictors were dropped before fitting; the time order has gaps there."
+        )
     P = X[:, lead:]
     y_fit = y if complete else y[ok]
     top = float(np.max(np.abs(y_fit))) or 1.0
@@ -401,7 +470,7 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
         has_const, shared, p_top = has_constant_sharing_r(P_fit, y_fit / top)
     else:
         has_const = False
-    spans = has_const   # whether the predictors themselves span a constant
+    spans = has_const  # whether the predictors themselves span a constant
     if add_constant and has_const:
         notes.append("'add_constant': the predictors already span a constant, so none was added.")
         X = np.ascontiguousarray(P)
@@ -411,8 +480,10 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
     if X.shape[1] == 0:
         raise ValueError("'predictors' must name at least one column when 'add_constant' is False (got [])")
     if ok.sum() <= X.shape[1]:
-        raise ValueError(f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
-                         "coefficients; more rows than coefficients are needed")
+        raise ValueError(
+            f"'model' DataFrame has {int(ok.sum())} complete rows for {X.shape[1]} "
+            "coefficients; more rows than coefficients are needed"
+        )
     resid = np.full(n, np.nan)
     with caught_warnings() as caught:
         if add_constant and shared is not None and not spans:
@@ -424,13 +495,23 @@ def _from_frame(df: pd.DataFrame, response, predictors, add_constant: bool,
             resid[ok], rank = ols_residuals(y_fit, X if complete else X[ok])
     notes += caught.notes()
     if rank < X.shape[1]:
-        notes.append(f"The design has rank {rank} < {X.shape[1]} columns (collinear predictors): the "
-                     "coefficients are not unique; the residuals are those of the minimum-norm least-squares fit.")
+        notes.append(
+            f"The design has rank {rank} < {X.shape[1]} columns (collinear predictors): the "
+            "coefficients are not unique; the residuals are those of the minimum-norm least-squares fit."
+        )
     rhs = " + ".join(names) if names else "1"
     return ResidualData(
-        resid=resid, index=df.index, exog=X, exog_names=names, has_constant=has_const, endog=y,
-        endog_name=str(response), notes=tuple(notes), frame=df,
-        source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight"), finite
+        resid=resid,
+        index=df.index,
+        exog=X,
+        exog_names=names,
+        has_constant=has_const,
+        endog=y,
+        endog_name=str(response),
+        notes=tuple(notes),
+        frame=df,
+        source=f"DataFrame, OLS of {response} on {rhs} fitted by lagsight",
+    ), finite
 
 
 def ols_residuals(y: np.ndarray, X: np.ndarray) -> tuple[np.ndarray, int]:
@@ -445,7 +526,7 @@ def ols_residuals(y: np.ndarray, X: np.ndarray) -> tuple[np.ndarray, int]:
     tops = np.where(tops > 0, tops, 1.0)
     scale = np.append(tops, top)
     with np.errstate(over="ignore", invalid="ignore"):
-        G = gram_of(X, y) / np.outer(scale, scale)   # the first pass, from products of the whole arrays
+        G = gram_of(X, y) / np.outer(scale, scale)  # the first pass, from products of the whole arrays
     R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]), gram=G)
     sol = solve_r(R, n)
     beta = sol.params / tops
@@ -467,8 +548,9 @@ def _aligned(value, arg: str, n: int, frame: pd.DataFrame | None):
     return arr, (str(name) if name is not None else None)
 
 
-def as_residual_data(model, *, exog=None, endog=None, response=None, predictors=None,
-                     groups=None, time=None, add_constant: bool = True) -> ResidualData:
+def as_residual_data(
+    model, *, exog=None, endog=None, response=None, predictors=None, groups=None, time=None, add_constant: bool = True
+) -> ResidualData:
     """Turn a fitted model or a residual vector into a :class:`ResidualData`.
 
     Parameters
@@ -496,24 +578,38 @@ def as_residual_data(model, *, exog=None, endog=None, response=None, predictors=
     kind = _kind(model)
     if kind is None:
         hint = " (an unfitted model? call .fit() first)" if hasattr(model, "fit") else ""
-        raise TypeError(f"Unexpected type for 'model': {type(model)!r}; expected one of: "
-                        + "; ".join(ACCEPTED_KINDS) + hint)
+        raise TypeError(
+            f"Unexpected type for 'model': {type(model)!r}; expected one of: " + "; ".join(ACCEPTED_KINDS) + hint
+        )
     if kind == "sklearn" and (exog is None or endog is None):
         lacking = " and ".join(a for a, v in (("exog", exog), ("endog", endog)) if v is None)
-        raise TypeError(f"a scikit-learn estimator needs its X and y as exog and endog: give {lacking} "
-                        f"(the data {type(model).__name__} is to be checked on)")
-    allowed = {"regression": (), "statespace": (), "sklearn": ("exog", "endog"), "array": ("exog",),
-               "frame": ("response", "predictors")}[kind]
+        raise TypeError(
+            f"a scikit-learn estimator needs its X and y as exog and endog: give {lacking} "
+            f"(the data {type(model).__name__} is to be checked on)"
+        )
+    allowed = {
+        "regression": (),
+        "statespace": (),
+        "sklearn": ("exog", "endog"),
+        "array": ("exog",),
+        "frame": ("response", "predictors"),
+    }[kind]
     for arg, val in (("exog", exog), ("endog", endog), ("response", response), ("predictors", predictors)):
         if val is not None and arg not in allowed:
-            raise TypeError(f"'{arg}' does not apply when 'model' is {type(model).__name__} "
-                            f"(got {type(val).__name__}); it is for {_ARG_KIND[arg]}")
+            raise TypeError(
+                f"'{arg}' does not apply when 'model' is {type(model).__name__} "
+                f"(got {type(val).__name__}); it is for {_ARG_KIND[arg]}"
+            )
     left_out = None
     if kind == "frame" and groups is not None:  # rows without a group label are not fitted
         left_out = unlabelled(_aligned(groups, "groups", len(model), model)[0])
-    build = {"regression": lambda: _from_regression(model), "statespace": lambda: _from_statespace(model),
-             "sklearn": lambda: _from_sklearn(model, exog, endog), "array": lambda: _from_array(model, exog),
-             "frame": lambda: _from_frame(model, response, predictors, add_constant, left_out)}[kind]
+    build = {
+        "regression": lambda: _from_regression(model),
+        "statespace": lambda: _from_statespace(model),
+        "sklearn": lambda: _from_sklearn(model, exog, endog),
+        "array": lambda: _from_array(model, exog),
+        "frame": lambda: _from_frame(model, response, predictors, add_constant, left_out),
+    }[kind]
     return _finish(*build(), groups, time)
 
 
@@ -532,20 +628,28 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
             keep &= ~missing
     bad = keep & ~np.isfinite(raw.resid)
     if bad.any():
-        notes.append(f"{_rows(int(bad.sum()))} with missing or infinite residuals were dropped; "
-                     "the time order has gaps there.")
+        notes.append(
+            f"{_rows(int(bad.sum()))} with missing or infinite residuals were dropped; the time order has gaps there."
+        )
         keep &= ~bad
     if raw.exog is not None:
         bad = keep & ~finite_rows(raw.exog)
         if bad.any():
-            notes.append(f"{_rows(int(bad.sum()))} with missing or infinite values in the design "
-                         "were dropped; the time order has gaps there.")
+            notes.append(
+                f"{_rows(int(bad.sum()))} with missing or infinite values in the design "
+                "were dropped; the time order has gaps there."
+            )
             keep &= ~bad
     n = int(keep.sum())
     if n < 3:
         raise ValueError(f"'model' gives {n} usable rows; at least 3 are needed")
-    out = raw.replace(groups=group_arr, order_values=order_arr, order_name=order_name,
-                      source=f"{raw.source}, {n} rows", notes=tuple(notes))
+    out = raw.replace(
+        groups=group_arr,
+        order_values=order_arr,
+        order_name=order_name,
+        source=f"{raw.source}, {n} rows",
+        notes=tuple(notes),
+    )
     if n < n0:  # no copy of the rows when every row is kept
         out = out.subset(keep)
     if out.has_constant is None and out.exog is not None:

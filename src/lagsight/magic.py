@@ -5,6 +5,7 @@ Nothing is registered at import; ``%load_ext lagsight`` calls
 lagsight cannot diagnose, a bad option value) raises ``UsageError``, which
 IPython shows as one line without a traceback.
 """
+
 from __future__ import annotations
 
 import warnings
@@ -31,9 +32,20 @@ def _unquote(text: str | None) -> str | None:
 
 #: API argument -> the magic option that sets it, so an error raised by the library's checks
 #: (the one place for input rules) names what the user typed
-_OPTION_OF = {"alpha": "--alpha", "alternative": "--alternative", "max_lag": "--max-lag",
-              "bg_max_lag": "--bg-max-lag", "period": "--period", "order": "--order", "groups": "--groups",
-              "exog": "--X", "endog": "--y", "response": "--y", "predictors": "--X", "time": "--order"}
+_OPTION_OF = {
+    "alpha": "--alpha",
+    "alternative": "--alternative",
+    "max_lag": "--max-lag",
+    "bg_max_lag": "--bg-max-lag",
+    "period": "--period",
+    "order": "--order",
+    "groups": "--groups",
+    "exog": "--X",
+    "endog": "--y",
+    "response": "--y",
+    "predictors": "--X",
+    "time": "--order",
+}
 
 
 def _usage(err: BaseException, names: dict = _OPTION_OF) -> UsageError:
@@ -49,7 +61,7 @@ def _parse(magic, line: str):
     try:
         return parse_argstring(magic, line)
     except ValueError as err:  # shlex's 'No closing quotation' and the like
-        raise UsageError(f"the line cannot be read: {_first_line(err)} (quote names with spaces: \"a b\")") from None
+        raise UsageError(f'the line cannot be read: {_first_line(err)} (quote names with spaces: "a b")') from None
 
 
 @magics_class
@@ -71,32 +83,49 @@ class LagsightMagics(Magics):
         except SyntaxError as err:
             raise UsageError(f"{what} {expr!r} is not a Python expression ({err.msg})") from None
         except Exception as err:  # the user's expression failed: report it in one line
-            raise UsageError(f"{what} {expr!r} could not be evaluated: "
-                             f"{type(err).__name__}: {_first_line(err)}") from None
+            raise UsageError(
+                f"{what} {expr!r} could not be evaluated: {type(err).__name__}: {_first_line(err)}"
+            ) from None
 
     @magic_arguments()
     @argument("expr", nargs="*", help="The model or residuals: a name or expression from the notebook.")
     @argument("--max-lag", type=int, metavar="N", help="Highest lag of the correlogram and the Ljung-Box test.")
     @argument("--bg-max-lag", type=int, metavar="P", help="Highest lag of the Breusch-Godfrey test.")
     @argument("--alpha", type=float, metavar="A", help="Significance level, in (0, 1). Default 0.05.")
-    @argument("--alternative", choices=_ALTERNATIVES,
-              help="Direction of the alternative. Default positive.")
-    @argument("--order", metavar="HOW",
-              help="Row order to test in: keep (as given), index (sort by the index) or a column name "
-                   "(sort by that column). Default: keep, with a warning when the rows look out of order.")
+    @argument("--alternative", choices=_ALTERNATIVES, help="Direction of the alternative. Default positive.")
+    @argument(
+        "--order",
+        metavar="HOW",
+        help="Row order to test in: keep (as given), index (sort by the index) or a column name "
+        "(sort by that column). Default: keep, with a warning when the rows look out of order.",
+    )
     @argument("--groups", metavar="COLUMN", help="Column with group labels: test within each group.")
-    @argument("--period", type=int, metavar="S",
-              help="Seasonal period for the seasonal Durbin-Watson test; 0 turns it off. "
-                   "Default: from the index frequency.")
-    @argument("--X", dest="X", metavar="EXPR",
-              help="The design: X for a scikit-learn estimator, the regressors (exog) for residuals, or "
-                   "comma-separated predictor columns for a DataFrame.")
-    @argument("--y", dest="y", metavar="EXPR",
-              help="The response: y for a scikit-learn estimator, or the response column for a DataFrame.")
+    @argument(
+        "--period",
+        type=int,
+        metavar="S",
+        help="Seasonal period for the seasonal Durbin-Watson test; 0 turns it off. Default: from the index frequency.",
+    )
+    @argument(
+        "--X",
+        dest="X",
+        metavar="EXPR",
+        help="The design: X for a scikit-learn estimator, the regressors (exog) for residuals, or "
+        "comma-separated predictor columns for a DataFrame.",
+    )
+    @argument(
+        "--y",
+        dest="y",
+        metavar="EXPR",
+        help="The response: y for a scikit-learn estimator, or the response column for a DataFrame.",
+    )
     @argument("--power", action="store_true", help="Also simulate the power of the exact Durbin-Watson test.")
     @argument("--static", action="store_true", help="Static output only (no widgets).")
-    @argument("--quiet", action="store_true",
-              help="Show only the verdict and the sentence to paste; hide warnings raised while diagnosing.")
+    @argument(
+        "--quiet",
+        action="store_true",
+        help="Show only the verdict and the sentence to paste; hide warnings raised while diagnosing.",
+    )
     @line_magic
     def lagsight(self, line: str = ""):
         """Diagnose serial correlation in a model's residuals and show the interactive panel.
@@ -132,6 +161,7 @@ class LagsightMagics(Magics):
         self._design(model, args, options)
         from .diagnosis import diagnose
         from .display import set_preferences, silence_in_cell
+
         try:
             with warnings.catch_warnings():
                 if args.quiet:
@@ -149,15 +179,23 @@ class LagsightMagics(Magics):
         if args.static and args.quiet:
             raise UsageError("choose one of --static and --quiet")
         # values are checked by diagnose itself (the one place for input rules); see _usage
-        options = {"alpha": args.alpha, "alternative": args.alternative, "max_lag": args.max_lag,
-                   "bg_max_lag": args.bg_max_lag, "period": args.period, "order": _unquote(args.order),
-                   "groups": _unquote(args.groups), "power": True if args.power else None}
+        options = {
+            "alpha": args.alpha,
+            "alternative": args.alternative,
+            "max_lag": args.max_lag,
+            "bg_max_lag": args.bg_max_lag,
+            "period": args.period,
+            "order": _unquote(args.order),
+            "groups": _unquote(args.groups),
+            "power": True if args.power else None,
+        }
         return {k: v for k, v in options.items() if v is not None}
 
     def _design(self, model, args, options) -> None:
         """Route --X / --y to what ``diagnose`` expects for this kind of model."""
         import numpy as np
         import pandas as pd
+
         X, y = _unquote(args.X), _unquote(args.y)
         if isinstance(model, pd.DataFrame):
             if y is None:
@@ -199,6 +237,7 @@ class LagsightMagics(Magics):
         args = _parse(self.lagsight_bounds, line.strip().rstrip(";"))
         from .display import BoundsView
         from .stats.bounds import dw_bounds
+
         try:
             bounds = dw_bounds(args.n, args.k, alpha=args.alpha, has_constant=not args.no_constant)
         except (TypeError, ValueError) as err:

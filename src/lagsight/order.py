@@ -6,10 +6,10 @@ measures how far the rows are from that (shuffled or reversed rows, repeated
 time stamps, irregular gaps, interleaved groups), decides the order to test in,
 and says plainly what it found.  It never sorts silently.
 """
+
 from __future__ import annotations
 
 import warnings
-
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -49,8 +49,7 @@ class OrderReport:
     def apply(self, data: ResidualData) -> ResidualData:
         """Return ``data`` reordered by :attr:`permutation` (with a note if rows moved)."""
         if self.permutation.size != data.n:
-            raise ValueError(f"'data' must have {self.permutation.size} rows to apply this order "
-                             f"(got {data.n})")
+            raise ValueError(f"'data' must have {self.permutation.size} rows to apply this order (got {data.n})")
         if not self.flags.get("sorted"):
             return data
         return data.reorder(self.permutation).with_notes(f"The rows were {self.order_used} before testing.")
@@ -85,10 +84,10 @@ def _resolve_key(data: ResidualData, order):
         return pd.Index(frame_column(data.frame, order, "order")), f"column {order}", True
     if data.order_values is not None and order == data.order_name:
         return pd.Index(data.order_values), f"column {order}", True
-    columns = list(data.frame.columns) if data.frame is not None else (
-        [data.order_name] if data.order_name else [])
-    raise ValueError(f"'order' must be 'auto', 'keep', 'index' or a column name; column {order!r} "
-                     f"not found (columns: {columns})")
+    columns = list(data.frame.columns) if data.frame is not None else ([data.order_name] if data.order_name else [])
+    raise ValueError(
+        f"'order' must be 'auto', 'keep', 'index' or a column name; column {order!r} not found (columns: {columns})"
+    )
 
 
 def _resolve_groups(data: ResidualData, groups):
@@ -96,8 +95,10 @@ def _resolve_groups(data: ResidualData, groups):
         return data.groups
     if isinstance(groups, str):
         if data.frame is None or groups not in data.frame.columns:
-            raise ValueError(f"'groups': column {groups!r} not found (columns: "
-                             f"{list(data.frame.columns) if data.frame is not None else []})")
+            raise ValueError(
+                f"'groups': column {groups!r} not found (columns: "
+                f"{list(data.frame.columns) if data.frame is not None else []})"
+            )
         return frame_column(data.frame, groups, "groups").to_numpy()
     arr = np.asarray(groups)
     if arr.shape != (data.n,):
@@ -125,9 +126,22 @@ def _time_axis(stamps: pd.Index):
 
 def _period_unit(freqstr: str) -> str:
     base = freqstr.split("-")[0].lstrip("0123456789")
-    return {"Q": "quarter", "QE": "quarter", "M": "month", "ME": "month", "D": "day", "h": "hour",
-            "H": "hour", "W": "week", "Y": "year", "YE": "year", "A": "year", "B": "business day",
-            "min": "minute", "s": "second"}.get(base, f"period of {freqstr}")
+    return {
+        "Q": "quarter",
+        "QE": "quarter",
+        "M": "month",
+        "ME": "month",
+        "D": "day",
+        "h": "hour",
+        "H": "hour",
+        "W": "week",
+        "Y": "year",
+        "YE": "year",
+        "A": "year",
+        "B": "business day",
+        "min": "minute",
+        "s": "second",
+    }.get(base, f"period of {freqstr}")
 
 
 def _fmt_step(k: int, unit: str) -> str:
@@ -221,51 +235,72 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
         n_desc, n_steps = int((steps < 0).sum()), int(steps.size)
         frac = n_desc / n_steps if n_steps else 0.0
         dup = int(r_has.size - np.unique(g_has * (ranks.max() + 2) + r_has).size)
-        flags.update(monotonic=n_desc == 0, shuffled=0 < n_desc < n_steps,
-                     reversed=n_steps > 0 and n_desc == n_steps, descending_fraction=frac, duplicate_stamps=dup)
+        flags.update(
+            monotonic=n_desc == 0,
+            shuffled=0 < n_desc < n_steps,
+            reversed=n_steps > 0 and n_desc == n_steps,
+            descending_fraction=frac,
+            duplicate_stamps=dup,
+        )
         if do_sort:
             inner = np.argsort(ranks, kind="stable")
             perm = inner[np.argsort(gsort[inner], kind="stable")]
         else:
             perm = np.arange(n)
         if n_desc and do_sort:
-            warnings.append(f"The rows were not in order of {key_name}{within} ({n_desc} of {n_steps} steps "
-                            f"went backwards); they were sorted by it for testing. If the sample is a random "
-                            f"subset of a longer series, the sorted rows skip the times left out.")
+            warnings.append(
+                f"The rows were not in order of {key_name}{within} ({n_desc} of {n_steps} steps "
+                f"went backwards); they were sorted by it for testing. If the sample is a random "
+                f"subset of a longer series, the sorted rows skip the times left out."
+            )
         elif flags["reversed"]:
-            warnings.append(f"{key_name.capitalize()} decreases throughout{within}: the rows run backwards in "
-                            "time. Serial-correlation statistics do not change under reversal, but plots read "
-                            "backwards; order='index' sorts by the index.")
+            warnings.append(
+                f"{key_name.capitalize()} decreases throughout{within}: the rows run backwards in "
+                "time. Serial-correlation statistics do not change under reversal, but plots read "
+                "backwards; order='index' sorts by the index."
+            )
         elif n_desc:
-            looks = (" This looks like a shuffled or randomly split sample."
-                     if frac >= _SHUFFLE_FRACTION else "")
-            warnings.append(f"{key_name.capitalize()} is not in increasing order{within}: {n_desc} of {n_steps} "
-                            f"steps ({frac:.0%}) go backwards.{looks} Row order is not time order, so "
-                            "serial-correlation tests on row order are not meaningful. order='index' sorts by "
-                            "the index (stable); otherwise put the rows in time order first.")
+            looks = " This looks like a shuffled or randomly split sample." if frac >= _SHUFFLE_FRACTION else ""
+            warnings.append(
+                f"{key_name.capitalize()} is not in increasing order{within}: {n_desc} of {n_steps} "
+                f"steps ({frac:.0%}) go backwards.{looks} Row order is not time order, so "
+                "serial-correlation tests on row order are not meaningful. order='index' sorts by "
+                "the index (stable); otherwise put the rows in time order first."
+            )
         if dup:
-            advice = "check for repeated records" if gcodes is not None else (
-                "if the data hold several series, pass groups= to test them separately")
-            warnings.append(f"{_rows(dup)} share{'s' * (dup == 1)} a time stamp with an earlier row"
-                            f"{' of the same group' * bool(within)}; neighbouring residuals with one stamp "
-                            f"are not one step apart ({advice}).")
+            advice = (
+                "check for repeated records"
+                if gcodes is not None
+                else ("if the data hold several series, pass groups= to test them separately")
+            )
+            warnings.append(
+                f"{_rows(dup)} share{'s' * (dup == 1)} a time stamp with an earlier row"
+                f"{' of the same group' * bool(within)}; neighbouring residuals with one stamp "
+                f"are not one step apart ({advice})."
+            )
         if n_missing:
-            warnings.append(f"{_rows(n_missing)} ha{'s' if n_missing == 1 else 've'} no value in {key_name}"
-                            + ("; they were put last." if do_sort else "; order was checked on the other rows."))
+            warnings.append(
+                f"{_rows(n_missing)} ha{'s' if n_missing == 1 else 've'} no value in {key_name}"
+                + ("; they were put last." if do_sort else "; order was checked on the other rows.")
+            )
     flags.update(_gap_summary(key, gcodes))
     if flags["gaps"]:
-        warnings.append(f"The time stamps have {flags['gaps']} irregular gaps{within} (usual step "
-                        f"{flags['usual_step']}; largest gap {flags['largest_gap']}). Across a gap, "
-                        "the next row is more than one time step later.")
+        warnings.append(
+            f"The time stamps have {flags['gaps']} irregular gaps{within} (usual step "
+            f"{flags['usual_step']}; largest gap {flags['largest_gap']}). Across a gap, "
+            "the next row is more than one time step later."
+        )
     if gcodes is not None:
         ordered = gcodes[perm]
         runs = 1 + int((ordered[1:] != ordered[:-1]).sum()) if n else 0
         n_groups = int(np.unique(gcodes).size)
         flags.update(interleaved_groups=runs > n_groups, n_groups=n_groups, group_runs=runs)
         if runs > n_groups:
-            warnings.append(f"The rows of {n_groups} groups are interleaved ({runs} runs instead of {n_groups} "
-                            "blocks): neighbouring residuals often belong to different series. Test each group "
-                            "separately, or sort with order='index' to put each group in one block.")
+            warnings.append(
+                f"The rows of {n_groups} groups are interleaved ({runs} runs instead of {n_groups} "
+                "blocks): neighbouring residuals often belong to different series. Test each group "
+                "separately, or sort with order='index' to put each group in one block."
+            )
     else:
         flags.update(interleaved_groups=False, n_groups=None, group_runs=None)
     flags["sorted"] = False if perm is None else bool(np.any(perm != np.arange(n)))
@@ -285,9 +320,14 @@ def _strictly_increasing(key: pd.Index) -> bool:
 
 def _offset_period(off) -> int | None:
     o = pd.offsets
-    table = (((o.QuarterBegin, o.QuarterEnd, o.BQuarterBegin, o.BQuarterEnd), 4),
-             ((o.MonthBegin, o.MonthEnd, o.BusinessMonthBegin, o.BusinessMonthEnd), 12),
-             ((o.Week,), 52), ((o.BusinessDay,), 5), ((o.Day,), 7), ((o.Hour,), 24))
+    table = (
+        ((o.QuarterBegin, o.QuarterEnd, o.BQuarterBegin, o.BQuarterEnd), 4),
+        ((o.MonthBegin, o.MonthEnd, o.BusinessMonthBegin, o.BusinessMonthEnd), 12),
+        ((o.Week,), 52),
+        ((o.BusinessDay,), 5),
+        ((o.Day,), 7),
+        ((o.Hour,), 24),
+    )
     if off is None or getattr(off, "n", 1) != 1:
         return None
     for classes, period in table:

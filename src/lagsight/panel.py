@@ -7,6 +7,7 @@ shown as inline SVG (or PNG) in ``ipywidgets.HTML`` views, so the panel works
 headless.  The static snapshot is assembled from the same figures.  A view that
 fails shows its error message in place; the others keep working.
 """
+
 from __future__ import annotations
 
 import asyncio
@@ -70,8 +71,11 @@ def _running_loop():
 
 def _bound(widget: str, doc: str) -> property:
     """A property reading and setting the ``value`` of one of the panel's widgets."""
-    return property(lambda self: getattr(self, widget).value,
-                    lambda self, value: setattr(getattr(self, widget), "value", value), doc=doc)
+    return property(
+        lambda self: getattr(self, widget).value,
+        lambda self, value: setattr(getattr(self, widget), "value", value),
+        doc=doc,
+    )
 
 
 class DiagnosisPanel:
@@ -117,9 +121,20 @@ class DiagnosisPanel:
         The panel itself (class ``lgs-panel``).
     """
 
-    def __init__(self, diag, *, max_lag=None, band="white", test=None, lag=1, figures="svg",
-                 snapshot_delay=SNAPSHOT_DELAY, prefetch_delay=PREFETCH_DELAY):
+    def __init__(
+        self,
+        diag,
+        *,
+        max_lag=None,
+        band="white",
+        test=None,
+        lag=1,
+        figures="svg",
+        snapshot_delay=SNAPSHOT_DELAY,
+        prefetch_delay=PREFETCH_DELAY,
+    ):
         import ipywidgets as w
+
         from .render.text import primary_test
 
         if band not in dict(BANDS).values():
@@ -167,33 +182,61 @@ class DiagnosisPanel:
         alphas = sorted(set(ALPHAS) | {diag.alpha})
         self.style = tag(w.HTML(self._style_markup()), "lgs-style")
         self.headline = view("lgs-headline-view")
-        self.alpha_picker = tag(w.Dropdown(options=[(f"{a:g}", a) for a in alphas], value=diag.alpha,
-                                           description="alpha", layout=w.Layout(width="160px")), "lgs-alpha")
+        self.alpha_picker = tag(
+            w.Dropdown(
+                options=[(f"{a:g}", a) for a in alphas],
+                value=diag.alpha,
+                description="alpha",
+                layout=w.Layout(width="160px"),
+            ),
+            "lgs-alpha",
+        )
         # toggle buttons get their label beside them (a description would wrap the buttons onto a second line)
         inline = dict(layout=w.Layout(width="auto"), style={"button_width": "auto"})
-        self.alternative_picker = tag(w.ToggleButtons(options=list(ALTERNATIVES), value=diag.alternative,
-                                                      tooltips=["alternative: " + a for a in ALTERNATIVES],
-                                                      **inline), "lgs-alternative")
-        self.test_toggle = tag(w.ToggleButtons(options=names, value=test if names else None,
-                                                style={"button_width": "auto"}), "lgs-test-toggle")
+        self.alternative_picker = tag(
+            w.ToggleButtons(
+                options=list(ALTERNATIVES),
+                value=diag.alternative,
+                tooltips=["alternative: " + a for a in ALTERNATIVES],
+                **inline,
+            ),
+            "lgs-alternative",
+        )
+        self.test_toggle = tag(
+            w.ToggleButtons(options=names, value=test if names else None, style={"button_width": "auto"}),
+            "lgs-test-toggle",
+        )
         self.test_view = view("lgs-test-view", "120px")
-        self.lag_slider = tag(w.IntSlider(value=min(max_lag, nlags), min=1, max=nlags, continuous_update=False,
-                                          description="max lag", disabled=diag.correlogram is None),
-                              "lgs-lag-slider")
+        self.lag_slider = tag(
+            w.IntSlider(
+                value=min(max_lag, nlags),
+                min=1,
+                max=nlags,
+                continuous_update=False,
+                description="max lag",
+                disabled=diag.correlogram is None,
+            ),
+            "lgs-lag-slider",
+        )
         self.band_toggle = tag(w.ToggleButtons(options=list(BANDS), value=band, **inline), "lgs-band")
         self.correlogram_view = view("lgs-correlogram-view", "280px")
         top = max(1, min(nlags, diag.n - 2))
-        self.lag_picker = tag(w.IntSlider(value=min(lag, top), min=1, max=top, continuous_update=False,
-                                          description="lag h"), "lgs-lag-picker")
+        self.lag_picker = tag(
+            w.IntSlider(value=min(lag, top), min=1, max=top, continuous_update=False, description="lag h"),
+            "lgs-lag-picker",
+        )
         self.scatter_view = view("lgs-scatter-view", "280px")
         self.residuals_view = view("lgs-residuals-view", "240px")
         self.remedies_view = view("lgs-remedies-view")
         self.groups_view = view("lgs-groups-view")
         self.power_view = view("lgs-power-view")
-        self.save_path = tag(w.Text(value="lagsight-report.html", description="report file",
-                                    layout=w.Layout(width="360px")), "lgs-save-path")
-        self.save_button = tag(w.Button(description="Save HTML report", icon="download",
-                                          layout=w.Layout(width="auto")), "lgs-save")
+        self.save_path = tag(
+            w.Text(value="lagsight-report.html", description="report file", layout=w.Layout(width="360px")),
+            "lgs-save-path",
+        )
+        self.save_button = tag(
+            w.Button(description="Save HTML report", icon="download", layout=w.Layout(width="auto")), "lgs-save"
+        )
         self.save_status = tag(w.HTML(), "lgs-save-status")
 
         def label(text):
@@ -203,14 +246,22 @@ class DiagnosisPanel:
             return tag(w.HTML(f'<div class="lgs-section">{_esc(title)}</div>'), "lgs-section-title")
 
         children = [
-            self.style, self.headline,
+            self.style,
+            self.headline,
             tag(w.HBox([self.alpha_picker, label("alternative"), self.alternative_picker]), "lgs-controls"),
-            section("Tests"), self.test_toggle, self.test_view,
+            section("Tests"),
+            self.test_toggle,
+            self.test_view,
             section("Correlogram of the residuals"),
-            tag(w.HBox([self.lag_slider, label("band"), self.band_toggle]), "lgs-controls"), self.correlogram_view,
-            section("Residual against its own past"), self.lag_picker, self.scatter_view,
-            section("Residuals in test order"), self.residuals_view,
-            section("Corrected inference"), self.remedies_view,
+            tag(w.HBox([self.lag_slider, label("band"), self.band_toggle]), "lgs-controls"),
+            self.correlogram_view,
+            section("Residual against its own past"),
+            self.lag_picker,
+            self.scatter_view,
+            section("Residuals in test order"),
+            self.residuals_view,
+            section("Corrected inference"),
+            self.remedies_view,
         ]
         if diag.groups is not None:
             children += [section("Groups"), self.groups_view]
@@ -221,12 +272,12 @@ class DiagnosisPanel:
 
         self.alpha_picker.observe(self._on_level, names="value")
         self.alternative_picker.observe(self._on_level, names="value")
-        self.test_toggle.observe(lambda change: self._timed("test", self._draw_test), names="value")
-        redraw_cg = lambda change: self._timed("correlogram", self._draw_correlogram)  # noqa: E731
+        self.test_toggle.observe(lambda _change: self._timed("test", self._draw_test), names="value")
+        redraw_cg = lambda _change: self._timed("correlogram", self._draw_correlogram)  # noqa: E731
         self.lag_slider.observe(redraw_cg, names="value")
         self.band_toggle.observe(redraw_cg, names="value")
-        self.lag_picker.observe(lambda change: self._timed("lag", self._draw_scatter), names="value")
-        self.save_button.on_click(lambda button: self.save())
+        self.lag_picker.observe(lambda _change: self._timed("lag", self._draw_scatter), names="value")
+        self.save_button.on_click(lambda _button: self.save())
         self.refresh()
 
     # -- state ---------------------------------------------------------------------
@@ -271,25 +322,37 @@ class DiagnosisPanel:
         controls at ``diag``'s alpha and alternative), in report order."""
         from .render import figures as F
         from .render.text import order_caveat
+
         d = self.current if diag is None else diag
         h, cg = self.lag, self._correlogram(d.alpha)
         caveat = order_caveat(self.base)  # rows out of time order: the same at every alpha and alternative
         specs: dict[str, tuple] = {}
         if DW in d.tests:
-            specs["scale"] = (("scale", d.alpha, d.alternative), lambda: F.scale_figure(d, alpha=d.alpha),
-                              "Durbin-Watson d on its 0-4 scale")
+            specs["scale"] = (
+                ("scale", d.alpha, d.alternative),
+                lambda: F.scale_figure(d, alpha=d.alpha),
+                "Durbin-Watson d on its 0-4 scale",
+            )
         if cg is not None:
             specs["correlogram"] = (
                 ("correlogram", self.max_lag, self.band, cg.alpha),
-                lambda: F.correlogram_figure(cg, max_lag=self.max_lag, band=self.band,
-                                             period=self.base.period, caveat=caveat),
-                "ACF and PACF of the residuals")
-        specs["lag"] = (("lag", h), lambda: F.lag_scatter_figure(self.base.data.resid, lag=h, caveat=caveat),
-                        f"Residuals against their lag {h}")
+                lambda: F.correlogram_figure(
+                    cg, max_lag=self.max_lag, band=self.band, period=self.base.period, caveat=caveat
+                ),
+                "ACF and PACF of the residuals",
+            )
+        specs["lag"] = (
+            ("lag", h),
+            lambda: F.lag_scatter_figure(self.base.data.resid, lag=h, caveat=caveat),
+            f"Residuals against their lag {h}",
+        )
         specs["residuals"] = (("residuals",), lambda: F.residuals_figure(self.base), "Residuals in test order")
         if d.groups is not None:
-            specs["groups"] = (("groups", d.alpha, d.alternative), lambda: F.groups_figure(d.groups),
-                               "Durbin-Watson d by group")
+            specs["groups"] = (
+                ("groups", d.alpha, d.alternative),
+                lambda: F.groups_figure(d.groups),
+                "Durbin-Watson d by group",
+            )
         if d.power is not None:
             specs["power"] = (("power",), lambda: F.power_figure(d.power), "Power of the exact Durbin-Watson test")
         return specs
@@ -300,6 +363,7 @@ class DiagnosisPanel:
         ``diag`` draws it for another alpha/alternative (prefetch) without showing it.
         """
         from .render import export
+
         key, make, title = self._specs(diag)[name]
         fmt = fmt or self.figure_format
         entry = self._entry(key)
@@ -355,18 +419,28 @@ class DiagnosisPanel:
     def _cached(self, name: str, diag) -> bool:
         """Figure ``name`` at ``diag``'s level is cached (or absent, or failed when drawn ahead)."""
         spec = self._specs(diag).get(name)
-        return (spec is None or spec[0] in self._not_ahead
-                or self.figure_format in self._cache.get(spec[0], (None, {}))[1])
+        return (
+            spec is None or spec[0] in self._not_ahead or self.figure_format in self._cache.get(spec[0], (None, {}))[1]
+        )
 
     # -- drawing -------------------------------------------------------------------
     def refresh(self) -> None:
         """Redraw every view."""
-        for draw in (self._draw_headline, self._draw_test, self._draw_correlogram, self._draw_scatter,
-                     self._draw_residuals, self._draw_remedies, self._draw_groups, self._draw_power):
+        for draw in (
+            self._draw_headline,
+            self._draw_test,
+            self._draw_correlogram,
+            self._draw_scatter,
+            self._draw_residuals,
+            self._draw_remedies,
+            self._draw_groups,
+            self._draw_power,
+        ):
             draw()
 
     def _style_markup(self) -> str:
         from .render.style import CSS
+
         return f"<style>{CSS}{_PANEL_CSS}.{SNAPSHOT_CLASS}-{self.uid}{{display:none}}</style>"
 
     def _draw(self, name: str, widget, build) -> None:
@@ -386,6 +460,7 @@ class DiagnosisPanel:
             if self.test == DW and DW in self.current.tests:
                 body += views.figure_html(*self._figure("scale"))
             return body
+
         self._draw("test", self.test_view, build)
 
     def _draw_correlogram(self) -> None:
@@ -393,6 +468,7 @@ class DiagnosisPanel:
             if self.base.correlogram is None:
                 return error_box("No correlogram:", self.base.errors.get("Correlogram", "too few residuals"))
             return views.figure_html(*self._figure("correlogram"))
+
         self._draw("correlogram", self.correlogram_view, build)
 
     def _draw_scatter(self) -> None:
@@ -406,8 +482,11 @@ class DiagnosisPanel:
 
     def _draw_groups(self) -> None:
         if self.current.groups is not None:
-            self._draw("groups", self.groups_view,
-                       lambda: views.figure_html(*self._figure("groups")) + views.groups_html(self.current))
+            self._draw(
+                "groups",
+                self.groups_view,
+                lambda: views.figure_html(*self._figure("groups")) + views.groups_html(self.current),
+            )
 
     def _draw_power(self) -> None:
         if self.current.power is not None:
@@ -428,7 +507,7 @@ class DiagnosisPanel:
             self._diagnoses[key] = self.base.reassess(alpha=alpha, alternative=alternative)
         return self._diagnoses[key]
 
-    def _on_level(self, change=None) -> None:
+    def _on_level(self, _change=None) -> None:
         def redraw():
             try:
                 current = self._at_level(self.alpha, self.alternative)
@@ -438,14 +517,21 @@ class DiagnosisPanel:
                 return
             self.errors.pop("reassess", None)
             self.current = current
-            for draw in (self._draw_headline, self._draw_test, self._draw_correlogram, self._draw_remedies,
-                         self._draw_groups):
+            for draw in (
+                self._draw_headline,
+                self._draw_test,
+                self._draw_correlogram,
+                self._draw_remedies,
+                self._draw_groups,
+            ):
                 draw()
+
         self._timed("alpha/alternative", redraw)
 
     def save(self, path=None) -> Path | None:
         """Write the standalone HTML report of the current view (the save button); say where in the panel."""
         from .render.html import save_html
+
         path = str(self.save_path.value if path is None else path).strip()
         try:
             if not path:
@@ -468,6 +554,7 @@ class DiagnosisPanel:
         sanitizing viewers (an untrusted notebook in JupyterLab) drop inline SVG.
         """
         from .render.html import FigureView, build_view, render_html
+
         view = build_view(self.current, **{**self.view_options, "figures": "none"})
         figs = []
         for name, (_, _, title) in self._specs().items():
@@ -490,6 +577,7 @@ class DiagnosisPanel:
     def show(self) -> None:
         """Display the static snapshot (with a display id) and then the widget."""
         from IPython.display import display
+
         display(self.snapshot(), raw=True, display_id=self.display_id)
         display(widget_bundle(self.widget), raw=True)
         self._shown = True
@@ -510,6 +598,7 @@ class DiagnosisPanel:
     def flush_snapshot(self) -> None:
         """Publish the current static snapshot to its display id now."""
         from IPython.display import update_display
+
         self._pending = None
         start = time.perf_counter()
         update_display(self.snapshot(), raw=True, display_id=self.display_id)

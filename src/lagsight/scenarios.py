@@ -3,6 +3,7 @@
 Nothing here is real data: each function simulates a plausible situation so that
 the demo, the example notebooks and the tutorials have something to diagnose.
 """
+
 from __future__ import annotations
 
 import numpy as np
@@ -71,8 +72,10 @@ def grid_peak_load(n_days: int = 540, *, rho: float = 0.45, seed: int = 7) -> pd
     load[0] = 2400.0
     for t in range(1, n):
         load[t] = 900 + 0.6 * load[t - 1] + 38 * cdd[t] + 21 * hdd[t] + u[t]
-    frame = pd.DataFrame({"load_mw": load[1:], "load_lag": load[:-1], "cdd": cdd[1:], "hdd": hdd[1:]},
-                         index=pd.Index(dates[1:], name="date"))
+    frame = pd.DataFrame(
+        {"load_mw": load[1:], "load_lag": load[:-1], "cdd": cdd[1:], "hdd": hdd[1:]},
+        index=pd.Index(dates[1:], name="date"),
+    )
     return frame.round(2)
 
 
@@ -90,12 +93,15 @@ def clinic_visits(n_months: int = 156, *, seasonal_rho: float = 0.55, seed: int 
     flu = np.isin(months.month, [12, 1, 2]).astype(int)
     u = _ar_noise(rng, n_months, {12: seasonal_rho}, 60.0)
     visits = 2000 + 21 * population + 650 * flu + u
-    return pd.DataFrame({"visits": visits.round(0), "population_k": population.round(2), "flu_season": flu},
-                        index=pd.Index(months, name="month"))
+    return pd.DataFrame(
+        {"visits": visits.round(0), "population_k": population.round(2), "flu_season": flu},
+        index=pd.Index(months, name="month"),
+    )
 
 
-def store_sales(n_stores: int = 300, n_weeks: int = 104, *, share_correlated: float = 0.3,
-                seed: int = 5) -> pd.DataFrame:
+def store_sales(
+    n_stores: int = 300, n_weeks: int = 104, *, share_correlated: float = 0.3, seed: int = 5
+) -> pd.DataFrame:
     """Weekly unit sales of an invented retail chain, one regression per store.
 
     Sales fall with price and rise with promotions; in a ``share_correlated``
@@ -112,6 +118,9 @@ def store_sales(n_stores: int = 300, n_weeks: int = 104, *, share_correlated: fl
         u = _ar_noise(rng, n_weeks, {1: rho}, 12.0)
         base = rng.uniform(150, 400)
         units = base - 18 * price + 40 * promo + u
-        parts.append(pd.DataFrame({"store": f"S{s:03d}", "week": weeks, "units": units.round(1),
-                                   "price": price.round(2), "promo": promo}))
+        parts.append(
+            pd.DataFrame(
+                {"store": f"S{s:03d}", "week": weeks, "units": units.round(1), "price": price.round(2), "promo": promo}
+            )
+        )
     return pd.concat(parts, ignore_index=True)

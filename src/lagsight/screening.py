@@ -7,6 +7,7 @@ Inputs are turned into plain arrays in this process, and the tests can run on
 any :class:`concurrent.futures.Executor` (a process pool, or a
 dask.distributed client's executor) in chunks of models.
 """
+
 from __future__ import annotations
 
 import concurrent.futures as cf
@@ -14,6 +15,7 @@ import math
 import os
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -38,8 +40,23 @@ from .verdict import write_verdict
 __all__ = ["ScreenResult", "screen"]
 
 #: columns of :attr:`ScreenResult.table`, in order
-COLUMNS = ("model", "status", "n", "rank", "dw", "dw_pvalue", "dw_p_adjusted", "strength", "bg_pvalue",
-           "lb_pvalue", "finding", "dw_method", "order", "not_run", "notes")
+COLUMNS = (
+    "model",
+    "status",
+    "n",
+    "rank",
+    "dw",
+    "dw_pvalue",
+    "dw_p_adjusted",
+    "strength",
+    "bg_pvalue",
+    "lb_pvalue",
+    "finding",
+    "dw_method",
+    "order",
+    "not_run",
+    "notes",
+)
 _SHOWN = ["model", "n", "dw", "dw_pvalue", "dw_p_adjusted", "strength", "finding", "status"]
 _MAX_CHUNK = 25  # models per chunk at most: small enough to balance the load at the end
 
@@ -78,11 +95,14 @@ class ScreenResult:
 
     def __str__(self) -> str:
         ok = len(self.table) - len(self.failed)
-        head = (f"lagsight screen: {len(self.table)} models, {ok} screened, {len(self.failed)} failed; "
-                f"{len(self.flagged)} with evidence at alpha {self.alpha:g} after adjustment "
-                f"(alternative: {self.alternative})")
-        shown = self.table[_SHOWN].to_string(index=False, max_rows=20, max_colwidth=70,
-                                             float_format=lambda v: f"{v:.4g}")
+        head = (
+            f"lagsight screen: {len(self.table)} models, {ok} screened, {len(self.failed)} failed; "
+            f"{len(self.flagged)} with evidence at alpha {self.alpha:g} after adjustment "
+            f"(alternative: {self.alternative})"
+        )
+        shown = self.table[_SHOWN].to_string(
+            index=False, max_rows=20, max_colwidth=70, float_format=lambda v: f"{v:.4g}"
+        )
         lines = [head, shown, f"method: {self.method}"]
         lines += [f"note: {n}" for n in self.notes]
         return "\n".join(lines)
@@ -106,21 +126,40 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
     """Durbin-Watson, Breusch-Godfrey and Ljung-Box for one model given as plain arrays."""
     n = int(item["resid"].shape[0])
     data = ResidualData(
-        resid=item["resid"], index=pd.RangeIndex(n), exog=item["exog"], exog_names=item["exog_names"],
-        has_constant=item["has_constant"], endog=item["endog"], arma_df=item["arma_df"],
+        resid=item["resid"],
+        index=pd.RangeIndex(n),
+        exog=item["exog"],
+        exog_names=item["exog_names"],
+        has_constant=item["has_constant"],
+        endog=item["endog"],
+        arma_df=item["arma_df"],
         dw_applicable=item["dw_applicable"],
     )
-    settings = BatterySettings(alpha=alpha, alternative=alternative, bg_max_lag=item["bg_max_lag"],
-                               lb_lag=item["lb_lag"], period=None, correlogram=False)
+    settings = BatterySettings(
+        alpha=alpha,
+        alternative=alternative,
+        bg_max_lag=item["bg_max_lag"],
+        lb_lag=item["lb_lag"],
+        period=None,
+        correlogram=False,
+    )
     with caught_warnings() as caught:
         run = run_battery(data, settings)
-        verdict = write_verdict(run.tests, run.plan, alpha=alpha, alternative=alternative, errors=run.errors,
-                                shuffled=item["shuffled"], lagged_response=run.lagged_response)
+        verdict = write_verdict(
+            run.tests,
+            run.plan,
+            alpha=alpha,
+            alternative=alternative,
+            errors=run.errors,
+            shuffled=item["shuffled"],
+            lagged_response=run.lagged_response,
+        )
     warned = [f"{name}: {note}" for name, notes in run.warned.items() for note in notes] + list(caught.notes())
     dw, bg, lb = (run.tests.get(name) for name in (DW, BG, LB))
     k = dw.rank if dw is not None and dw.rank is not None else (None if data.exog is None else data.exog.shape[1])
     return {
-        "n": n, "rank": k,
+        "n": n,
+        "rank": k,
         "dw": math.nan if dw is None else dw.statistic,
         "dw_pvalue": math.nan if dw is None else dw.pvalue,
         "bg_pvalue": math.nan if bg is None else bg.pvalue,
@@ -139,7 +178,7 @@ def _reason(err: BaseException) -> str:
 
 def _run_chunk(items: list, alpha: float, alternative: str) -> list:
     """Screen a chunk of models; a model that raises gives its reason instead of a row."""
-    out = []
+    out: list[tuple[int, Any]] = []
     with one_blas_thread():  # the parallelism is across models
         for item in items:
             try:
@@ -155,9 +194,15 @@ def _plain(data: ResidualData, report, pos: int) -> dict:
     period = infer_seasonal_period(data.index)
     shuffled = bool(report.flags.get("shuffled")) and not report.flags.get("sorted")
     return {
-        "pos": pos, "resid": data.resid, "exog": data.exog, "endog": data.endog,
-        "exog_names": data.exog_names, "has_constant": data.has_constant, "arma_df": data.arma_df,
-        "dw_applicable": data.dw_applicable, "bg_max_lag": infer_bg_order(data.index),
+        "pos": pos,
+        "resid": data.resid,
+        "exog": data.exog,
+        "endog": data.endog,
+        "exog_names": data.exog_names,
+        "has_constant": data.has_constant,
+        "arma_df": data.arma_df,
+        "dw_applicable": data.dw_applicable,
+        "bg_max_lag": infer_bg_order(data.index),
         "lb_lag": ljung_box_lag(data.n, period, leading=data.exog is None or not data.dw_applicable),
         "shuffled": shuffled,
     }
@@ -170,8 +215,11 @@ def _prepare(pos: int, kwargs: dict, order) -> tuple[dict, dict]:
         report = check_order(data, order=order)
         data = report.apply(data)
         item = _plain(data, report, pos)
-    meta = {"order": report.order_used, "notes": " ".join(data.notes + tuple(report.warnings) + caught.notes()),
-            "shuffled": item["shuffled"]}
+    meta = {
+        "order": report.order_used,
+        "notes": " ".join(data.notes + tuple(report.warnings) + caught.notes()),
+        "shuffled": item["shuffled"],
+    }
     return item, meta
 
 
@@ -182,23 +230,31 @@ def _specs(models, exog, response, predictors, groups, order):
     it runs lazily, chunk by chunk, so a bad entry fails alone.
     """
     notes = []
-    exog_for = exog.get if isinstance(exog, Mapping) else (lambda name: exog)
+    exog_for = exog.get if isinstance(exog, Mapping) else (lambda _name: exog)
     if isinstance(models, pd.DataFrame):
         columns = list(models.columns)
         if groups is None:
             if response is not None or predictors is not None:
-                raise TypeError("'response' and 'predictors' need groups= when 'models' is a DataFrame "
-                                "(one OLS per group); without groups each column is a residual series")
+                raise TypeError(
+                    "'response' and 'predictors' need groups= when 'models' is a DataFrame "
+                    "(one OLS per group); without groups each column is a residual series"
+                )
             if order not in ("auto", "keep", "index"):
-                raise ValueError(f"'order' must be 'auto', 'keep' or 'index' when each column is a residual "
-                                 f"series (time goes in the index) (got {order!r})")
+                raise ValueError(
+                    f"'order' must be 'auto', 'keep' or 'index' when each column is a residual "
+                    f"series (time goes in the index) (got {order!r})"
+                )
             return columns, notes, lambda i: {"model": models.iloc[:, i], "exog": exog_for(columns[i])}
         if response is None or predictors is None:
-            raise TypeError(f"a DataFrame with groups= needs response= and predictors= (got response="
-                            f"{response!r}, predictors={predictors!r})")
+            raise TypeError(
+                f"a DataFrame with groups= needs response= and predictors= (got response="
+                f"{response!r}, predictors={predictors!r})"
+            )
         if exog is not None:
-            raise TypeError("'exog' does not apply to a DataFrame with groups= (got "
-                            f"{type(exog).__name__}); the design is built from 'predictors'")
+            raise TypeError(
+                "'exog' does not apply to a DataFrame with groups= (got "
+                f"{type(exog).__name__}); the design is built from 'predictors'"
+            )
         if order not in ("auto", "keep", "index") and order not in columns:
             raise ValueError(f"'order': column {order!r} is not in the DataFrame (columns: {columns})")
         response = check_label(response, "response")
@@ -210,20 +266,26 @@ def _specs(models, exog, response, predictors, groups, order):
         else:
             labels = np.asarray(groups)
             if labels.shape != (len(models),):
-                raise ValueError(f"'groups' must be a column name or have one label per row ({len(models)}) "
-                                 f"(got shape {labels.shape})")
+                raise ValueError(
+                    f"'groups' must be a column name or have one label per row ({len(models)}) "
+                    f"(got shape {labels.shape})"
+                )
         missing = int(unlabelled(labels).sum())
         if missing:
             notes.append(unlabelled_note(missing))
         labels = pd.Series(labels)
         blocks = labels.groupby(labels, sort=False, dropna=True).indices
         names = list(blocks)
-        return names, notes, lambda i: {"model": models.iloc[blocks[names[i]]], "response": response,
-                                        "predictors": preds}
+        return (
+            names,
+            notes,
+            lambda i: {"model": models.iloc[blocks[names[i]]], "response": response, "predictors": preds},
+        )
     if isinstance(models, Mapping):
         if groups is not None:
-            raise TypeError("'groups' applies when 'models' is a DataFrame (got a mapping); "
-                            "give one entry per model instead")
+            raise TypeError(
+                "'groups' applies when 'models' is a DataFrame (got a mapping); give one entry per model instead"
+            )
         names = list(models)
 
         def build(i):
@@ -237,9 +299,11 @@ def _specs(models, exog, response, predictors, groups, order):
             if isinstance(exog, Mapping) or isinstance(value, (np.ndarray, list, pd.Series)):
                 return {"model": value, "exog": exog_for(name)}
             return {"model": value}  # a fitted model brings its own design
+
         return names, notes, build
-    raise TypeError(f"'models' must be a mapping of names to models or residuals, or a DataFrame "
-                    f"(got {type(models).__name__})")
+    raise TypeError(
+        f"'models' must be a mapping of names to models or residuals, or a DataFrame (got {type(models).__name__})"
+    )
 
 
 def _default_chunksize(n_models: int, executor) -> int:
@@ -247,9 +311,20 @@ def _default_chunksize(n_models: int, executor) -> int:
     return int(max(1, min(_MAX_CHUNK, math.ceil(n_models / (8 * workers)))))
 
 
-def screen(models, *, exog=None, response=None, predictors=None, groups=None, order="auto",
-           alpha: float = 0.05, alternative: str = "positive", executor=None, chunksize=None,
-           progress: bool = True) -> ScreenResult:
+def screen(
+    models,
+    *,
+    exog=None,
+    response=None,
+    predictors=None,
+    groups=None,
+    order="auto",
+    alpha: float = 0.05,
+    alternative: str = "positive",
+    executor=None,
+    chunksize=None,
+    progress: bool = True,
+) -> ScreenResult:
     """Screen many models for serially correlated residuals and rank them.
 
     Parameters
@@ -304,6 +379,7 @@ def screen(models, *, exog=None, response=None, predictors=None, groups=None, or
     metas: list = [{}] * len(names)
     failed_at: dict = {}
     from tqdm.auto import tqdm
+
     bar = tqdm(total=len(names), desc="lagsight screen", unit="model", disable=not progress)
     window = 2 * (getattr(executor, "_max_workers", None) or os.cpu_count() or 1) + 2
     pending: dict = {}
@@ -354,7 +430,7 @@ def _submit(executor, chunk, alpha, alternative) -> cf.Future:
         try:
             return executor.submit(_run_chunk, chunk, alpha, alternative)
         except Exception as err:  # e.g. a broken pool, or a cluster that went away
-            fut = cf.Future()
+            fut: cf.Future = cf.Future()
             fut.set_exception(err)
             return fut
     fut = cf.Future()
@@ -372,8 +448,9 @@ def _assemble(names, rows, metas, failed_at, notes, alpha, alternative) -> Scree
             record["notes"] = " ".join(filter(None, [record.get("notes", ""), warned]))
         records.append(record)
     table = pd.DataFrame.from_records(records, columns=[c for c in COLUMNS if c not in ("dw_p_adjusted", "strength")])
-    table = table.astype({"dw": float, "dw_pvalue": float, "bg_pvalue": float, "lb_pvalue": float,
-                          "n": "Int64", "rank": "Int64"})
+    table = table.astype(
+        {"dw": float, "dw_pvalue": float, "bg_pvalue": float, "lb_pvalue": float, "n": "Int64", "rank": "Int64"}
+    )
     for col in ("finding", "dw_method", "order", "not_run", "notes"):
         table[col] = pd.Series([v if isinstance(v, str) else "" for v in table[col]], dtype=str)
     p = table["dw_pvalue"].to_numpy(float)
@@ -384,28 +461,40 @@ def _assemble(names, rows, metas, failed_at, notes, alpha, alternative) -> Scree
     table.insert(table.columns.get_loc("dw_pvalue") + 1, "dw_p_adjusted", adj)
     table.insert(table.columns.get_loc("dw_p_adjusted") + 1, "strength", [strength(q, alpha) for q in adj])
     is_failed = table["status"] != "ok"
-    table = (table.assign(_failed=is_failed.to_numpy())
-             .sort_values(["_failed", "dw_p_adjusted", "dw_pvalue", "bg_pvalue"], na_position="last", kind="stable")
-             .drop(columns="_failed").reset_index(drop=True))
+    table = (
+        table.assign(_failed=is_failed.to_numpy())
+        .sort_values(["_failed", "dw_p_adjusted", "dw_pvalue", "bg_pvalue"], na_position="last", kind="stable")
+        .drop(columns="_failed")
+        .reset_index(drop=True)
+    )
     failed = {names[pos]: why for pos, why in sorted(failed_at.items())}
     notes = list(notes)
-    notes.append(f"Adjusted p-values control the false discovery rate across the {int(ok.sum())} models with "
-                 "an exact Durbin-Watson p-value (Benjamini-Hochberg).")
+    notes.append(
+        f"Adjusted p-values control the false discovery rate across the {int(ok.sum())} models with "
+        "an exact Durbin-Watson p-value (Benjamini-Hochberg)."
+    )
     no_p = int((~ok & ~is_failed.to_numpy()).sum())
     if no_p:
-        notes.append(f"{no_p} model(s) have no exact Durbin-Watson p-value (no design matrix, or an ARIMA-type "
-                     "model): they are left out of the adjustment and sorted after the others; read their "
-                     "finding, which uses Breusch-Godfrey and Ljung-Box.")
+        notes.append(
+            f"{no_p} model(s) have no exact Durbin-Watson p-value (no design matrix, or an ARIMA-type "
+            "model): they are left out of the adjustment and sorted after the others; read their "
+            "finding, which uses Breusch-Godfrey and Ljung-Box."
+        )
     unordered = sum(bool(metas[pos].get("shuffled")) for pos in range(len(names)) if pos not in failed_at)
     if unordered:
-        notes.append(f"{unordered} model(s) have rows that are not in time order: their tests are not meaningful "
-                     "until sorted (order='index' or a time column).")
+        notes.append(
+            f"{unordered} model(s) have rows that are not in time order: their tests are not meaningful "
+            "until sorted (order='index' or a time column)."
+        )
     if failed:
         notes.append(f"{len(failed)} model(s) could not be screened: see 'failed' and the status column.")
     methods = sorted({m for m in table["dw_method"] if m})
-    method = (f"Durbin-Watson p-value for each model's own design ({'; '.join(methods) or 'none computed'}); "
-              "Breusch-Godfrey LM and Ljung-Box Q against chi-square; Benjamini-Hochberg adjustment of the "
-              f"Durbin-Watson p-values across models; strength read from the adjusted p at alpha {alpha:g}; "
-              "finding reads each model on its own, from its smallest unadjusted p-value.")
-    return ScreenResult(table=table, failed=failed, method=method, alpha=alpha, alternative=alternative,
-                        notes=tuple(notes))
+    method = (
+        f"Durbin-Watson p-value for each model's own design ({'; '.join(methods) or 'none computed'}); "
+        "Breusch-Godfrey LM and Ljung-Box Q against chi-square; Benjamini-Hochberg adjustment of the "
+        f"Durbin-Watson p-values across models; strength read from the adjusted p at alpha {alpha:g}; "
+        "finding reads each model on its own, from its smallest unadjusted p-value."
+    )
+    return ScreenResult(
+        table=table, failed=failed, method=method, alpha=alpha, alternative=alternative, notes=tuple(notes)
+    )

@@ -8,6 +8,7 @@ white-noise errors "evidence" appears at most alpha of the time.  Every other te
 support and never changes the finding.  Every view (key figures, the sentence to paste, the
 test table's readings, the figures' marks, the panel's default test) reads the Verdict.
 """
+
 from __future__ import annotations
 
 import math
@@ -24,14 +25,12 @@ FINDINGS = ("evidence", "no evidence", "not meaningful", "cannot judge")
 CAUTIONS = (
     "Failing to reject is not proof that the errors are independent: a test can lack power for this n and "
     "design (see the power curve).",
-    "Durbin-Watson looks at lag 1 only; Breusch-Godfrey and Ljung-Box look further, the seasonal statistic at "
-    "lag s.",
+    "Durbin-Watson looks at lag 1 only; Breusch-Godfrey and Ljung-Box look further, the seasonal statistic at lag s.",
     "The exact Durbin-Watson p-value assumes fixed regressors, normal errors with constant variance and OLS "
     "residuals of this design; it is biased towards 2 when a lagged response is a regressor.",
     "Breusch-Godfrey, Ljung-Box, Durbin's h and Durbin's alternative test are large-sample tests: their "
     "p-values are approximate in small samples.",
-    "The runs test uses only the signs of the residuals: it needs no distributional assumption but has less "
-    "power.",
+    "The runs test uses only the signs of the residuals: it needs no distributional assumption but has less power.",
     "The finding reads the leading test only (adjusted by weighted Holm when it is a family of two); the other tests "
     "support the reading and do not change it.",
 )
@@ -41,7 +40,7 @@ _STRENGTH_WORDS = {"strong": "Strong", "clear": "Clear", "some": "Some"}
 _KIND_WHY = {
     "regression": "the exact Durbin-Watson test leads for an OLS-type fit with its design",
     "lagged response": "Durbin's alternative test leads because a lagged response is a regressor "
-                       "(Durbin-Watson is biased towards 2 there)",
+    "(Durbin-Watson is biased towards 2 there)",
     "arma": "Ljung-Box with the ARMA model's degrees of freedom leads for ARIMA-type residuals",
     "residuals": "Ljung-Box leads because there is no design (it needs none)",
 }
@@ -49,9 +48,9 @@ _KIND_WHY = {
 _CONSEQUENCE = {
     "regression": "OLS standard errors and p-values for this model are not reliable as they stand.",
     "lagged response": "OLS standard errors are not reliable, and with a lagged response the coefficients "
-                       "themselves are inconsistent.",
+    "themselves are inconsistent.",
     "arma": "The ARMA model leaves correlation in its residuals: its standard errors and forecast intervals "
-            "are not reliable as they stand.",
+    "are not reliable as they stand.",
     "residuals": "Standard errors computed as if the errors were independent are not reliable.",
 }
 
@@ -194,8 +193,9 @@ def _what(name: str, res, alternative: str, period) -> str:
     if name == DALT:
         return f"{_direction(alternative)}lag-1 autocorrelation beyond what the lagged response explains"
     top = getattr(res, "lags", None)
-    return "autocorrelation at one or more of the first " + (f"{int(max(top))} lags" if top is not None
-                                                             and len(top) else "lags")
+    return "autocorrelation at one or more of the first " + (
+        f"{int(max(top))} lags" if top is not None and len(top) else "lags"
+    )
 
 
 def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
@@ -203,20 +203,23 @@ def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
     dh = tests.get(DH)
     if dh is not None:
         if math.isnan(dh.pvalue):
-            out.append("Durbin's h is undefined here (n Var(b_lag) >= 1); Durbin's alternative test does not "
-                       "need it.")
+            out.append("Durbin's h is undefined here (n Var(b_lag) >= 1); Durbin's alternative test does not need it.")
         else:
-            out.append(f"Durbin's h = {dh.statistic:.3f} uses rho-hat = 1 - d/2 = {dh.rho:.3f} (from the "
-                       f"Durbin-Watson d = {dh.dw:.3f}), {format_p(dh.pvalue)}; shown beside Durbin's "
-                       "alternative test, it does not change the finding.")
+            out.append(
+                f"Durbin's h = {dh.statistic:.3f} uses rho-hat = 1 - d/2 = {dh.rho:.3f} (from the "
+                f"Durbin-Watson d = {dh.dw:.3f}), {format_p(dh.pvalue)}; shown beside Durbin's "
+                "alternative test, it does not change the finding."
+            )
     for name in (DW, SEASONAL, SEASONAL_GIVEN, BG, LB, RUNS):
         res = tests.get(name)
         if name in family or res is None or math.isnan(res.pvalue):
             continue
         word = "evidence" if res.pvalue < alpha else "no evidence"
         extra = " on residual signs (assumption-free)" if name == RUNS else ""
-        out.append(f"Support: {name}{extra}, statistic {res.statistic:.4g}, {format_p(res.pvalue)} "
-                   f"({word} at alpha {alpha:g}); it does not change the finding.")
+        out.append(
+            f"Support: {name}{extra}, statistic {res.statistic:.4g}, {format_p(res.pvalue)} "
+            f"({word} at alpha {alpha:g}); it does not change the finding."
+        )
     return out
 
 
@@ -230,12 +233,24 @@ def _cannot_judge(plan: LeadPlan, tests: dict, errors: dict, alpha: float, rule:
         why = f"the leading test ({plan.leading}) gave no p-value"
     else:
         return None
-    advice = _ADVICE.get(_problem_key(why), "Check the input (finite values, enough rows, a model that "
-                                            "leaves residual variation) and run again.")
+    advice = _ADVICE.get(
+        _problem_key(why),
+        "Check the input (finite values, enough rows, a model that leaves residual variation) and run again.",
+    )
     headline = f"Cannot judge: {why}. {advice}"
     steps = (advice,)
-    return Verdict("cannot judge", "unknown", headline, (f"Rule: {rule} (not applied).",), steps,
-                   leading=plan.leading, family=plan.family, rule=rule, alpha=alpha, reason=why)
+    return Verdict(
+        "cannot judge",
+        "unknown",
+        headline,
+        (f"Rule: {rule} (not applied).",),
+        steps,
+        leading=plan.leading,
+        family=plan.family,
+        rule=rule,
+        alpha=alpha,
+        reason=why,
+    )
 
 
 _ADVICE = {
@@ -246,21 +261,39 @@ _ADVICE = {
     "not finite": "Rescale or clean the data so every value is a finite number, and run again.",
     "k + 1": "Collect more observations or fit fewer coefficients.",
     "Ljung-Box": "Pass the design (exog=, or the fitted model) for the exact Durbin-Watson test, which works "
-                 "at any n > k + 1.",
+    "at any n > k + 1.",
 }
 
 
 def _problem_key(why: str) -> str:
-    for key in ("fits the data exactly", "response is constant", "residuals are constant", "residuals are all zero",
-                "not finite", "k + 1", "Ljung-Box"):
+    for key in (
+        "fits the data exactly",
+        "response is constant",
+        "residuals are constant",
+        "residuals are all zero",
+        "not finite",
+        "k + 1",
+        "Ljung-Box",
+    ):
         if key in why:
             return key
     return ""
 
 
-def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str, errors=None,
-                  order_warnings=(), shuffled=False, lagged_response=None, remedies=None,
-                  period=None, groups=None) -> Verdict:
+def write_verdict(
+    tests: dict,
+    plan: LeadPlan | None,
+    *,
+    alpha: float,
+    alternative: str,
+    errors=None,
+    order_warnings=(),
+    shuffled=False,
+    lagged_response=None,
+    remedies=None,
+    period=None,
+    groups=None,
+) -> Verdict:
     """Decide the finding from the planned leading test(s) and write the verdict.
 
     Parameters
@@ -276,6 +309,8 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     shuffled : bool
         The rows tested are not in time order: the finding is 'not meaningful'.
     """
+    if plan is None:
+        raise ValueError("'plan' must be the battery's LeadPlan (got None)")
     errors = errors or {}
     rule = _rule(plan.family, alpha, period, plan)
     blocked = _cannot_judge(plan, tests, errors, alpha, rule)
@@ -284,14 +319,25 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     order_details = tuple(order_warnings)
     if shuffled:
         why = "the rows are not in time order, so no serial-correlation test measures anything here"
-        headline = (f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time "
-                    "(order='index' or a time column) and run again.")
-        return Verdict("not meaningful", "unknown", headline,
-                       ("The tests were computed on the rows as given; their p-values do not measure serial "
-                        "correlation.", *order_details),
-                       ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",),
-                       leading=plan.leading,
-                       family=plan.family, rule=rule, alpha=alpha, reason=why)
+        headline = (
+            f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time "
+            "(order='index' or a time column) and run again."
+        )
+        return Verdict(
+            "not meaningful",
+            "unknown",
+            headline,
+            (
+                "The tests were computed on the rows as given; their p-values do not measure serial correlation.",
+                *order_details,
+            ),
+            ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",),
+            leading=plan.leading,
+            family=plan.family,
+            rule=rule,
+            alpha=alpha,
+            reason=why,
+        )
 
     family = tuple(name for name in plan.family if name in tests and not math.isnan(_p(tests[name])))
     raw = [_p(tests[name]) for name in family]
@@ -302,13 +348,17 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
     level = strength(p_family, alpha)
     significant = [name for name, a in zip(family, adjusted) if a < alpha]
 
-    details: list[str] = [f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
-               + ("this test." if len(family) == 1 else "these two tests, adjusted by weighted Holm.")]
+    details: list[str] = [
+        f"Rule: {rule}; {_KIND_WHY[plan.kind]}. The finding reads only "
+        + ("this test." if len(family) == 1 else "these two tests, adjusted by weighted Holm.")
+    ]
     for name, p, a in zip(family, raw, adjusted):
         res = tests[name]
         adj = f", adjusted {format_p(a)}" if len(family) > 1 else ""
-        details.append(f"{name}: statistic {res.statistic:.4g}, {format_p(p, log10_p(res))}{adj} "
-                       f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g}).")
+        details.append(
+            f"{name}: statistic {res.statistic:.4g}, {format_p(p, log10_p(res))}{adj} "
+            f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g})."
+        )
     details += _support_details(tests, family, alpha)
     dw = tests.get(DW)
     if dw is not None and math.isnan(dw.pvalue) and getattr(dw, "bounds_decision", None):
@@ -322,16 +372,16 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
             + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
         )
-    lead_words = (format_p(raw[0], log10_p(tests[family[0]])) if len(family) == 1
-                  else f"adjusted {format_p(p_family)}")
+    lead_words = format_p(raw[0], log10_p(tests[family[0]])) if len(family) == 1 else f"adjusted {format_p(p_family)}"
     steps: list[str] = []
     if found:
         where = " and ".join(_what(name, tests[name], alternative, period) for name in significant)
-        headline = (f"{_STRENGTH_WORDS[level]} evidence of {where} ({lead_words}; {rule}). "
-                    f"{_CONSEQUENCE[plan.kind]}")
+        headline = f"{_STRENGTH_WORDS[level]} evidence of {where} ({lead_words}; {rule}). {_CONSEQUENCE[plan.kind]}"
         if plan.kind == "arma":
-            steps.append("Add AR or MA terms (seasonal ones if the correlation sits at the seasonal lag) and "
-                         "check the residuals again.")
+            steps.append(
+                "Add AR or MA terms (seasonal ones if the correlation sits at the seasonal lag) and "
+                "check the residuals again."
+            )
         else:
             steps.append(
                 "Report Newey-West (HAC) standard errors, or re-fit by feasible GLS (Prais-Winsten keeps the "
@@ -352,21 +402,35 @@ def write_verdict(tests: dict, plan: LeadPlan, *, alpha: float, alternative: str
             if given is not None and given.pvalue < alpha:
                 steps.append("Add seasonal terms (dummies or Fourier terms) or a seasonal lag to the model.")
             elif given is not None:
-                details.append(f"The order-{period} test is significant, but the lag-{period} "
-                               f"coefficient given lag 1 is not ({format_p(given.pvalue)}): the seasonal signal "
-                               "can be the lag-1 correlation carried forward, so no seasonal terms are advised.")
+                details.append(
+                    f"The order-{period} test is significant, but the lag-{period} "
+                    f"coefficient given lag 1 is not ({format_p(given.pvalue)}): the seasonal signal "
+                    "can be the lag-1 correlation carried forward, so no seasonal terms are advised."
+                )
         if plan.kind == "residuals":
-            steps.append("Pass the fitted model (or exog=) for the exact Durbin-Watson test and corrected "
-                         "inference.")
+            steps.append("Pass the fitted model (or exog=) for the exact Durbin-Watson test and corrected inference.")
         steps.append("Consider modelling the dynamics directly: lagged variables or ARMA errors.")
     else:
         looked = " or ".join(_what(name, tests[name], alternative, period) for name in family)
-        headline = (f"No evidence of {looked} at alpha {alpha:g} ({lead_words}; {rule}). "
-                    "This does not prove the errors are independent: the test may lack power for this n "
-                    "and design.")
+        headline = (
+            f"No evidence of {looked} at alpha {alpha:g} ({lead_words}; {rule}). "
+            "This does not prove the errors are independent: the test may lack power for this n "
+            "and design."
+        )
     if lagged_response is not None:
-        steps.insert(0, f"Because {lagged_response} is a regressor, read Durbin's alternative test (h beside "
-                        "it), not d.")
-    return Verdict("evidence" if found else "no evidence", level, headline, tuple(details) + order_details,
-                   tuple(steps), leading=plan.leading, family=family, rule=rule, pvalue=p_family,
-                   adjusted=tuple(zip(family, adjusted)), alpha=alpha)
+        steps.insert(
+            0, f"Because {lagged_response} is a regressor, read Durbin's alternative test (h beside it), not d."
+        )
+    return Verdict(
+        "evidence" if found else "no evidence",
+        level,
+        headline,
+        tuple(details) + order_details,
+        tuple(steps),
+        leading=plan.leading,
+        family=family,
+        rule=rule,
+        pvalue=p_family,
+        adjusted=tuple(zip(family, adjusted)),
+        alpha=alpha,
+    )

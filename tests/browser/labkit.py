@@ -4,6 +4,7 @@ The server listens on 127.0.0.1 with no token, keeps every Jupyter folder under 
 the news notification off, and is stopped by its PID (kernels it left behind are found by the connection files
 in its own runtime folder and stopped by PID too).
 """
+
 from __future__ import annotations
 
 import itertools
@@ -21,8 +22,15 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "notebooks"))
 import nbtools  # noqa: E402
 
 CHROMIUM = Path("/usr/bin/chromium")
-CHROMIUM_ARGS = ["--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-                 "--disable-background-networking", "--disable-component-update", "--disable-sync"]
+CHROMIUM_ARGS = [
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-quic",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+]
 START_TIMEOUT = 120  # seconds for the server to answer
 KERNEL_TIMEOUT = 120_000  # ms for a kernel to start or a notebook to finish running
 NO_KERNEL_SPEC = "lgs-no-such-kernel"
@@ -53,20 +61,31 @@ class LabServer:
     def url(self) -> str:
         return f"http://127.0.0.1:{self.port}"
 
-    def start(self) -> "LabServer":
+    def start(self) -> LabServer:
         with socket.socket() as s:
             s.bind(("127.0.0.1", 0))
             self.port = s.getsockname()[1]
-        cmd = [sys.executable, "-m", "jupyterlab", "--no-browser", "--ServerApp.ip=127.0.0.1",
-               f"--ServerApp.port={self.port}", "--ServerApp.port_retries=0", "--IdentityProvider.token=",
-               "--ServerApp.password=", f"--ServerApp.root_dir={self.work}", "--LabApp.expose_app_in_browser=True"]
+        cmd = [
+            sys.executable,
+            "-m",
+            "jupyterlab",
+            "--no-browser",
+            "--ServerApp.ip=127.0.0.1",
+            f"--ServerApp.port={self.port}",
+            "--ServerApp.port_retries=0",
+            "--IdentityProvider.token=",
+            "--ServerApp.password=",
+            f"--ServerApp.root_dir={self.work}",
+            "--LabApp.expose_app_in_browser=True",
+        ]
         if hasattr(os, "geteuid") and os.geteuid() == 0:
             cmd.append("--allow-root")
         if not self.kernels:
             cmd.append(f"--KernelSpecManager.allowed_kernelspecs={NO_KERNEL_SPEC}")
         with open(self.log, "w") as log:
-            self.proc = subprocess.Popen(cmd, env=self.env, stdout=log, stderr=subprocess.STDOUT,
-                                         cwd=self.work, start_new_session=True)
+            self.proc = subprocess.Popen(
+                cmd, env=self.env, stdout=log, stderr=subprocess.STDOUT, cwd=self.work, start_new_session=True
+            )
         deadline = time.monotonic() + START_TIMEOUT
         while True:
             if self.proc.poll() is not None:
@@ -77,7 +96,7 @@ class LabServer:
             except OSError:
                 if time.monotonic() > deadline:
                     self.stop()
-                    raise RuntimeError(f"JupyterLab did not answer in {START_TIMEOUT} s:\n{self.log_tail()}")
+                    raise RuntimeError(f"JupyterLab did not answer in {START_TIMEOUT} s:\n{self.log_tail()}") from None
                 time.sleep(0.25)
 
     def api(self, path: str):
@@ -137,7 +156,10 @@ def open_notebook(page, server: LabServer, name: str, n_cells: int) -> None:
             const w = window.jupyterapp.shell.currentWidget;
             if (!w || !w.context || w.context.path !== name || !w.content) return false;
             return w.node.querySelectorAll('.jp-Notebook .jp-Cell').length === n;
-        }""", arg=[name, n_cells], timeout=KERNEL_TIMEOUT)
+        }""",
+        arg=[name, n_cells],
+        timeout=KERNEL_TIMEOUT,
+    )
 
 
 def choose_no_kernel(page) -> None:
@@ -147,7 +169,9 @@ def choose_no_kernel(page) -> None:
     dialog.wait_for(state="detached", timeout=30_000)
     page.wait_for_function(
         f"""() => {{ const w = {_CURRENT}; return w && !w.sessionContext.session
-            && w.sessionContext.kernelDisplayName === 'No Kernel'; }}""", timeout=30_000)
+            && w.sessionContext.kernelDisplayName === 'No Kernel'; }}""",
+        timeout=30_000,
+    )
 
 
 def wait_kernel_idle(page) -> None:
@@ -155,7 +179,8 @@ def wait_kernel_idle(page) -> None:
         f"""() => {{ const w = {_CURRENT};
             const k = w && w.sessionContext && w.sessionContext.session && w.sessionContext.session.kernel;
             return !!k && k.status === 'idle' && k.connectionStatus === 'connected'; }}""",
-        timeout=KERNEL_TIMEOUT)
+        timeout=KERNEL_TIMEOUT,
+    )
 
 
 _ERRORS_JS = f"""() => {{ const w = {_CURRENT};
@@ -175,7 +200,8 @@ def run_all(page) -> None:
             const prompts = [...w.node.querySelectorAll('.jp-CodeCell .jp-InputArea-prompt')];
             const done = prompts.length > 0 && prompts.every(p => /\\[\\d+\\]/.test(p.textContent));
             return done || ({_ERRORS_JS})().length > 0; }}""",
-        timeout=KERNEL_TIMEOUT)
+        timeout=KERNEL_TIMEOUT,
+    )
     wait_kernel_idle(page)
     errors = page.evaluate(_ERRORS_JS)
     assert not errors, "running the notebook in JupyterLab raised: " + "; ".join(errors)
@@ -185,13 +211,13 @@ def kernel_name(page) -> str | None:
     return page.evaluate(
         f"""() => {{ const w = {_CURRENT};
             const k = w && w.sessionContext && w.sessionContext.session && w.sessionContext.session.kernel;
-            return k ? k.name : null; }}""")
+            return k ? k.name : null; }}"""
+    )
 
 
 def save(page) -> None:
     page.evaluate("() => window.jupyterapp.commands.execute('docmanager:save')")
-    page.wait_for_function(f"() => {{ const w = {_CURRENT}; return w && !w.context.model.dirty; }}",
-                           timeout=30_000)
+    page.wait_for_function(f"() => {{ const w = {_CURRENT}; return w && !w.context.model.dirty; }}", timeout=30_000)
 
 
 # Blank areas: an output of visible height with no visible text, image, SVG or canvas inside.

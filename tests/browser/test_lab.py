@@ -13,6 +13,7 @@ with default settings (no widget state):
 
 Screenshots go to ``benchmarks/out/screenshots/``.
 """
+
 from __future__ import annotations
 
 import json
@@ -26,10 +27,21 @@ from pathlib import Path
 import pytest
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from labkit import (CHROMIUM, CHROMIUM_ARGS, LabServer, blank_areas, choose_no_kernel, kernel_name,  # noqa: E402
-                    open_notebook, run_all, save, visible_box, wait_kernel_idle)
+from labkit import (  # noqa: E402, I001  (importing labkit puts tests/notebooks on the path)
+    CHROMIUM,
+    CHROMIUM_ARGS,
+    LabServer,
+    blank_areas,
+    choose_no_kernel,
+    kernel_name,
+    open_notebook,
+    run_all,
+    save,
+    visible_box,
+    wait_kernel_idle,
+)
 
-import nbtools  # noqa: E402  (labkit put tests/notebooks on the path)
+import nbtools  # noqa: E402, I001  (after labkit, which put tests/notebooks on the path)
 
 if not CHROMIUM.exists():
     pytest.skip(f"{CHROMIUM} is missing (.ci/run installs Debian's chromium)", allow_module_level=True)
@@ -66,6 +78,7 @@ def _shot(target, name: str, **options) -> Path:
 
 
 # -- fixtures ----------------------------------------------------------------------------------------------
+
 
 @pytest.fixture(scope="module")
 def browser():
@@ -104,8 +117,15 @@ def live(lab, browser):
         panels = [_cell(page, i).locator(".lgs-panel") for i in cells]
         for p in panels:
             p.wait_for(state="visible", timeout=CHANGE_TIMEOUT)
-        yield {"page": page, "source": source, "cells": cells, "nb": nb, "panel": panels[0],
-               "cell": _cell(page, cells[0]), "errors": errors}
+        yield {
+            "page": page,
+            "source": source,
+            "cells": cells,
+            "nb": nb,
+            "panel": panels[0],
+            "cell": _cell(page, cells[0]),
+            "errors": errors,
+        }
     finally:
         page.close()
 
@@ -143,10 +163,13 @@ def _wait_snapshot(cell, selector: str, text: str, *, html: bool = False) -> Non
     cell.page.wait_for_function(
         """([cell, selector, text, html]) => { const el = cell.querySelector(selector);
             return !!el && (html ? el.innerHTML : el.textContent).includes(text); }""",
-        arg=[cell.element_handle(), selector, text, html], timeout=CHANGE_TIMEOUT)
+        arg=[cell.element_handle(), selector, text, html],
+        timeout=CHANGE_TIMEOUT,
+    )
 
 
 # -- (live) the panel in JupyterLab ------------------------------------------------------------------------
+
 
 def test_live_panel_shows_once_with_its_views(live):
     page, cell, panel = live["page"], live["cell"], live["panel"]
@@ -196,8 +219,9 @@ def test_live_test_toggle_switches_the_view(live):
     view = panel.locator(".lgs-test-view").first
     before = view.inner_html()
     choice.click()
-    page.wait_for_function("b => b.classList.contains('mod-active')", arg=choice.element_handle(),
-                           timeout=CHANGE_TIMEOUT)
+    page.wait_for_function(
+        "b => b.classList.contains('mod-active')", arg=choice.element_handle(), timeout=CHANGE_TIMEOUT
+    )
     after = _wait_changed(view, before, f"the test view after choosing {label}")
     assert label and label != active
     assert label in re.sub(r"<[^>]+>", " ", after), f"the test view does not name {label}"
@@ -238,16 +262,19 @@ def test_lab_saved_notebook_keeps_the_snapshot(lab_saved, live):
         if i == live["cells"][0] and "chosen test" in live:
             # the snapshot was kept current through its display id: it leads with the test chosen in the panel
             focus = _soup(_html(snaps[0])).select_one(f"{nbtools.MARKERS['test table']} tr.lgs-focus")
-            assert focus is not None and live["chosen test"] in focus.get_text(" "), \
+            assert focus is not None and live["chosen test"] in focus.get_text(" "), (
                 f"the saved snapshot does not lead with {live['chosen test']}, the test chosen in the panel"
+            )
         if i == live["cells"][0] and "chosen alpha" in live:
-            assert f"alpha:</b> {live['chosen alpha']}" in _html(snaps[0]), \
+            assert f"alpha:</b> {live['chosen alpha']}" in _html(snaps[0]), (
                 f"the saved snapshot is not at alpha {live['chosen alpha']}, the level chosen in the panel"
+            )
         size = len(json.dumps(outs))
         assert size <= PANEL_OUTPUT_BUDGET, f"cell {i}: {size:,} bytes saved for one panel"
 
 
 # -- the shared notebook -----------------------------------------------------------------------------------
+
 
 @pytest.fixture(scope="module")
 def saved(lab_saved, tmp_path_factory):
@@ -312,9 +339,12 @@ def test_nbconvert_html_offline(saved, origin, browser, tmp_path):
         _assert_diagnosis_visible(page, n, f"nbconvert HTML of the {origin} notebook")
         blank = blank_areas(page, ".jp-OutputArea-output")
         assert not blank, f"blank output areas in the nbconvert HTML of the {origin} notebook: {blank}"
-        _shot(page.locator(nbtools.MARKERS["verdict"]).first.locator("xpath=ancestor::div[contains(@class,"
-                                                                       "'jp-Cell')][1]"),
-              f"nbconvert-offline-{origin}")
+        _shot(
+            page.locator(nbtools.MARKERS["verdict"]).first.locator(
+                "xpath=ancestor::div[contains(@class,'jp-Cell')][1]"
+            ),
+            f"nbconvert-offline-{origin}",
+        )
         _shot(page, f"nbconvert-offline-{origin}-page", full_page=True)
     finally:
         page.context.close()
@@ -342,8 +372,13 @@ def test_lab_without_kernel(saved, origin, trusted, lab_no_kernel, browser):
     dest = lab_no_kernel.work / name
     shutil.copy(src, dest)
     if trusted:
-        proc = subprocess.run([sys.executable, "-m", "nbformat.sign", str(dest)], env=lab_no_kernel.env,
-                              capture_output=True, text=True, timeout=60)
+        proc = subprocess.run(
+            [sys.executable, "-m", "nbformat.sign", str(dest)],
+            env=lab_no_kernel.env,
+            capture_output=True,
+            text=True,
+            timeout=60,
+        )
         assert proc.returncode == 0, proc.stderr
     nb = nbformat.read(dest, as_version=4)
     page = browser.new_page(viewport=LAB_VIEWPORT)
@@ -353,13 +388,15 @@ def test_lab_without_kernel(saved, origin, trusted, lab_no_kernel, browser):
         page.wait_for_timeout(1000)  # the widget manager settles (it finds no kernel)
         cells_trusted = page.evaluate(
             "() => window.jupyterapp.shell.currentWidget.content.widgets"
-            ".filter(c => c.model.type === 'code').map(c => c.model.trusted)")
+            ".filter(c => c.model.type === 'code').map(c => c.model.trusted)"
+        )
         assert all(cells_trusted) == trusted, f"expected trusted={trusted}, cells say {cells_trusted}"
         for i in nbtools.shown_panels(nb):
             cell = _cell(page, i)
             cell.scroll_into_view_if_needed()
-            _assert_diagnosis_visible(cell, 1, f"cell {i} of the {origin} notebook in Lab, no kernel, "
-                                               f"{'trusted' if trusted else 'untrusted'}")
+            _assert_diagnosis_visible(
+                cell, 1, f"cell {i} of the {origin} notebook in Lab, no kernel, {'trusted' if trusted else 'untrusted'}"
+            )
         blank = blank_areas(page, CELL_OUTPUTS)
         assert not blank, f"blank outputs in Lab without kernel: {blank}"
         first = nbtools.shown_panels(nb)[0]
@@ -384,11 +421,13 @@ def test_html_and_images_only_viewer(saved, origin, styles, browser, tmp_path):
         page.goto(page_path.as_uri(), wait_until="load")
         _assert_diagnosis_visible(page, n, f"text/html-only view of the {origin} notebook ({styles} styles)")
         if styles == "stripped":
-            assert visible_box(page.locator(".lgs-root pre.lgs-text")) is not None, \
+            assert visible_box(page.locator(".lgs-root pre.lgs-text")) is not None, (
                 "with styles stripped the plain-text version of the diagnosis does not show"
+            )
         else:
-            assert page.locator(".lgs-root pre.lgs-text").first.is_hidden(), \
+            assert page.locator(".lgs-root pre.lgs-text").first.is_hidden(), (
                 "the plain-text fallback shows although the stylesheet is there"
+            )
         blank = blank_areas(page, ".viewer-output")
         assert not blank, f"blank outputs for a text/html-only viewer: {blank}"
         assert not blocked, f"the diagnosis asked for network resources: {blocked}"

@@ -4,6 +4,7 @@ Every Jupyter folder (config, data, runtime, paths, Lab settings and workspaces,
 temporary directory, and the only kernel spec is ``python3`` pointing at the interpreter running the tests, so
 nothing depends on (or writes to) the user's own Jupyter set-up.
 """
+
 from __future__ import annotations
 
 import json
@@ -35,8 +36,15 @@ MARKERS = {
 
 # What the 0-4 scale figure draws, as the classes lagsight.render gives its SVG parts (issue 4: five shaded
 # regions, the exact null density, the observed d)
-SCALE_PARTS = ("lgs-region-positive", "lgs-region-inconclusive-low", "lgs-region-none",
-               "lgs-region-inconclusive-high", "lgs-region-negative", "lgs-density", "lgs-observed")
+SCALE_PARTS = (
+    "lgs-region-positive",
+    "lgs-region-inconclusive-low",
+    "lgs-region-none",
+    "lgs-region-inconclusive-high",
+    "lgs-region-negative",
+    "lgs-density",
+    "lgs-observed",
+)
 
 
 def scale_figure_missing(figure) -> list[str]:
@@ -107,12 +115,16 @@ def jupyter_env(root: Path, *, kernels: bool = True) -> dict:
     if kernels:
         spec = dirs["JUPYTER_PATH"] / "kernels" / "python3"
         spec.mkdir(parents=True, exist_ok=True)
-        (spec / "kernel.json").write_text(json.dumps({
-            "argv": [sys.executable, "-m", "ipykernel_launcher", "-f", "{connection_file}"],
-            "display_name": "Python 3 (ipykernel)",
-            "language": "python",
-            "metadata": {"debugger": False},
-        }))
+        (spec / "kernel.json").write_text(
+            json.dumps(
+                {
+                    "argv": [sys.executable, "-m", "ipykernel_launcher", "-f", "{connection_file}"],
+                    "display_name": "Python 3 (ipykernel)",
+                    "language": "python",
+                    "metadata": {"debugger": False},
+                }
+            )
+        )
     env = {k: v for k, v in os.environ.items() if not k.startswith(("JUPYTER", "IPYTHON"))}
     env.pop("MPLBACKEND", None)  # CI sets Agg for the test process; a user's kernel has the inline backend
     env.update({k: str(v) for k, v in dirs.items()})
@@ -130,8 +142,14 @@ def execute(path: Path, workdir: Path, env: dict):
     ksm = KernelSpecManager(kernel_dirs=[str(Path(env["JUPYTER_PATH"]) / "kernels")])
     km = AsyncKernelManager(kernel_name="python3", kernel_spec_manager=ksm)
     # errors stay in the outputs (and fail test_notebook_runs_without_error), so each is reported once
-    client = NotebookClient(nb, km=km, timeout=CELL_TIMEOUT, kernel_name="python3", allow_errors=True,
-                            resources={"metadata": {"path": str(workdir)}})
+    client = NotebookClient(
+        nb,
+        km=km,
+        timeout=CELL_TIMEOUT,
+        kernel_name="python3",
+        allow_errors=True,
+        resources={"metadata": {"path": str(workdir)}},
+    )
     client.execute(env=env)
     return nb
 
@@ -147,8 +165,13 @@ def nbconvert_html(ipynb: Path, out_dir: Path, env: dict) -> Path:
 
 def cell_errors(nb) -> list[str]:
     """'cell i: Name: message' for every error output of the notebook."""
-    return [f"cell {i}: {o.ename}: {o.evalue}" for i, c in enumerate(nb.cells) if c.cell_type == "code"
-            for o in c.get("outputs", []) if o.output_type == "error"]
+    return [
+        f"cell {i}: {o.ename}: {o.evalue}"
+        for i, c in enumerate(nb.cells)
+        if c.cell_type == "code"
+        for o in c.get("outputs", [])
+        if o.output_type == "error"
+    ]
 
 
 _IMAGE_TYPES = ("image/png", "image/jpeg", "image/gif")
@@ -178,8 +201,13 @@ def html_only_page(nb, title: str) -> str:
                         break
             if body is not None:
                 parts.append(f'<div class="viewer-output" data-cell="{i}" data-output="{j}">{body}</div>')
-    return ("<!DOCTYPE html><html><head><meta charset='utf-8'><title>" + title + "</title></head><body>"
-            + "\n".join(parts) + "</body></html>")
+    return (
+        "<!DOCTYPE html><html><head><meta charset='utf-8'><title>"
+        + title
+        + "</title></head><body>"
+        + "\n".join(parts)
+        + "</body></html>"
+    )
 
 
 def _joined(value) -> str:
@@ -204,8 +232,9 @@ def executed_notebook(path: Path, base: Path) -> Path:
     key = Path(path).resolve()
     if key not in _EXECUTED:
         work = Path(base) / "executed" / f"{key.parent.name}-{key.stem}"
-        shutil.copytree(key.parent, work, ignore=shutil.ignore_patterns("*.ipynb", ".ipynb_checkpoints"),
-                        dirs_exist_ok=True)
+        shutil.copytree(
+            key.parent, work, ignore=shutil.ignore_patterns("*.ipynb", ".ipynb_checkpoints"), dirs_exist_ok=True
+        )
         nb = execute(key, work, jupyter_env(Path(base) / "jupyter-nbclient"))
         out = work / key.name
         nbformat.write(nb, out)

@@ -4,6 +4,7 @@ The snapshot refresh and the idle-time drawing ahead are scheduled with ``loop.c
 asyncio loop is running; headless unit tests cover the logic, this checks that ipykernel does run that loop
 between cells, so a panel shown in a notebook really draws the alpha/alternative views ahead.
 """
+
 from __future__ import annotations
 
 import json

@@ -4,6 +4,7 @@ Execution is nbclient's (what ``jupyter nbconvert --execute`` does); the export 
 as a user runs it. The notebooks are executed once per session (see ``nbtools.executed_notebook``); the browser
 tests reuse them.
 """
+
 from __future__ import annotations
 
 import json
@@ -105,8 +106,9 @@ def test_panel_output_size(ran):
     if live:
         total = sum(len(json.dumps(nb.cells[i].outputs)) for i in cells)
         total += len(json.dumps(nb.metadata.get("widgets", {})))
-        assert total <= PANEL_OUTPUT_BUDGET * len(live), \
+        assert total <= PANEL_OUTPUT_BUDGET * len(live), (
             f"{source.name}: {total:,} bytes of output and widget state for {len(live)} panel(s)"
+        )
 
 
 def test_nbconvert_html_shows_the_diagnosis(ran, tmp_path):
@@ -118,8 +120,10 @@ def test_nbconvert_html_shows_the_diagnosis(ran, tmp_path):
     for name, selector in nbtools.MARKERS.items():
         found = soup.select(selector)
         # one per shown diagnosis at least (a panel cell may show more than one view)
-        assert len(found) >= len(shown), f"{source.name}: {name} ({selector}) appears {len(found)} times " \
-                                         f"in nbconvert's HTML for {len(shown)} diagnoses"
+        assert len(found) >= len(shown), (
+            f"{source.name}: {name} ({selector}) appears {len(found)} times "
+            f"in nbconvert's HTML for {len(shown)} diagnoses"
+        )
     for fig in soup.select(nbtools.MARKERS["scale figure"]):
         missing = nbtools.scale_figure_missing(fig)
         assert not missing, f"{source.name}: the scale figure in nbconvert's HTML lacks {missing}"

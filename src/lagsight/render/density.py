@@ -5,6 +5,7 @@ curve is built from :data:`DENSITY_NODES` exact values (``dist.grid``) and
 densified to :data:`GRID_POINTS` by cubic Hermite interpolation of the log
 density.  The cache is keyed weakly by the distribution object.
 """
+
 from __future__ import annotations
 
 import math
@@ -21,7 +22,7 @@ DENSITY_NODES = 33
 #: the curve covers mean +/- this many standard deviations (clipped to [0, 4])
 GRID_SPAN_SD = 6.0
 
-_GRIDS: "weakref.WeakKeyDictionary" = weakref.WeakKeyDictionary()
+_GRIDS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
 def _log_hermite(c: np.ndarray, pdf: np.ndarray, num: int) -> tuple[np.ndarray, np.ndarray]:
@@ -42,8 +43,12 @@ def _log_hermite(c: np.ndarray, pdf: np.ndarray, num: int) -> tuple[np.ndarray, 
     i = np.clip(((x - c[0]) / h).astype(int), 0, c.size - 2)
     t = (x - c[i]) / h
     t2, t3 = t * t, t * t * t
-    y = ((2 * t3 - 3 * t2 + 1) * logp[i] + (t3 - 2 * t2 + t) * h * slope[i]
-         + (-2 * t3 + 3 * t2) * logp[i + 1] + (t3 - t2) * h * slope[i + 1])
+    y = (
+        (2 * t3 - 3 * t2 + 1) * logp[i]
+        + (t3 - 2 * t2 + t) * h * slope[i]
+        + (-2 * t3 + 3 * t2) * logp[i + 1]
+        + (t3 - t2) * h * slope[i + 1]
+    )
     out = np.exp(y)
     edge = ~(pos[i] & pos[i + 1])
     out[edge] = np.interp(x[edge], c, pdf)

@@ -7,6 +7,7 @@ namespace itself), ``href`` instead of ``xlink:href``, coordinates rounded to
 figures on one page never clash.  ``gid`` values starting with ``lgs-`` become
 CSS classes.
 """
+
 from __future__ import annotations
 
 import base64
@@ -72,8 +73,9 @@ def _rename_ids(svg: str, prefix: str) -> str:
     return _REF.sub(lambda m: m.group(1) + (prefix + m.group(2) if m.group(2) in used else m.group(2)), svg)
 
 
-def figure_to_svg(fig: Figure, *, id_prefix: str | None = None, title: str | None = None,
-                  standalone: bool = False) -> str:
+def figure_to_svg(
+    fig: Figure, *, id_prefix: str | None = None, title: str | None = None, standalone: bool = False
+) -> str:
     """The figure as SVG text for inlining in HTML.
 
     Parameters
@@ -103,13 +105,15 @@ def figure_to_svg(fig: Figure, *, id_prefix: str | None = None, title: str | Non
         digest = hashlib.sha1(svg.encode()).hexdigest()[:6]
         id_prefix = f"lgs{digest}n{next(_COUNTER)}-"
     elif not re.fullmatch(r"[A-Za-z][\w-]*", id_prefix):
-        raise ValueError(f"'id_prefix' must start with a letter and hold only letters, digits, '_' "
-                         f"or '-' (got {id_prefix!r})")
+        raise ValueError(
+            f"'id_prefix' must start with a letter and hold only letters, digits, '_' or '-' (got {id_prefix!r})"
+        )
     svg = _rename_ids(svg, id_prefix)
     if not standalone:
         svg = _NS.sub("", svg).replace("xlink:href=", "href=")
     if title is not None:
         from html import escape
+
         svg = svg.replace("<svg ", f'<svg role="img" aria-label="{escape(str(title), quote=True)}" ', 1)
     return svg.strip() + "\n"
 

@@ -5,6 +5,7 @@ local ``rc_context``; ``fig.lagsight_caption`` holds a one-paragraph caption
 (what is drawn, what was thinned for display).  Dense series are thinned for
 display only: the statistics always use every observation.
 """
+
 from __future__ import annotations
 
 import math
@@ -25,9 +26,19 @@ from .style import FIG_WIDTH, PALETTE, figure_rc
 from .text import order_caveat
 
 __all__ = [
-    "scale_figure", "bounds_figure", "correlogram_figure", "lag_scatter_figure", "residuals_figure", "power_figure",
-    "groups_figure", "figure_to_svg", "figure_to_png", "figure_to_png_data_uri", "density_grid",
-    "MAX_POINTS", "BANDS",
+    "scale_figure",
+    "bounds_figure",
+    "correlogram_figure",
+    "lag_scatter_figure",
+    "residuals_figure",
+    "power_figure",
+    "groups_figure",
+    "figure_to_svg",
+    "figure_to_png",
+    "figure_to_png_data_uri",
+    "density_grid",
+    "MAX_POINTS",
+    "BANDS",
 ]
 
 #: most points drawn in a residual or scatter plot (display only)
@@ -45,16 +56,32 @@ def _plain(text) -> str:
 def _finish(fig: Figure, caption: str, caveat: str = "") -> Figure:
     """Attach the caption; a caveat (rows not in time order) is drawn on the figure and leads the caption."""
     if caveat:
-        fig.text(0.99, 0.99, _plain(caveat), ha="right", va="top", fontsize=7, style="italic",
-                 color=PALETTE["orange"], wrap=True).set_gid("lgs-caveat")
+        fig.text(
+            0.99,
+            0.99,
+            _plain(caveat),
+            ha="right",
+            va="top",
+            fontsize=7,
+            style="italic",
+            color=PALETTE["orange"],
+            wrap=True,
+        ).set_gid("lgs-caveat")
         caption = f"{caveat} {caption}"
     fig.lagsight_caption = caption  # type: ignore[attr-defined]
     return fig
 
 
 # ---------------------------------------------------------------------------
-def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, band: str = "white",
-                       period: int | None = None, width: float = FIG_WIDTH, caveat: str = "") -> Figure:
+def correlogram_figure(
+    correlogram: Correlogram,
+    *,
+    max_lag: int | None = None,
+    band: str = "white",
+    period: int | None = None,
+    width: float = FIG_WIDTH,
+    caveat: str = "",
+) -> Figure:
     """ACF and PACF panels with a white-noise or Bartlett band.
 
     Parameters
@@ -87,15 +114,18 @@ def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, 
         fig = Figure(figsize=(width, 3.0))
         axes = fig.subplots(1, 2, sharey=True)
         fig.subplots_adjust(left=0.08, right=0.98, top=0.8, bottom=0.26, wspace=0.08)
-        for ax, values, name in ((axes[0], correlogram.acf[:shown], "ACF"),
-                                 (axes[1], correlogram.pacf[:shown], "PACF")):
+        for ax, values, name in (
+            (axes[0], correlogram.acf[:shown], "ACF"),
+            (axes[1], correlogram.pacf[:shown], "PACF"),
+        ):
             if name == "ACF" and band == "bartlett":
                 b = correlogram.bartlett_band[:shown]
                 poly = ax.fill_between(lags, -b, b, step="mid", color=PALETTE["blue_light"], lw=0, zorder=0)
             else:
                 b = np.full(shown, correlogram.white_band)
-                poly = ax.axhspan(-correlogram.white_band, correlogram.white_band, color=PALETTE["blue_light"],
-                                  lw=0, zorder=0)
+                poly = ax.axhspan(
+                    -correlogram.white_band, correlogram.white_band, color=PALETTE["blue_light"], lw=0, zorder=0
+                )
             poly.set_gid(f"lgs-band-{name.lower()}")
             if period and period > 1:
                 for m in range(period, shown + 1, period):
@@ -118,18 +148,31 @@ def correlogram_figure(correlogram: Correlogram, *, max_lag: int | None = None, 
         lim = max(0.25, peak * 1.15)
         axes[0].set_ylim(-lim, lim)
         axes[0].set_ylabel("correlation")
-        band_words = ("Bartlett band (ACF)" if band == "bartlett" else "white-noise band")
-        fig.text(0.08, 0.95, f"Residual autocorrelation, lags 1\u2013{shown}", fontsize=10, fontweight="bold",
-                 va="center")
-        fig.legend(handles=[
-            Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], ms=4, label="inside the band"),
-            Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4, label="outside the band"),
-            Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
-        ], loc="lower center", bbox_to_anchor=(0.53, 0.0), ncol=3, fontsize=7.5, frameon=False)
-    which = ("Bartlett band for the ACF (white-noise band for the PACF)" if band == "bartlett"
-             else "white-noise band, z/sqrt(n)")
-    cap = (f"Sample ACF and PACF (Yule-Walker) of the residuals, n = {correlogram.n:,}. The shaded band is the "
-           f"{z_note} {which}; points outside it are squares.")
+        band_words = "Bartlett band (ACF)" if band == "bartlett" else "white-noise band"
+        fig.text(
+            0.08, 0.95, f"Residual autocorrelation, lags 1\u2013{shown}", fontsize=10, fontweight="bold", va="center"
+        )
+        fig.legend(
+            handles=[
+                Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], ms=4, label="inside the band"),
+                Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4, label="outside the band"),
+                Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
+            ],
+            loc="lower center",
+            bbox_to_anchor=(0.53, 0.0),
+            ncol=3,
+            fontsize=7.5,
+            frameon=False,
+        )
+    which = (
+        "Bartlett band for the ACF (white-noise band for the PACF)"
+        if band == "bartlett"
+        else "white-noise band, z/sqrt(n)"
+    )
+    cap = (
+        f"Sample ACF and PACF (Yule-Walker) of the residuals, n = {correlogram.n:,}. The shaded band is the "
+        f"{z_note} {which}; points outside it are squares."
+    )
     if max_lag is not None and int(max_lag) > available:
         cap += f" Only {available} lags were computed."
     return _finish(fig, cap, caveat)
@@ -142,8 +185,9 @@ def _thin_even(m: int, max_points: int) -> np.ndarray:
     return np.unique(np.linspace(0, m - 1, max_points).round().astype(np.intp))
 
 
-def lag_scatter_figure(resid, *, lag: int, max_points: int = MAX_POINTS, width: float = 3.9,
-                       caveat: str = "") -> Figure:
+def lag_scatter_figure(
+    resid, *, lag: int, max_points: int = MAX_POINTS, width: float = 3.9, caveat: str = ""
+) -> Figure:
     """e_t against e_{t-lag}, with the correlation of the pairs in the title.
 
     ``resid`` is a residual array (or a Diagnosis, whose residuals are used).
@@ -181,7 +225,7 @@ def lag_scatter_figure(resid, *, lag: int, max_points: int = MAX_POINTS, width: 
         ax.set_ylabel("residual at t")
     cap = f"Each point pairs a residual with the one {h} step{'s' * (h != 1)} earlier; {m:,} pairs."
     if keep.size < m:
-        cap += (f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}.")
+        cap += f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}."
     return _finish(fig, cap, caveat)
 
 
@@ -220,6 +264,7 @@ def _thin_series(e: np.ndarray, max_points: int) -> np.ndarray:
 def _x_values(index: pd.Index):
     """(x at given row positions, is time, time stamps) for plotting in test order.  The x values
     are computed only where they are drawn, never for all n rows."""
+
     def positions(p):
         return np.asarray(p, dtype=float) + 1.0
 
@@ -268,8 +313,16 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
             widths = x_at(gaps + 1) - x_at(gaps)
             shown_gaps = np.sort(gaps[np.argsort(widths)[-200:]])
         for x0, x1 in zip(x_at(shown_gaps), x_at(shown_gaps + 1)):
-            span = ax.axvspan(x0, x1, facecolor=PALETTE["orange_light"], hatch="||",
-                              hatchcolor=PALETTE["orange"], edgecolor="none", lw=0, zorder=0)
+            span = ax.axvspan(
+                x0,
+                x1,
+                facecolor=PALETTE["orange_light"],
+                hatch="||",
+                hatchcolor=PALETTE["orange"],
+                edgecolor="none",
+                lw=0,
+                zorder=0,
+            )
             span.set_gid("lgs-gap")
         ax.axhline(0, color=PALETTE["muted"], lw=0.7, zorder=1)
         (line,) = ax.plot(xs, ys, color=PALETTE["blue"], lw=0.8, zorder=2)
@@ -278,8 +331,15 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
             codes = pd.factorize(np.asarray(diag.data.groups))[0]
             bounds = np.flatnonzero(codes[1:] != codes[:-1])
             if 0 < bounds.size <= 60:
-                ax.vlines(x_at(bounds) + 0.5, 0, 1, transform=ax.get_xaxis_transform(), color=PALETTE["rule"],
-                          lw=0.8, zorder=0)
+                ax.vlines(
+                    x_at(bounds) + 0.5,
+                    0,
+                    1,
+                    transform=ax.get_xaxis_transform(),
+                    color=PALETTE["rule"],
+                    lw=0.8,
+                    zorder=0,
+                )
         if is_time:
             loc = mdates.AutoDateLocator(minticks=4, maxticks=9)
             ax.xaxis.set_major_locator(loc)
@@ -294,13 +354,17 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         fig.text(0.08, 0.93, "Residuals in test order", fontsize=10, fontweight="bold", va="center")
     cap = f"Residuals in the order tested ({diag.order.order_used}), n = {n:,}."
     if keep.size < n:
-        cap += (f" For display the line keeps {keep.size:,} of {n:,} points (the lowest and highest of each "
-                "block of neighbours); every test uses all points.")
+        cap += (
+            f" For display the line keeps {keep.size:,} of {n:,} points (the lowest and highest of each "
+            "block of neighbours); every test uses all points."
+        )
     if gaps.size:
-        cap += (f" {gaps.size:,} gap{'s' * (gaps.size != 1)} in the time stamps "
-                f"{'are' if gaps.size != 1 else 'is'} shaded with cross-hatching"
-                + (f" (the {shown_gaps.size} widest drawn)" if shown_gaps.size < gaps.size else "")
-                + "; the line is broken there.")
+        cap += (
+            f" {gaps.size:,} gap{'s' * (gaps.size != 1)} in the time stamps "
+            f"{'are' if gaps.size != 1 else 'is'} shaded with cross-hatching"
+            + (f" (the {shown_gaps.size} widest drawn)" if shown_gaps.size < gaps.size else "")
+            + "; the line is broken there."
+        )
         if diag.order.flags.get("largest_gap"):
             cap += f" Largest gap: {diag.order.flags['largest_gap']}."
     elif diag.order.flags.get("gaps") and not is_time:
@@ -314,8 +378,13 @@ def power_figure(curve, *, width: float = 5.6) -> Figure:
     with figure_rc():
         fig = Figure(figsize=(width, 3.0))
         ax = fig.add_axes((0.11, 0.17, 0.85, 0.68))
-        band = ax.fill_between(curve.rhos, np.clip(curve.power - 1.96 * curve.se, 0, 1),
-                               np.clip(curve.power + 1.96 * curve.se, 0, 1), color=PALETTE["blue_light"], lw=0)
+        band = ax.fill_between(
+            curve.rhos,
+            np.clip(curve.power - 1.96 * curve.se, 0, 1),
+            np.clip(curve.power + 1.96 * curve.se, 0, 1),
+            color=PALETTE["blue_light"],
+            lw=0,
+        )
         band.set_gid("lgs-power-band")
         (line,) = ax.plot(curve.rhos, curve.power, color=PALETTE["blue"], lw=1.6, marker="o", ms=2.5)
         line.set_gid("lgs-power")
@@ -324,22 +393,43 @@ def power_figure(curve, *, width: float = 5.6) -> Figure:
         # labels at the end of the grid where the curve is farther from them
         end = 0 if abs(curve.power[0] - TARGET_POWER) > abs(curve.power[-1] - TARGET_POWER) else -1
         ha = "left" if end == 0 else "right"
-        ax.text(curve.rhos[end], TARGET_POWER + 0.02, f" power {TARGET_POWER:g} ", fontsize=7.5, va="bottom",
-                ha=ha)
-        ax.text(curve.rhos[end], curve.alpha + 0.02, f" \u03b1 = {curve.alpha:g} ", fontsize=7.5, va="bottom",
-                ha=ha, color=PALETTE["muted"])
+        ax.text(curve.rhos[end], TARGET_POWER + 0.02, f" power {TARGET_POWER:g} ", fontsize=7.5, va="bottom", ha=ha)
+        ax.text(
+            curve.rhos[end],
+            curve.alpha + 0.02,
+            f" \u03b1 = {curve.alpha:g} ",
+            fontsize=7.5,
+            va="bottom",
+            ha=ha,
+            color=PALETTE["muted"],
+        )
         rho = curve.min_detectable_rho
         if rho is not None and not math.isnan(rho):
             ax.axvline(rho, color=PALETTE["orange"], lw=1.2)
-            ax.text(rho, 0.5, f" \u03c1 = {rho:.3f}", color=PALETTE["orange"], fontsize=8, va="center",
-                    ha="left" if rho <= np.median(curve.rhos) else "right")
+            ax.text(
+                rho,
+                0.5,
+                f" \u03c1 = {rho:.3f}",
+                color=PALETTE["orange"],
+                fontsize=8,
+                va="center",
+                ha="left" if rho <= np.median(curve.rhos) else "right",
+            )
         ax.set_ylim(0, 1.02)
         ax.set_xlabel("AR(1) coefficient \u03c1 of the errors")
         ax.set_ylabel("probability of detection")
-        fig.text(0.11, 0.93, f"Power of the exact Durbin-Watson test (n = {curve.n:,})", fontsize=10,
-                 fontweight="bold", va="center")
-    cap = (f"Share of {curve.n_sim:,} simulated series per \u03c1 in which the test rejects at \u03b1 = "
-           f"{curve.alpha:g} ({curve.alternative}); shaded: \u00b11.96 Monte Carlo standard errors. {curve.method}.")
+        fig.text(
+            0.11,
+            0.93,
+            f"Power of the exact Durbin-Watson test (n = {curve.n:,})",
+            fontsize=10,
+            fontweight="bold",
+            va="center",
+        )
+    cap = (
+        f"Share of {curve.n_sim:,} simulated series per \u03c1 in which the test rejects at \u03b1 = "
+        f"{curve.alpha:g} ({curve.alternative}); shaded: \u00b11.96 Monte Carlo standard errors. {curve.method}."
+    )
     return _finish(fig, cap)
 
 
@@ -352,8 +442,7 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
             fig.text(0.05, 0.5, "No group could be tested.", fontsize=9, va="center")
             return _finish(fig, "No group could be tested.")
         d = table["dw"].to_numpy(float)
-        found = (~table["finding"].isin(["none", "unknown"]).to_numpy() if "finding" in table
-                 else np.zeros(d.size, bool))
+        found = ~table["finding"].isin(["none", "unknown"]).to_numpy() if "finding" in table else np.zeros(d.size, bool)
         few = len(table) <= max_labels
         height = (max(2.4, 0.5 + 0.18 * len(table)) if few else 2.6) + 0.3
         fig = Figure(figsize=(width, height))
@@ -368,27 +457,54 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
             ax.set_ylim(-0.7, len(table) - 0.3)
         else:
             ok = d[np.isfinite(d)]
-            ax.hist(ok, bins=int(min(40, max(8, np.sqrt(ok.size)))), color=PALETTE["blue_light"],
-                    edgecolor=PALETTE["blue"], lw=0.5)
+            ax.hist(
+                ok,
+                bins=int(min(40, max(8, np.sqrt(ok.size)))),
+                color=PALETTE["blue_light"],
+                edgecolor=PALETTE["blue"],
+                lw=0.5,
+            )
             ax.set_ylabel("groups")
         if not math.isnan(summary.pooled_dw):
             ax.axvline(summary.pooled_dw, color=PALETTE["ink"], lw=1.4, label="pooled within-group d")
         if not math.isnan(summary.naive_dw):
-            ax.axvline(summary.naive_dw, color=PALETTE["orange"], lw=1.0, ls=(0, (4, 2)),
-                       label="d of the groups stacked end to end")
+            ax.axvline(
+                summary.naive_dw,
+                color=PALETTE["orange"],
+                lw=1.0,
+                ls=(0, (4, 2)),
+                label="d of the groups stacked end to end",
+            )
         ax.axvline(2.0, color=PALETTE["rule"], lw=0.8)
         ax.set_xlabel("Durbin-Watson d within the group")
         handles, _ = ax.get_legend_handles_labels()
         if few:
-            handles += [Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], label="evidence (adjusted)"),
-                        Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], label="no evidence")]
-        fig.legend(handles=handles, loc="lower center", ncol=len(handles), fontsize=7.5,
-                   bbox_to_anchor=(0.5, 0.0), frameon=False)
-        fig.text(0.02, 1 - 0.22 / height, f"Durbin-Watson d by group ({_groups_count(summary)})", fontsize=10,
-                 fontweight="bold", va="center")
-    cap = ("Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
-           "Benjamini-Hochberg adjustment." if few else
-           f"Distribution of the per-group d over {len(table)} tested groups.")
+            handles += [
+                Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], label="evidence (adjusted)"),
+                Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], label="no evidence"),
+            ]
+        fig.legend(
+            handles=handles,
+            loc="lower center",
+            ncol=len(handles),
+            fontsize=7.5,
+            bbox_to_anchor=(0.5, 0.0),
+            frameon=False,
+        )
+        fig.text(
+            0.02,
+            1 - 0.22 / height,
+            f"Durbin-Watson d by group ({_groups_count(summary)})",
+            fontsize=10,
+            fontweight="bold",
+            va="center",
+        )
+    cap = (
+        "Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
+        "Benjamini-Hochberg adjustment."
+        if few
+        else f"Distribution of the per-group d over {len(table)} tested groups."
+    )
     return _finish(fig, cap)
 
 
@@ -397,4 +513,3 @@ def _groups_count(summary) -> str:
     if summary.n_tested == summary.n_groups:
         return f"{summary.n_groups} groups"
     return f"{summary.n_tested} of {summary.n_groups} groups tested"
-

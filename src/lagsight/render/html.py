@@ -7,6 +7,7 @@ where it is written.  Figure markup is generated here (inline SVG, or a PNG
 data URI for viewers that strip SVG) and never contains user text unescaped.
 All CSS lives under ``.lgs-root``; nothing is fetched from the network.
 """
+
 from __future__ import annotations
 
 import math
@@ -15,19 +16,36 @@ from dataclasses import dataclass, field
 from html import escape
 from pathlib import Path
 
-import numpy as np
-
 from ..battery_run import DW
 from ..diagnosis import Diagnosis
 from ..stats._arrays import check_optional_int
 from ..stats._caught import caught_warnings
 from . import figures as F
 from .style import CSS
-from .text import (TEST_COLUMNS, TEST_GUIDE, diagnosis_text, format_number, format_pvalue, key_figures,
-                   order_caveat, primary_test, report_sentence, test_rows)
+from .text import (
+    TEST_COLUMNS,
+    TEST_GUIDE,
+    diagnosis_text,
+    format_number,
+    format_pvalue,
+    key_figures,
+    order_caveat,
+    primary_test,
+    report_sentence,
+    test_rows,
+)
 
-__all__ = ["Table", "FigureView", "View", "build_view", "render_html", "diagnosis_html", "save_html",
-           "FIGURE_MODES", "MAX_GROUP_ROWS"]
+__all__ = [
+    "Table",
+    "FigureView",
+    "View",
+    "build_view",
+    "render_html",
+    "diagnosis_html",
+    "save_html",
+    "FIGURE_MODES",
+    "MAX_GROUP_ROWS",
+]
 
 FIGURE_MODES = ("svg", "png", "none")
 #: rows of the per-group table shown (strongest evidence first)
@@ -118,20 +136,33 @@ def _check_options(diag, max_lag, band, lag, test, figures) -> None:
 
 def remedies_table(rem, caveat: str = "") -> Table:
     t = rem.table
-    cols = ("term", "OLS coef", "OLS SE", "OLS p", "HAC SE", "HAC p", "FGLS coef", "FGLS SE", "FGLS p",
-            "changes")
+    cols = ("term", "OLS coef", "OLS SE", "OLS p", "HAC SE", "HAC p", "FGLS coef", "FGLS SE", "FGLS p", "changes")
     rows = []
     for term, r in t.iterrows():
-        rows.append((str(term), format_number(r["coef_ols"]), format_number(r["se_ols"]),
-                     format_pvalue(r["p_ols"]), format_number(r["se_hac"]), format_pvalue(r["p_hac"]),
-                     format_number(r["coef_fgls"]), format_number(r["se_fgls"]), format_pvalue(r["p_fgls"]),
-                     str(r["changes"]) or "\u2013"))
+        rows.append(
+            (
+                str(term),
+                format_number(r["coef_ols"]),
+                format_number(r["se_ols"]),
+                format_pvalue(r["p_ols"]),
+                format_number(r["se_hac"]),
+                format_pvalue(r["p_hac"]),
+                format_number(r["coef_fgls"]),
+                format_number(r["se_fgls"]),
+                format_pvalue(r["p_fgls"]),
+                str(r["changes"]) or "\u2013",
+            )
+        )
     rho = "" if math.isnan(rem.rho) else f", estimated \u03c1 = {rem.rho:.3f}"
-    cap = (f"HAC: Newey-West with {rem.hac_lag} lags ({rem.lag_rule}). FGLS: {rem.fgls_method}{rho}. "
-           f"'changes' names the corrections that change significance at \u03b1 = {rem.alpha:g}.")
+    cap = (
+        f"HAC: Newey-West with {rem.hac_lag} lags ({rem.lag_rule}). FGLS: {rem.fgls_method}{rho}. "
+        f"'changes' names the corrections that change significance at \u03b1 = {rem.alpha:g}."
+    )
     if caveat:
-        cap = (f"Not meaningful: the rows are not in time order, so these corrections for serial correlation "
-               f"do not apply as they stand. {cap}")
+        cap = (
+            f"Not meaningful: the rows are not in time order, so these corrections for serial correlation "
+            f"do not apply as they stand. {cap}"
+        )
     return Table(cols, tuple(rows), numeric=(False,) + (True,) * 8 + (False,), caption=cap)
 
 
@@ -140,23 +171,44 @@ def groups_table(summary) -> Table:
     cols = ("group", "n", "d", "implied \u03c1", "p (DW)", "p adjusted", "finding")
     rows = []
     for _, r in t.head(MAX_GROUP_ROWS).iterrows():
-        rows.append((str(r["group"]), f"{int(r['n']):,}", format_number(r.get("dw"), 4),
-                     format_number(r.get("rho_hat"), 3), format_pvalue(r.get("dw_pvalue")),
-                     format_pvalue(r.get("dw_p_adjusted")), str(r.get("finding", ""))))
-    parts = [f"Pooled within-group d = {format_number(summary.pooled_dw)}"
-             + ("" if math.isnan(summary.pooled_pvalue) else f" (p = {format_pvalue(summary.pooled_pvalue)})")
-             + f"; the groups stacked end to end would give {format_number(summary.naive_dw)}."]
+        rows.append(
+            (
+                str(r["group"]),
+                f"{int(r['n']):,}",
+                format_number(r.get("dw"), 4),
+                format_number(r.get("rho_hat"), 3),
+                format_pvalue(r.get("dw_pvalue")),
+                format_pvalue(r.get("dw_p_adjusted")),
+                str(r.get("finding", "")),
+            )
+        )
+    parts = [
+        f"Pooled within-group d = {format_number(summary.pooled_dw)}"
+        + ("" if math.isnan(summary.pooled_pvalue) else f" (p = {format_pvalue(summary.pooled_pvalue)})")
+        + f"; the groups stacked end to end would give {format_number(summary.naive_dw)}."
+    ]
     if len(t) > MAX_GROUP_ROWS:
         parts.append(f"Showing the {MAX_GROUP_ROWS} groups with the strongest evidence of {len(t)}.")
     if summary.skipped:
         shown = list(summary.skipped.items())[:5]
-        parts.append(f"Skipped {len(summary.skipped)}: " + "; ".join(f"{k} ({v})" for k, v in shown)
-                     + (" \u2026" if len(summary.skipped) > 5 else ""))
+        parts.append(
+            f"Skipped {len(summary.skipped)}: "
+            + "; ".join(f"{k} ({v})" for k, v in shown)
+            + (" \u2026" if len(summary.skipped) > 5 else "")
+        )
     return Table(cols, tuple(rows), numeric=(False, True, True, True, True, True, False), caption=" ".join(parts))
 
 
-def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: int | None = 1,
-               test: str | None = None, figures: str = "svg", residuals: bool = True) -> View:
+def build_view(
+    diag,
+    *,
+    max_lag: int | None = None,
+    band: str = "white",
+    lag: int | None = 1,
+    test: str | None = None,
+    figures: str = "svg",
+    residuals: bool = True,
+) -> View:
     """The view model of a diagnosis.
 
     Parameters
@@ -179,45 +231,68 @@ def build_view(diag, *, max_lag: int | None = None, band: str = "white", lag: in
     focus = test or primary_test(diag)
     rows = test_rows(diag)
     names = [r[0] for r in rows]
-    tests = Table(TEST_COLUMNS, tuple(rows), numeric=(False, False, True, False, False, False),
-                  focus=names.index(focus) if focus in names else None)
+    tests = Table(
+        TEST_COLUMNS,
+        tuple(rows),
+        numeric=(False, False, True, False, False, False),
+        focus=names.index(focus) if focus in names else None,
+    )
     figs = []
     caveat = order_caveat(diag)
     if figures != "none":
         if DW in diag.tests:
-            figs.append(_figure("scale", "Durbin-Watson d on its 0-4 scale", lambda: F.scale_figure(diag),
-                                figures))
+            figs.append(_figure("scale", "Durbin-Watson d on its 0-4 scale", lambda: F.scale_figure(diag), figures))
         if diag.correlogram is not None:
-            figs.append(_figure("correlogram", "ACF and PACF of the residuals",
-                                lambda: F.correlogram_figure(diag.correlogram, max_lag=max_lag, band=band,
-                                                             period=diag.period, caveat=caveat),
-                                figures))
+            figs.append(
+                _figure(
+                    "correlogram",
+                    "ACF and PACF of the residuals",
+                    lambda: F.correlogram_figure(
+                        diag.correlogram, max_lag=max_lag, band=band, period=diag.period, caveat=caveat
+                    ),
+                    figures,
+                )
+            )
         if lag is not None:
-            figs.append(_figure("lag", f"Residuals against their lag {lag}",
-                                lambda: F.lag_scatter_figure(diag.data.resid, lag=int(lag), caveat=caveat), figures))
+            figs.append(
+                _figure(
+                    "lag",
+                    f"Residuals against their lag {lag}",
+                    lambda: F.lag_scatter_figure(diag.data.resid, lag=int(lag), caveat=caveat),
+                    figures,
+                )
+            )
         if residuals:
             figs.append(_figure("residuals", "Residuals in test order", lambda: F.residuals_figure(diag), figures))
         if diag.groups is not None:
-            figs.append(_figure("groups", "Durbin-Watson d by group", lambda: F.groups_figure(diag.groups),
-                                figures))
+            figs.append(_figure("groups", "Durbin-Watson d by group", lambda: F.groups_figure(diag.groups), figures))
         if diag.power is not None:
-            figs.append(_figure("power", "Power of the exact Durbin-Watson test",
-                                lambda: F.power_figure(diag.power), figures))
+            figs.append(
+                _figure("power", "Power of the exact Durbin-Watson test", lambda: F.power_figure(diag.power), figures)
+            )
     notes = list(diag.notes)
     if DW not in diag.tests and DW in diag.errors:
         notes.insert(0, f"The 0-4 scale is not shown: Durbin-Watson {diag.errors[DW]}")
     v = diag.verdict
     return View(
         title="lagsight: serial correlation in the residuals",
-        source=str(diag.data.source), finding=str(v.finding), headline=str(v.headline),
-        key_figures=tuple(key_figures(diag)), warnings=tuple(diag.order.warnings), focus_test=focus,
+        source=str(diag.data.source),
+        finding=str(v.finding),
+        headline=str(v.headline),
+        key_figures=tuple(key_figures(diag)),
+        warnings=tuple(diag.order.warnings),
+        focus_test=focus,
         focus_guide=TEST_GUIDE.get(focus, "") if focus else "",
         sentence_text=report_sentence(diag, "text"),
-        tests=tests, figures=tuple(figs),
+        tests=tests,
+        figures=tuple(figs),
         remedies=remedies_table(diag.remedies, caveat) if diag.remedies is not None else None,
         groups=groups_table(diag.groups) if diag.groups is not None else None,
-        details=tuple(v.details), next_steps=tuple(v.next_steps), cautions=tuple(v.cautions),
-        notes=tuple(n for n in notes if n not in diag.order.warnings), test_notes=diag.test_notes,
+        details=tuple(v.details),
+        next_steps=tuple(v.next_steps),
+        cautions=tuple(v.cautions),
+        notes=tuple(n for n in notes if n not in diag.order.warnings),
+        test_notes=diag.test_notes,
         text=diagnosis_text(diag),
         options={"max_lag": max_lag, "band": band, "lag": lag, "test": test, "figures": figures},
     )
@@ -275,9 +350,14 @@ def render_html(view: View) -> str:
     """HTML for a :class:`View`: one ``<div class="lgs-root">`` with its own stylesheet."""
     if not isinstance(view, View):
         raise TypeError(f"'view' must be a View from build_view (got {type(view).__name__})")
-    out = [f'<div class="lgs-root" data-lgs-finding="{_e(view.finding)}">', f"<style>{CSS}</style>",
-           f'<h3 class="lgs-title">{_e(view.title)}</h3>', f'<p class="lgs-source">{_e(view.source)}</p>',
-           headline_html(view.finding, view.headline), keys_html(view.key_figures)]
+    out = [
+        f'<div class="lgs-root" data-lgs-finding="{_e(view.finding)}">',
+        f"<style>{CSS}</style>",
+        f'<h3 class="lgs-title">{_e(view.title)}</h3>',
+        f'<p class="lgs-source">{_e(view.source)}</p>',
+        headline_html(view.finding, view.headline),
+        keys_html(view.key_figures),
+    ]
     if view.warnings:
         out.append(warnings_html(view.warnings))
     figs = {f.key: f for f in view.figures}
@@ -348,6 +428,7 @@ def save_html(diag, path, **view_options) -> Path:
     if not target.parent.is_dir():
         raise ValueError(f"'path' must be in an existing folder (got {str(target)!r})")
     from .. import __version__
+
     body = diagnosis_html(diag, **view_options)
     page = _PAGE.format(title=_e(f"lagsight report: {diag.data.source}"), body=body, version=_e(__version__))
     target.write_text(page, encoding="utf-8")

@@ -7,6 +7,7 @@ colour and labelled in words; the exact density drawn over them; the observed d
 marked with its p-value beside it.  When the density is narrow (large n) a
 close-up around 2 is added below the full scale.
 """
+
 from __future__ import annotations
 
 import math
@@ -19,9 +20,9 @@ from matplotlib.patches import Patch, Rectangle
 
 from ..battery_run import DW
 from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
+from ..verdict import log10_p
 from .density import density_grid, exact_point, grid_entry
 from .style import FIG_WIDTH, PALETTE, REGION_STYLE, figure_rc
-from ..verdict import log10_p
 from .text import K_PRIME_ASSUMED, format_pvalue, order_caveat
 
 __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
@@ -37,9 +38,13 @@ def _bounds(res, alpha: float):
 
 def _regions(b) -> list[tuple[str, str, float, float]]:
     lo, up = b.lower, min(b.upper, 2.0)
-    return [("positive", "positive", 0.0, lo), ("inconclusive", "inconclusive-low", lo, up),
-            ("none", "none", up, 4.0 - up), ("inconclusive", "inconclusive-high", 4.0 - up, 4.0 - lo),
-            ("negative", "negative", 4.0 - lo, 4.0)]
+    return [
+        ("positive", "positive", 0.0, lo),
+        ("inconclusive", "inconclusive-low", lo, up),
+        ("none", "none", up, 4.0 - up),
+        ("inconclusive", "inconclusive-high", 4.0 - up, 4.0 - lo),
+        ("negative", "negative", 4.0 - lo, 4.0),
+    ]
 
 
 def _missing_notes(diag, res, b, dist) -> list[str]:
@@ -53,11 +58,12 @@ def _missing_notes(diag, res, b, dist) -> list[str]:
     if b is None:
         kp = None if dist is None else dist.k_prime
         if kp == 0:
-            notes.append("No bounds dL/dU: the model has no regressor besides the constant (k' = 0); "
-                         "the exact p-value does not need them.")
+            notes.append(
+                "No bounds dL/dU: the model has no regressor besides the constant (k' = 0); "
+                "the exact p-value does not need them."
+            )
         elif diag.n > BOUNDS_MAX_N:
-            notes.append(f"Bounds dL/dU are not computed for n > {BOUNDS_MAX_N:,}; the exact p-value "
-                         "replaces them.")
+            notes.append(f"Bounds dL/dU are not computed for n > {BOUNDS_MAX_N:,}; the exact p-value replaces them.")
         else:
             notes.append("Bounds dL/dU are not available for this model.")
     return notes
@@ -85,17 +91,26 @@ def _draw_regions(ax, b, x0: float, x1: float, words: bool) -> None:
         if z <= a:
             continue
         label, face, hatch, hcolor = REGION_STYLE[key]
-        patch = ax.axvspan(a, z, facecolor=face, hatch=hatch or None, hatchcolor=hcolor, edgecolor="none",
-                           linewidth=0, zorder=0)
+        patch = ax.axvspan(
+            a, z, facecolor=face, hatch=hatch or None, hatchcolor=hcolor, edgecolor="none", linewidth=0, zorder=0
+        )
         patch.set_gid(f"lgs-region-{tag}")
         patch.set_label(label)
         vis = min(z, x1) - max(a, x0)
         if words and vis >= 0.11 * (x1 - x0):
             width = 12 if vis < 0.3 * (x1 - x0) else 22
-            ax.text((max(a, x0) + min(z, x1)) / 2, 0.95, textwrap.fill(label, width),
-                    transform=ax.get_xaxis_transform(), ha="center", va="top", fontsize=7.5, color=PALETTE["ink"],
-                    zorder=6,
-                    bbox=dict(boxstyle="round,pad=0.25", facecolor=PALETTE["paper"], edgecolor="none", alpha=0.85))
+            ax.text(
+                (max(a, x0) + min(z, x1)) / 2,
+                0.95,
+                textwrap.fill(label, width),
+                transform=ax.get_xaxis_transform(),
+                ha="center",
+                va="top",
+                fontsize=7.5,
+                color=PALETTE["ink"],
+                zorder=6,
+                bbox=dict(boxstyle="round,pad=0.25", facecolor=PALETTE["paper"], edgecolor="none", alpha=0.85),
+            )
     for x in sorted({b.lower, min(b.upper, 2.0), 4 - min(b.upper, 2.0), 4 - b.lower}):
         ax.axvline(x, color=PALETTE["muted"], lw=0.6, zorder=1)
 
@@ -113,23 +128,50 @@ def _bound_labels(ax, b) -> None:
 def _observed(ax, d: float, text: str | None, x0: float, x1: float) -> None:
     if d < x0 or d > x1:
         left = d < x0
-        ax.annotate(f"observed d = {d:.3f}", xy=(0.0 if left else 1.0, 0.55), xycoords="axes fraction",
-                    xytext=(14 if left else -14, 0), textcoords="offset points", ha="left" if left else "right",
-                    va="center", fontsize=7.5, color=PALETTE["mark"],
-                    bbox=dict(boxstyle="round,pad=0.2", facecolor=PALETTE["paper"], edgecolor="none", alpha=0.9),
-                    arrowprops=dict(arrowstyle="-|>", color=PALETTE["mark"], lw=1.0, shrinkA=0, shrinkB=0))
+        ax.annotate(
+            f"observed d = {d:.3f}",
+            xy=(0.0 if left else 1.0, 0.55),
+            xycoords="axes fraction",
+            xytext=(14 if left else -14, 0),
+            textcoords="offset points",
+            ha="left" if left else "right",
+            va="center",
+            fontsize=7.5,
+            color=PALETTE["mark"],
+            bbox=dict(boxstyle="round,pad=0.2", facecolor=PALETTE["paper"], edgecolor="none", alpha=0.9),
+            arrowprops=dict(arrowstyle="-|>", color=PALETTE["mark"], lw=1.0, shrinkA=0, shrinkB=0),
+        )
         return
     line = ax.axvline(d, color=PALETTE["mark"], lw=1.8, zorder=5)
     line.set_gid("lgs-observed")
-    (mark,) = ax.plot([d], [0.0], marker="D", ms=7, color=PALETTE["mark"], mec=PALETTE["paper"], mew=0.8,
-                      linestyle="none", clip_on=False, zorder=7, transform=ax.get_xaxis_transform())
+    (mark,) = ax.plot(
+        [d],
+        [0.0],
+        marker="D",
+        ms=7,
+        color=PALETTE["mark"],
+        mec=PALETTE["paper"],
+        mew=0.8,
+        linestyle="none",
+        clip_on=False,
+        zorder=7,
+        transform=ax.get_xaxis_transform(),
+    )
     mark.set_gid("lgs-observed-marker")
     if text:
         right = d < x0 + 0.62 * (x1 - x0)
-        ax.text(d + (0.012 if right else -0.012) * (x1 - x0), 0.63, text, transform=ax.get_xaxis_transform(),
-                ha="left" if right else "right", va="center", fontsize=8, color=PALETTE["mark"], zorder=8,
-                bbox=dict(boxstyle="round,pad=0.35", facecolor=PALETTE["paper"], edgecolor=PALETTE["mark"],
-                          linewidth=0.6))
+        ax.text(
+            d + (0.012 if right else -0.012) * (x1 - x0),
+            0.63,
+            text,
+            transform=ax.get_xaxis_transform(),
+            ha="left" if right else "right",
+            va="center",
+            fontsize=8,
+            color=PALETTE["mark"],
+            zorder=8,
+            bbox=dict(boxstyle="round,pad=0.35", facecolor=PALETTE["paper"], edgecolor=PALETTE["mark"], linewidth=0.6),
+        )
 
 
 def _p_text(res, alt: str, verdict) -> str:
@@ -160,9 +202,20 @@ def _critical(dist, alpha: float, alt: str) -> list[float]:
 
 
 def _zoom_box(ax, window) -> None:
-    ax.add_patch(Rectangle((window[0], 0), window[1] - window[0], 1, transform=ax.get_xaxis_transform(),
-                           fill=False, edgecolor=PALETTE["muted"], lw=0.9, ls=(0, (1, 1.5)), zorder=6,
-                           clip_on=False))
+    ax.add_patch(
+        Rectangle(
+            (window[0], 0),
+            window[1] - window[0],
+            1,
+            transform=ax.get_xaxis_transform(),
+            fill=False,
+            edgecolor=PALETTE["muted"],
+            lw=0.9,
+            ls=(0, (1, 1.5)),
+            zorder=6,
+            clip_on=False,
+        )
+    )
 
 
 def _draw_axis(ax, *, b, grid, crit, d, obs_text, x0, x1, words, bound_labels, crit_labels):
@@ -184,11 +237,18 @@ def _draw_axis(ax, *, b, grid, crit, d, obs_text, x0, x1, words, bound_labels, c
             cl.set_gid("lgs-exact-critical")
             if crit_labels and x0 <= q <= x1:
                 low = q < 2
-                ax.text(q + (-0.01 if low else 0.01) * (x1 - x0), 0.06, f"exact critical value {q:.3f}",
-                        transform=ax.get_xaxis_transform(), fontsize=7, ha="right" if low else "left",
-                        va="bottom", color=PALETTE["ink"], zorder=6,
-                        bbox=dict(boxstyle="round,pad=0.2", facecolor=PALETTE["paper"], edgecolor="none",
-                                  alpha=0.9))
+                ax.text(
+                    q + (-0.01 if low else 0.01) * (x1 - x0),
+                    0.06,
+                    f"exact critical value {q:.3f}",
+                    transform=ax.get_xaxis_transform(),
+                    fontsize=7,
+                    ha="right" if low else "left",
+                    va="bottom",
+                    color=PALETTE["ink"],
+                    zorder=6,
+                    bbox=dict(boxstyle="round,pad=0.2", facecolor=PALETTE["paper"], edgecolor="none", alpha=0.9),
+                )
     ax.set_ylim(0, top)
     ax.set_yticks([])
     ax.set_ylabel("null density", fontsize=7.5, color=PALETTE["muted"])
@@ -196,8 +256,7 @@ def _draw_axis(ax, *, b, grid, crit, d, obs_text, x0, x1, words, bound_labels, c
         _observed(ax, d, obs_text, x0, x1)
 
 
-def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
-                 width: float = FIG_WIDTH) -> Figure:
+def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None, width: float = FIG_WIDTH) -> Figure:
     """The Durbin-Watson scale figure for a :class:`~lagsight.Diagnosis`.
 
     Parameters
@@ -243,8 +302,19 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
         y = height - title_h - (label_h if not window else 0.1)
         ax = fig.add_axes((left, (y - ax_h) / height, right - left, ax_h / height))
         obs = None if res is None else f"observed d = {d:.3f}\n" + _p_text(res, alt, diag.verdict)
-        _draw_axis(ax, b=b, grid=grid, crit=crit, d=d, obs_text=obs, x0=0.0, x1=4.0, words=True,
-                   bound_labels=window is None, crit_labels=window is None)
+        _draw_axis(
+            ax,
+            b=b,
+            grid=grid,
+            crit=crit,
+            d=d,
+            obs_text=obs,
+            x0=0.0,
+            x1=4.0,
+            words=True,
+            bound_labels=window is None,
+            crit_labels=window is None,
+        )
         ax.set_xticks(np.arange(0, 4.01, 0.5))
         ax.set_xlabel("Durbin-Watson d (0 to 4; 2 means no lag-1 correlation)", fontsize=8)
         if window:
@@ -252,19 +322,59 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None,
             _zoom_box(ax, window)
             y -= ax_h + tick_h + (0.34 if b is not None else 0.1)
             zax = fig.add_axes((left, (y - 1.25) / height, right - left, 1.25 / height))
-            _draw_axis(zax, b=b, grid=grid, crit=crit, d=d, obs_text=f"d = {d:.3f}", x0=zx0, x1=zx1,
-                       words=True, bound_labels=True, crit_labels=True)
+            _draw_axis(
+                zax,
+                b=b,
+                grid=grid,
+                crit=crit,
+                d=d,
+                obs_text=f"d = {d:.3f}",
+                x0=zx0,
+                x1=zx1,
+                words=True,
+                bound_labels=True,
+                crit_labels=True,
+            )
             zax.set_xlabel(f"close-up of d from {zx0:.3f} to {zx1:.3f} (dotted box above)", fontsize=8)
-        fig.text(left, 1 - 0.2 / height, "Durbin-Watson d on its 0\u20134 scale", fontsize=10.5,
-                 fontweight="bold", va="center", color=PALETTE["ink"])
-        fig.text(left, 1 - 0.42 / height, _subtitle(diag, res, b, alpha, alt), fontsize=8, va="center",
-                 color=PALETTE["muted"])
+        fig.text(
+            left,
+            1 - 0.2 / height,
+            "Durbin-Watson d on its 0\u20134 scale",
+            fontsize=10.5,
+            fontweight="bold",
+            va="center",
+            color=PALETTE["ink"],
+        )
+        fig.text(
+            left,
+            1 - 0.42 / height,
+            _subtitle(diag, res, b, alpha, alt),
+            fontsize=8,
+            va="center",
+            color=PALETTE["muted"],
+        )
         yb = 0.08
-        fig.legend(handles=_legend(b, dist, alpha), loc="lower left", bbox_to_anchor=(left - 0.01, yb / height),
-                   ncol=2, fontsize=7.5, handlelength=2.2, columnspacing=1.5, borderaxespad=0, frameon=False)
+        fig.legend(
+            handles=_legend(b, dist, alpha),
+            loc="lower left",
+            bbox_to_anchor=(left - 0.01, yb / height),
+            ncol=2,
+            fontsize=7.5,
+            handlelength=2.2,
+            columnspacing=1.5,
+            borderaxespad=0,
+            frameon=False,
+        )
         for i, note in enumerate(reversed(notes)):
-            fig.text(left, (yb + 0.19 * legend_rows + 0.1 + 0.2 * i) / height, note, fontsize=7.5,
-                     style="italic", color=PALETTE["orange"], va="bottom")
+            fig.text(
+                left,
+                (yb + 0.19 * legend_rows + 0.1 + 0.2 * i) / height,
+                note,
+                fontsize=7.5,
+                style="italic",
+                color=PALETTE["orange"],
+                va="bottom",
+            )
         fig.lagsight_caption = " ".join(filter(None, [caveat, _caption(res, b, dist, alpha, window, alt)]))  # type: ignore[attr-defined]
         fig.lagsight_notes = tuple(notes)  # type: ignore[attr-defined]
     return fig
@@ -278,26 +388,47 @@ def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
         parts.append(f"bounds at \u03b1 = {alpha:g}: dL = {b.lower:.3f}, dU = {b.upper:.3f}")
     else:
         parts.append(f"\u03b1 = {alpha:g}")
-    parts.append({"positive": "alternative: positive correlation",
-                  "negative": "alternative: negative correlation"}.get(alt, "two-sided test"))
+    parts.append(
+        {"positive": "alternative: positive correlation", "negative": "alternative: negative correlation"}.get(
+            alt, "two-sided test"
+        )
+    )
     return "  \u00b7  ".join(parts)
 
 
 def _legend(b, dist, alpha: float) -> list:
     handles: list = []
     if b is not None:
-        texts = {"positive": "evidence of positive correlation: d < dL",
-                 "inconclusive": "inconclusive: dL to dU and 4\u2212dU to 4\u2212dL",
-                 "none": "no evidence: dU to 4\u2212dU",
-                 "negative": "evidence of negative correlation: d > 4\u2212dL"}
+        texts = {
+            "positive": "evidence of positive correlation: d < dL",
+            "inconclusive": "inconclusive: dL to dU and 4\u2212dU to 4\u2212dL",
+            "none": "no evidence: dU to 4\u2212dU",
+            "negative": "evidence of negative correlation: d > 4\u2212dL",
+        }
         for key in ("positive", "inconclusive", "none", "negative"):
             _, face, hatch, hcolor = REGION_STYLE[key]
-            handles.append(Patch(facecolor=face, hatch=hatch or None, hatchcolor=hcolor,
-                                 edgecolor=PALETTE["rule"], lw=0.6, label=texts[key]))
+            handles.append(
+                Patch(
+                    facecolor=face,
+                    hatch=hatch or None,
+                    hatchcolor=hcolor,
+                    edgecolor=PALETTE["rule"],
+                    lw=0.6,
+                    label=texts[key],
+                )
+            )
     if dist is not None:
         handles.append(Line2D([], [], color=PALETTE["ink"], lw=1.5, label="exact null density of d (this design)"))
-        handles.append(Line2D([], [], color=PALETTE["ink"], lw=1.0, ls=(0, (4, 2)),
-                              label=f"exact critical value at \u03b1 = {alpha:g}"))
+        handles.append(
+            Line2D(
+                [],
+                [],
+                color=PALETTE["ink"],
+                lw=1.0,
+                ls=(0, (4, 2)),
+                label=f"exact critical value at \u03b1 = {alpha:g}",
+            )
+        )
     handles.append(Line2D([], [], color=PALETTE["mark"], lw=1.8, marker="D", ms=5, label="observed d"))
     return handles
 
@@ -305,14 +436,21 @@ def _legend(b, dist, alpha: float) -> list:
 def _caption(res, b, dist, alpha, window, alt) -> str:
     if res is None:
         return "Durbin-Watson scale: the test could not be run."
-    parts = ["Shaded regions are the classical bounds decision"
-             + (f" at \u03b1 = {alpha:g}" if b is not None else " (not available here)") + "."]
+    parts = [
+        "Shaded regions are the classical bounds decision"
+        + (f" at \u03b1 = {alpha:g}" if b is not None else " (not available here)")
+        + "."
+    ]
     if alt == "two-sided" and dist is not None:
-        parts.append(f"Two-sided: the regions use the one-sided bounds in each tail (the classical convention), "
-                     f"the dashed lines the exact critical values at \u03b1/2 = {alpha / 2:g} per tail.")
+        parts.append(
+            f"Two-sided: the regions use the one-sided bounds in each tail (the classical convention), "
+            f"the dashed lines the exact critical values at \u03b1/2 = {alpha / 2:g} per tail."
+        )
     if dist is not None:
-        parts.append("The curve is the exact null density of d for this model's design; the dashed line is "
-                     "its exact critical value, which settles what the inconclusive band leaves open.")
+        parts.append(
+            "The curve is the exact null density of d for this model's design; the dashed line is "
+            "its exact critical value, which settles what the inconclusive band leaves open."
+        )
     if window:
         parts.append("The lower panel is a close-up around 2.")
     return " ".join(parts)
@@ -333,8 +471,19 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
         fig = Figure(figsize=(width, height))
         y = height - 0.52 - 0.34
         ax = fig.add_axes((left, (y - 1.0) / height, right - left, 1.0 / height))
-        _draw_axis(ax, b=bounds, grid=None, crit=[], d=math.nan, obs_text=None, x0=0.0, x1=4.0, words=True,
-                   bound_labels=window is None, crit_labels=False)
+        _draw_axis(
+            ax,
+            b=bounds,
+            grid=None,
+            crit=[],
+            d=math.nan,
+            obs_text=None,
+            x0=0.0,
+            x1=4.0,
+            words=True,
+            bound_labels=window is None,
+            crit_labels=False,
+        )
         ax.set_ylabel("")
         ax.set_xticks(np.arange(0, 4.01, 0.5))
         ax.set_xlabel("Durbin-Watson d", fontsize=8)
@@ -342,19 +491,45 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
             _zoom_box(ax, window)
             y -= 1.0 + 0.42 + 0.34
             zax = fig.add_axes((left, (y - 1.0) / height, right - left, 1.0 / height))
-            _draw_axis(zax, b=bounds, grid=None, crit=[], d=math.nan, obs_text=None, x0=window[0], x1=window[1],
-                       words=True, bound_labels=True, crit_labels=False)
+            _draw_axis(
+                zax,
+                b=bounds,
+                grid=None,
+                crit=[],
+                d=math.nan,
+                obs_text=None,
+                x0=window[0],
+                x1=window[1],
+                words=True,
+                bound_labels=True,
+                crit_labels=False,
+            )
             zax.set_ylabel("")
             zax.set_xlabel(f"close-up of d from {window[0]:.3f} to {window[1]:.3f}", fontsize=8)
         const = "with" if bounds.has_constant else "without"
         fig.text(left, 1 - 0.2 / height, "Durbin-Watson bounds", fontsize=10.5, fontweight="bold", va="center")
-        fig.text(left, 1 - 0.42 / height, f"n = {bounds.n:,}   \u00b7   k\u2032 = {bounds.k_prime} ({const} constant)   "
-                 f"\u00b7   \u03b1 = {bounds.alpha:g}   \u00b7   dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}",
-                 fontsize=8, va="center", color=PALETTE["muted"])
-        fig.legend(handles=_legend(bounds, None, bounds.alpha)[:4], loc="lower left",
-                   bbox_to_anchor=(left - 0.01, 0.06 / height), ncol=2, fontsize=7.5, handlelength=2.2,
-                   columnspacing=1.5, borderaxespad=0, frameon=False)
+        fig.text(
+            left,
+            1 - 0.42 / height,
+            f"n = {bounds.n:,}   \u00b7   k\u2032 = {bounds.k_prime} ({const} constant)   "
+            f"\u00b7   \u03b1 = {bounds.alpha:g}   \u00b7   dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}",
+            fontsize=8,
+            va="center",
+            color=PALETTE["muted"],
+        )
+        fig.legend(
+            handles=_legend(bounds, None, bounds.alpha)[:4],
+            loc="lower left",
+            bbox_to_anchor=(left - 0.01, 0.06 / height),
+            ncol=2,
+            fontsize=7.5,
+            handlelength=2.2,
+            columnspacing=1.5,
+            borderaxespad=0,
+            frameon=False,
+        )
         fig.lagsight_caption = (  # type: ignore[attr-defined]
             f"Classical bounds decision for a test against positive correlation at "
-                                f"\u03b1 = {bounds.alpha:g}; mirrored above 2 for negative correlation.")
+            f"\u03b1 = {bounds.alpha:g}; mirrored above 2 for negative correlation."
+        )
     return fig

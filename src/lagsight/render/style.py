@@ -6,6 +6,7 @@ by colour alone (hatching, marker shape and words carry it too).  Figures are
 drawn on their own light "paper" so they read the same on light and dark
 pages; the HTML takes its colours from CSS variables with light and dark values.
 """
+
 from __future__ import annotations
 
 from contextlib import contextmanager
@@ -16,18 +17,18 @@ __all__ = ["PALETTE", "REGION_STYLE", "FIGURE_RC", "figure_rc", "CSS", "FIG_WIDT
 
 #: named colours used by every figure (hex strings)
 PALETTE = {
-    "ink": "#1e2630",        # text, axes, the null density
-    "muted": "#5b6570",      # secondary text, captions
-    "rule": "#c9ced5",       # grid lines, frames
-    "paper": "#fcfcfa",      # figure background
-    "blue": "#2f6db5",       # evidence of positive correlation; ACF bars
+    "ink": "#1e2630",  # text, axes, the null density
+    "muted": "#5b6570",  # secondary text, captions
+    "rule": "#c9ced5",  # grid lines, frames
+    "paper": "#fcfcfa",  # figure background
+    "blue": "#2f6db5",  # evidence of positive correlation; ACF bars
     "blue_light": "#d3e2f4",
-    "orange": "#c8640f",     # evidence of negative correlation; values outside a band
+    "orange": "#c8640f",  # evidence of negative correlation; values outside a band
     "orange_light": "#f7dcc2",
-    "grey": "#8b939c",       # inconclusive
+    "grey": "#8b939c",  # inconclusive
     "grey_light": "#e6e8eb",
-    "none": "#fcfcfa",       # no evidence (plain paper)
-    "mark": "#111418",       # the observed statistic
+    "none": "#fcfcfa",  # no evidence (plain paper)
+    "mark": "#111418",  # the observed statistic
 }
 
 #: the five regions of the 0-4 scale: key -> (words, face colour, hatch, hatch colour)
@@ -43,8 +44,8 @@ FIG_WIDTH = 7.2
 
 #: matplotlib settings applied through a local rc_context only (never globally)
 FIGURE_RC = {
-    "svg.fonttype": "none",            # keep text as text
-    "svg.hashsalt": "lagsight",        # deterministic ids
+    "svg.fonttype": "none",  # keep text as text
+    "svg.hashsalt": "lagsight",  # deterministic ids
     "svg.image_inline": True,
     "path.simplify": True,
     "path.simplify_threshold": 0.5,

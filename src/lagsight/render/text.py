@@ -3,6 +3,7 @@
 Everything here returns plain (unescaped) strings; the HTML layer escapes them
 where it writes them.
 """
+
 from __future__ import annotations
 
 import math
@@ -14,34 +15,51 @@ from ..stats.power import TARGET_POWER
 from ..verdict import log10_p, tiny_p_text
 
 __all__ = [
-    "TEST_GUIDE", "format_pvalue", "format_number", "statistic_label", "test_rows", "TEST_COLUMNS",
-    "key_figures", "primary_test", "order_caveat", "report_sentence", "diagnosis_text", "table_text", "k_prime",
-    "k_prime_assumed", "k_prime_text", "K_PRIME_ASSUMED", "power_text",
+    "TEST_GUIDE",
+    "format_pvalue",
+    "format_number",
+    "statistic_label",
+    "test_rows",
+    "TEST_COLUMNS",
+    "key_figures",
+    "primary_test",
+    "order_caveat",
+    "report_sentence",
+    "diagnosis_text",
+    "table_text",
+    "k_prime",
+    "k_prime_assumed",
+    "k_prime_text",
+    "K_PRIME_ASSUMED",
+    "power_text",
 ]
 
 #: one line on how to read each test
 TEST_GUIDE = {
     DW: "d near 2 means no lag-1 correlation; d well below 2 means positive, well above 2 negative "
-        "correlation. The exact p-value is for this model's own design.",
+    "correlation. The exact p-value is for this model's own design.",
     BG: "Regresses the residuals on their own lags and the regressors: a small p-value means correlation "
-        "at one or more of the first lags. Valid with a lagged response.",
+    "at one or more of the first lags. Valid with a lagged response.",
     LB: "Pools the squared autocorrelations up to the lag shown: a small p-value means the residuals are "
-        "not white noise at some of those lags.",
+    "not white noise at some of those lags.",
     DH: "For models with the lagged response as a regressor: h is approximately standard normal when "
-        "there is no lag-1 correlation.",
+    "there is no lag-1 correlation.",
     DALT: "Regresses the residuals on their lag and the regressors: works with a lagged response, and "
-          "when Durbin's h cannot be computed.",
+    "when Durbin's h cannot be computed.",
     SEASONAL: "The Durbin-Watson statistic at the seasonal lag s: d_s well below 2 means this season's "
-              "residual follows last season's.",
+    "residual follows last season's.",
     RUNS: "Counts runs of same-signed residuals: too few runs means positive correlation. Uses signs only, "
-          "so it needs no normality but has less power.",
+    "so it needs no normality but has less power.",
 }
 
 #: columns of the test table
 TEST_COLUMNS = ("test", "statistic", "p-value", "looks for", "reading", "method")
 
-_LOOKS_FOR = {"positive": "positive correlation", "negative": "negative correlation",
-              "two-sided": "correlation of either sign"}
+_LOOKS_FOR = {
+    "positive": "positive correlation",
+    "negative": "negative correlation",
+    "two-sided": "correlation of either sign",
+}
 _SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", SEASONAL_GIVEN: "t", RUNS: "z"}
 
 
@@ -202,15 +220,18 @@ def _stamp(value) -> str:
     return text[:-9] if text.endswith(" 00:00:00") else text
 
 
-_ALT_WORDS = {"positive": "against positive autocorrelation", "negative": "against negative autocorrelation",
-              "two-sided": "two-sided"}
+_ALT_WORDS = {
+    "positive": "against positive autocorrelation",
+    "negative": "against negative autocorrelation",
+    "two-sided": "two-sided",
+}
 
 
 def _method_phrase(method: str) -> tuple[bool, str]:
     """(is exact, method words for a parenthesis) from a result's method string."""
     method = method.split(";")[0].strip()
     if method.startswith("exact (") and method.endswith(")"):
-        return True, method[len("exact ("):-1]
+        return True, method[len("exact (") : -1]
     exact = method.startswith("exact")
     if method.endswith(")") and method.count("(") == 1:
         base, detail = method[:-1].split("(")
@@ -237,8 +258,10 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
     if v.finding == "cannot judge":
         return f"No serial-correlation finding can be reported: {v.reason} (n = {diag.n:,})."
     if v.finding == "not meaningful":
-        return (f"No serial-correlation result can be reported: {v.reason} (n = {diag.n:,}); sort the rows "
-                "by time and test again.")
+        return (
+            f"No serial-correlation result can be reported: {v.reason} (n = {diag.n:,}); sort the rows "
+            "by time and test again."
+        )
     name = primary_test(diag) if test is None else test
     if name is None or name not in diag.tests:
         return "No serial-correlation test could be run on these residuals."
@@ -268,8 +291,10 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
         bounds = getattr(res, "bounds", None)
         tail = "no exact p-value (the design is not known)"
         if bounds is not None:
-            tail += (f"; bounds at alpha {bounds.alpha:g}: dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}, "
-                     f"decision '{res.bounds_decision}'")
+            tail += (
+                f"; bounds at alpha {bounds.alpha:g}: dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}, "
+                f"decision '{res.bounds_decision}'"
+            )
         return f"{head} ({', '.join(sizes)}), {tail}."
     pword = f"{it('p')}-value"
     if exact and method:
@@ -311,5 +336,7 @@ def power_text(curve) -> str:
     rho = curve.min_detectable_rho
     if rho is None or np.isnan(rho):
         return f"On this grid the test does not reach power {TARGET_POWER:g} (n = {curve.n})."
-    return (f"Power reaches {TARGET_POWER:g} at rho = {rho:.3f} "
-            f"(n = {curve.n}, alpha {curve.alpha:g}, {curve.n_sim} draws).")
+    return (
+        f"Power reaches {TARGET_POWER:g} at rho = {rho:.3f} "
+        f"(n = {curve.n}, alpha {curve.alpha:g}, {curve.n_sim} draws)."
+    )

@@ -6,6 +6,7 @@ exception kind and the same one-line message everywhere: a value of the wrong ty
 TypeError, a value of the right type outside its range a ValueError, and the message names
 the argument, what was expected and what was received.  Nothing here copies an n-by-n matrix.
 """
+
 from __future__ import annotations
 
 import numbers
@@ -46,8 +47,7 @@ def as_vector(x, name: str, *, min_len: int = 1) -> np.ndarray:
     if finite is not None and not finite.all():
         pos = int(np.flatnonzero(~finite)[0])
         raise ValueError(
-            f"'{name}' must be finite (got {arr[pos]} at position {pos}; "
-            f"{int((~finite).sum())} non-finite values)"
+            f"'{name}' must be finite (got {arr[pos]} at position {pos}; {int((~finite).sum())} non-finite values)"
         )
     if arr.shape[0] < min_len:
         raise ValueError(f"'{name}' must have at least {min_len} observations (got {arr.shape[0]})")
@@ -70,9 +70,7 @@ def as_design(exog, n: int, name: str = "exog", *, full_rank: bool = True, scale
     bad = _first_nonfinite(arr)
     if bad is not None:
         row, col = bad
-        raise ValueError(
-            f"'{name}' must be finite (got {arr[row, col]} at row {row}, column {col})"
-        )
+        raise ValueError(f"'{name}' must be finite (got {arr[row, col]} at row {row}, column {col})")
     if full_rank:
         _check_rank(design_rank(arr, scale), arr.shape[1], name)
     return arr
@@ -387,8 +385,9 @@ def check_label(value, name: str):
     """Return one column label: ``value`` itself, or the single item of a one-item list or tuple."""
     if isinstance(value, (list, tuple)):
         if len(value) != 1:
-            raise ValueError(f"'{name}' must be one column name (got a {type(value).__name__} of "
-                             f"{len(value)}: {_describe(value)})")
+            raise ValueError(
+                f"'{name}' must be one column name (got a {type(value).__name__} of {len(value)}: {_describe(value)})"
+            )
         value = value[0]
     try:
         hash(value)
@@ -408,8 +407,9 @@ def check_labels(value, name: str) -> list:
         try:
             hash(item)
         except TypeError:
-            raise TypeError(f"'{name}' must be a column name or a list of column names (got an item of "
-                            f"type {type(item).__name__})") from None
+            raise TypeError(
+                f"'{name}' must be a column name or a list of column names (got an item of type {type(item).__name__})"
+            ) from None
         if item in labels:
             raise ValueError(f"'{name}' names column {item!r} more than once (got {_describe(value)})")
         labels.append(item)

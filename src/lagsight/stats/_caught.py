@@ -8,6 +8,7 @@ collects them while lagsight computes, so the caller can attach them as notes.
 Inside it numpy's floating-point errors warn (whatever ``np.seterr`` says outside),
 so they are recorded instead of raising or passing silently.
 """
+
 from __future__ import annotations
 
 import contextlib
@@ -58,8 +59,9 @@ class CaughtWarnings:
     def notes(self, where: str = "") -> tuple:
         """One note per distinct warning: 'statsmodels warned[ where]: <message> (3 times)'."""
         at = f" {where}" if where else ""
-        return tuple(f"{lib} warned{at}: {text}" + (f" ({k} times)" if k > 1 else "")
-                     for (lib, text), k in self._counts.items())
+        return tuple(
+            f"{lib} warned{at}: {text}" + (f" ({k} times)" if k > 1 else "") for (lib, text), k in self._counts.items()
+        )
 
 
 @contextlib.contextmanager

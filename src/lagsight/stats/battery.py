@@ -4,6 +4,7 @@ All functions take plain numpy arrays: ``resid`` (1-D), ``exog`` (n x k design
 including any constant column) and, where needed, ``endog``.  Each returns a
 frozen result dataclass built on :class:`lagsight.stats.results.TestResult`.
 """
+
 from __future__ import annotations
 
 import math
@@ -15,15 +16,31 @@ import pandas as pd
 from scipy import linalg, stats
 from statsmodels.regression.linear_model import OLS
 
-from ._arrays import (ArrayResult, as_design, as_vector, check_int, check_names,
-                      constant_columns, has_constant, readonly, scaled)
+from ._arrays import (
+    ArrayResult,
+    as_design,
+    as_vector,
+    check_int,
+    check_names,
+    constant_columns,
+    has_constant,
+    readonly,
+    scaled,
+)
 from .correlogram import sample_acf
 from .results import TestResult, check_alternative, tail_pvalue
 from .tall import column_tops, r_factor, solve_r
 
 __all__ = [
-    "BreuschGodfreyResult", "PortmanteauResult", "DurbinHResult", "DurbinAlternativeResult",
-    "breusch_godfrey", "ljung_box", "durbin_h", "durbin_alternative", "seasonal_lag_test",
+    "BreuschGodfreyResult",
+    "PortmanteauResult",
+    "DurbinHResult",
+    "DurbinAlternativeResult",
+    "breusch_godfrey",
+    "ljung_box",
+    "durbin_h",
+    "durbin_alternative",
+    "seasonal_lag_test",
     "detect_lagged_response",
 ]
 
@@ -54,8 +71,9 @@ def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndar
 def _check_varies(e: np.ndarray) -> None:
     """A ValueError for residuals without variation: their correlations are 0/0."""
     if not np.any(e - e.mean()):
-        raise ValueError(f"'resid' must vary (got {e.shape[0]} equal values): the autocorrelations of a "
-                         "constant are undefined")
+        raise ValueError(
+            f"'resid' must vary (got {e.shape[0]} equal values): the autocorrelations of a constant are undefined"
+        )
 
 
 def _aux_rows(X, top, e, lags, *, start=0, constant=False):
@@ -154,8 +172,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     k_aux = X.shape[1] + int(constant) + order
     if n <= k_aux:
         raise ValueError(
-            f"'max_lag' is too large for n={n}: need n > {k_aux - order} regressors + max_lag "
-            f"(got {order})"
+            f"'max_lag' is too large for n={n}: need n > {k_aux - order} regressors + max_lag (got {order})"
         )
     lags = range(1, order + 1)
     block = _aux_rows(X, top, e, lags, constant=constant)
@@ -167,7 +184,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
         dev = e - e.mean()
         lm = float(n * (1.0 - rss / float(dev @ dev)))
         df_denom = float(n - k_aux)
-        gain = float(coef[k_aux - order:] @ coef[k_aux - order:])
+        gain = float(coef[k_aux - order :] @ coef[k_aux - order :])
         if rss <= 1e-13 * float(e @ e):  # the lags and the design explain the residuals exactly
             f_stat, f_p = math.inf, 0.0
         else:
@@ -236,8 +253,9 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
         raw = list(np.asarray(max_lag).ravel())
         if not raw:
             raise ValueError("'max_lag' must be an integer ≥ 1 or a non-empty sequence of them (got [])")
-        lag_arr = np.array(sorted({check_int(v.item() if hasattr(v, "item") else v, "max_lag", minimum=1)
-                                   for v in raw}))
+        lag_arr = np.array(
+            sorted({check_int(v.item() if hasattr(v, "item") else v, "max_lag", minimum=1) for v in raw})
+        )
     if lag_arr.max() >= n:
         raise ValueError(f"'max_lag' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
     # Q_LB = n(n+2) sum r_k^2/(n-k), Q_BP = n sum r_k^2 (Ljung & Box 1978; Box & Pierce 1970)
@@ -248,10 +266,14 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
     lag_df = lag_arr - model_df
     with np.errstate(invalid="ignore"):
         dfs = np.where(lag_df > 0, lag_df, np.nan)
-        table = pd.DataFrame({
-            "lb_stat": lb_all[lag_arr - 1], "lb_pvalue": stats.chi2.sf(lb_all[lag_arr - 1], dfs),
-            "bp_stat": bp_all[lag_arr - 1], "bp_pvalue": stats.chi2.sf(bp_all[lag_arr - 1], dfs),
-        })
+        table = pd.DataFrame(
+            {
+                "lb_stat": lb_all[lag_arr - 1],
+                "lb_pvalue": stats.chi2.sf(lb_all[lag_arr - 1], dfs),
+                "bp_stat": bp_all[lag_arr - 1],
+                "bp_pvalue": stats.chi2.sf(bp_all[lag_arr - 1], dfs),
+            }
+        )
     notes = ["Residuals are demeaned before the autocorrelations are computed."]
     bad = lag_arr[lag_df <= 0]
     if bad.size:
@@ -299,8 +321,7 @@ def detect_lagged_response(exog, endog, names=None):
 
     def matches(j):
         tol = 1e-10 * scale
-        return (np.max(np.abs(X[1 : head + 1, j] - target[:head])) <= tol
-                and np.max(np.abs(X[1:, j] - target)) <= tol)
+        return np.max(np.abs(X[1 : head + 1, j] - target[:head])) <= tol and np.max(np.abs(X[1:, j] - target)) <= tol
 
     hits = [j for j in range(X.shape[1]) if not const[j] and matches(j)]
     if not hits:
@@ -335,9 +356,7 @@ def _ols_checked(y, X, top, e):
     scale = max(float(np.max(np.abs(y))), 1.0)
     gap = float(np.max(np.abs((y - X @ (sol.params / top)) - e)))
     if gap > 1e-6 * scale:
-        raise ValueError(
-            f"'resid' must be the OLS residuals of endog on exog (max difference {gap:.3g})"
-        )
+        raise ValueError(f"'resid' must be the OLS residuals of endog on exog (max difference {gap:.3g})")
     return sol
 
 
@@ -369,9 +388,7 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     if lag_column is None:
         lag_column = detect_lagged_response(X, y)
         if lag_column is None:
-            raise ValueError(
-                "'lag_column' must be given: no column of 'exog' equals 'endog' shifted by one (got None)"
-            )
+            raise ValueError("'lag_column' must be given: no column of 'exog' equals 'endog' shifted by one (got None)")
         notes.append(f"Lagged response found in column {lag_column}.")
     lag_column = check_int(lag_column, "lag_column", minimum=0)
     if lag_column >= k:
@@ -387,9 +404,7 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     nv = n * var_lag
     method = "normal; rho = 1 - d/2 from the Durbin-Watson d"
     if nv >= 1.0:
-        notes.append(
-            f"h is undefined because n*Var(b_lag) = {nv:.4g} >= 1; use durbin_alternative() instead."
-        )
+        notes.append(f"h is undefined because n*Var(b_lag) = {nv:.4g} >= 1; use durbin_alternative() instead.")
         h = pval = lower = upper = math.nan
     else:
         h = rho * math.sqrt(n / (1.0 - nv))
@@ -397,9 +412,20 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
         pval = _upper_means_positive(lower, upper, alternative)
     notes.append("Large-sample test: the normal reference is asymptotic.")
     return DurbinHResult(
-        statistic=float(h), pvalue=float(pval), alternative=alternative, df=None,
-        method=method, name="Durbin's h", notes=tuple(notes),
-        rho=rho, dw=d, var_lag=var_lag, lag_column=lag_column, n=n, lower_tail=lower, upper_tail=upper,
+        statistic=float(h),
+        pvalue=float(pval),
+        alternative=alternative,
+        df=None,
+        method=method,
+        name="Durbin's h",
+        notes=tuple(notes),
+        rho=rho,
+        dw=d,
+        var_lag=var_lag,
+        lag_column=lag_column,
+        n=n,
+        lower_tail=lower,
+        upper_tail=upper,
     )
 
 
@@ -427,9 +453,7 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
     n = e.shape[0]
     order = check_int(max_lag, "max_lag", minimum=1)
     if order > 1 and alternative != "two-sided":
-        raise ValueError(
-            f"'alternative' must be 'two-sided' when max_lag > 1 (got {alternative!r})"
-        )
+        raise ValueError(f"'alternative' must be 'two-sided' when max_lag > 1 (got {alternative!r})")
     e, _ = _unit(e)
     X, top = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
@@ -440,11 +464,11 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
         )
     # rows t = order .. n-1 of [X_t, e_{t-1}, ..., e_{t-order}, e_t], a block at a time
     lags = range(1, order + 1)
-    fit, _ = _aux_fit(m, _aux_rows(X, top, e, lags, start=order), k + order,
-                      _aux_precondition(X, top, e, lags, start=order))
+    fit, _ = _aux_fit(
+        m, _aux_rows(X, top, e, lags, start=order), k + order, _aux_precondition(X, top, e, lags, start=order)
+    )
     notes = (
-        f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; "
-        f"{m} rows used.",
+        f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; {m} rows used.",
         "Assumes resid are OLS residuals of the response on exog (which may include the "
         "lagged response), homoskedastic errors, and no constant added beyond those in exog.",
     )
@@ -453,16 +477,25 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
         df = float(fit.df_resid)
         lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
         return DurbinAlternativeResult(
-            statistic=t, pvalue=_upper_means_positive(lower, upper, alternative), alternative=alternative,
-            df=(df,), method="t-test of the e_{t-1} coefficient, Student t",
-            name="Durbin's alternative", notes=notes, lower_tail=lower, upper_tail=upper,
+            statistic=t,
+            pvalue=_upper_means_positive(lower, upper, alternative),
+            alternative=alternative,
+            df=(df,),
+            method="t-test of the e_{t-1} coefficient, Student t",
+            name="Durbin's alternative",
+            notes=notes,
+            lower_tail=lower,
+            upper_tail=upper,
         )
     f_stat = _wald_f(fit, np.arange(k, k + order))
     return TestResult(
-        statistic=f_stat, pvalue=float(stats.f.sf(f_stat, order, fit.df_resid)),
-        alternative="two-sided", df=(float(order), float(fit.df_resid)),
+        statistic=f_stat,
+        pvalue=float(stats.f.sf(f_stat, order, fit.df_resid)),
+        alternative="two-sided",
+        df=(float(order), float(fit.df_resid)),
         method=f"F-test of the {order} lagged-residual coefficients",
-        name="Durbin's alternative", notes=notes,
+        name="Durbin's alternative",
+        notes=notes,
     )
 
 
@@ -485,21 +518,31 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
     k = X.shape[1]
     m = n - period
     if m <= k + 2:
-        raise ValueError(f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 "
-                         f"(got period={period})")
+        raise ValueError(
+            f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 (got period={period})"
+        )
     # rows t = s .. n-1 of [X_t, e_{t-1}, e_{t-s}, e_t], a block at a time
-    fit, _ = _aux_fit(m, _aux_rows(X, top, e, (1, period), start=period), k + 2,
-                      _aux_precondition(X, top, e, (1, period), start=period))
+    fit, _ = _aux_fit(
+        m,
+        _aux_rows(X, top, e, (1, period), start=period),
+        k + 2,
+        _aux_precondition(X, top, e, (1, period), start=period),
+    )
     t = float(fit.params[-1] / fit.bse[-1])
     df = float(fit.df_resid)
     lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
     notes = (
-        f"The first {period} observations are dropped (their lag-{period} residuals are pre-sample); "
-        f"{m} rows used.",
+        f"The first {period} observations are dropped (their lag-{period} residuals are pre-sample); {m} rows used.",
         "Large-sample test; assumes homoskedastic errors and resid the OLS residuals of exog.",
     )
     return DurbinAlternativeResult(
-        statistic=t, pvalue=_upper_means_positive(lower, upper, alternative), alternative=alternative,
-        df=(df,), method=f"t-test of the e_(t-{period}) coefficient given e_(t-1), Student t",
-        name=f"Lag {period} given lag 1", notes=notes, lower_tail=lower, upper_tail=upper,
+        statistic=t,
+        pvalue=_upper_means_positive(lower, upper, alternative),
+        alternative=alternative,
+        df=(df,),
+        method=f"t-test of the e_(t-{period}) coefficient given e_(t-1), Student t",
+        name=f"Lag {period} given lag 1",
+        notes=notes,
+        lower_tail=lower,
+        upper_tail=upper,
     )

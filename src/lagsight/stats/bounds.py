@@ -4,6 +4,7 @@ The bounding statistics (Durbin & Watson 1950, 1951; Farebrother 1980 without a
 constant) are ratios of forms in the eigenvalues of the first-difference
 matrix, so their quantiles come from the same spectral engine as the exact test.
 """
+
 from __future__ import annotations
 
 import math

@@ -4,6 +4,7 @@ Memory stays linear in n: :func:`sample_acf` takes the lagged products directly
 (statsmodels' FFT route only for many lags of a long series) and the PACF is the
 Yule-Walker ('ywadjusted') solution built from the same autocorrelations.
 """
+
 from __future__ import annotations
 
 import dataclasses
@@ -69,22 +70,25 @@ class Correlogram:
     alpha: float
     pacf_method: str = PACF_METHOD
 
-    def at_alpha(self, alpha: float) -> "Correlogram":
+    def at_alpha(self, alpha: float) -> Correlogram:
         """The same correlogram with both bands at level ``alpha`` (they scale with z_{1-alpha/2})."""
         alpha = check_alpha(alpha)
         if alpha == self.alpha:
             return self
         factor = stats.norm.ppf(1 - alpha / 2) / stats.norm.ppf(1 - self.alpha / 2)
-        return dataclasses.replace(self, white_band=self.white_band * factor,
-                                   bartlett_band=readonly(self.bartlett_band * factor), alpha=alpha)
+        return dataclasses.replace(
+            self, white_band=self.white_band * factor, bartlett_band=readonly(self.bartlett_band * factor), alpha=alpha
+        )
 
     def outside_white_band(self) -> np.ndarray:
         """Lags whose autocorrelation lies outside +/- ``white_band``."""
         return self.lags[np.abs(self.acf) > self.white_band]
 
     def __str__(self) -> str:
-        lines = [f"Correlogram (n={self.n}, alpha={self.alpha:g}, white band +/-{self.white_band:.4f})",
-                 f"  {'lag':>4} {'acf':>9} {'pacf':>9} {'bartlett':>9}"]
+        lines = [
+            f"Correlogram (n={self.n}, alpha={self.alpha:g}, white band +/-{self.white_band:.4f})",
+            f"  {'lag':>4} {'acf':>9} {'pacf':>9} {'bartlett':>9}",
+        ]
         for h, a, p, b in zip(self.lags, self.acf, self.pacf, self.bartlett_band):
             flag = " *" if abs(a) > self.white_band else ""
             lines.append(f"  {h:>4d} {a:>9.4f} {p:>9.4f} {b:>9.4f}{flag}")
@@ -138,8 +142,13 @@ def correlogram(resid, *, max_lag: int, alpha: float = 0.05) -> Correlogram:
     cum = np.concatenate(([0.0], np.cumsum(r[:-1] ** 2)))  # sum_{j=1}^{h-1} r_j^2
     bartlett = z * np.sqrt((1.0 + 2.0 * cum) / n)
     return Correlogram(
-        lags=readonly(np.arange(1, nlags + 1)), acf=readonly(r), pacf=readonly(p), white_band=z / np.sqrt(n),
-        bartlett_band=readonly(bartlett), n=n, alpha=alpha,
+        lags=readonly(np.arange(1, nlags + 1)),
+        acf=readonly(r),
+        pacf=readonly(p),
+        white_band=z / np.sqrt(n),
+        bartlett_band=readonly(bartlett),
+        n=n,
+        alpha=alpha,
     )
 
 

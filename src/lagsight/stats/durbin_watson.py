@@ -6,6 +6,7 @@ probability that a quadratic form in normal variables is non-positive; the
 matrix of the numerator is diagonalised by a DCT-II basis (one per interleaved
 chain for s > 1), which is what makes the exact computation linear in n.
 """
+
 from __future__ import annotations
 
 import math
@@ -15,8 +16,18 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import fft
 
-from ._arrays import (as_design, as_vector, check_alpha, check_int, check_optional_int, has_constant, k_prime, scaled,
-                      unit_columns, unit_scale)
+from ._arrays import (
+    as_design,
+    as_vector,
+    check_alpha,
+    check_int,
+    check_optional_int,
+    has_constant,
+    k_prime,
+    scaled,
+    unit_columns,
+    unit_scale,
+)
 from .bounds import BOUNDS_MAX_N, BoundsResult, dw_bounds
 from .quadform import SpectralForm
 from .results import TestResult, check_alternative, tail_pvalue
@@ -54,8 +65,6 @@ def _check_lag(lag, n: int) -> int:
     if lag >= n:
         raise ValueError(f"'lag' must be smaller than the number of residuals {n} (got {lag})")
     return int(lag)
-
-
 
 
 # ----------------------------------------------------------------------------
@@ -168,17 +177,14 @@ class DurbinWatsonDistribution:
             Wt, rank, self._basis_map = _orthonormal_basis(X, None if single else np.concatenate(chains))
             if rank < X.shape[1]:
                 self.notes.append(
-                    f"the design has rank {rank} < {X.shape[1]} columns; "
-                    "it was reduced to its column space"
+                    f"the design has rank {rank} < {X.shape[1]} columns; it was reduced to its column space"
                 )
         else:
             Wt, rank = None, 0
         self.rank = rank
         self.has_constant = has_constant(X)
         if n - rank < 2:
-            raise ValueError(
-                f"need more residuals than the design's rank + 1 (n = {n}, rank = {rank})"
-            )
+            raise ValueError(f"need more residuals than the design's rank + 1 (n = {n}, rank = {rank})")
         Wt = self._chain_dct(Wt, overwrite=True) if rank else None
         self.form = SpectralForm(nu, Wt)
         self.df = n - rank
@@ -318,8 +324,12 @@ class DurbinWatsonDistribution:
                 lower = float(self._body(np.array([d]))[0])
                 upper = 1.0 - lower
             why = str(err).splitlines()[0]
-            return (lower, upper, f"Imhof inversion, 1e-12 absolute only (the relative-accuracy tail failed: {why})",
-                    (_log(lower), _log(upper)))
+            return (
+                lower,
+                upper,
+                f"Imhof inversion, 1e-12 absolute only (the relative-accuracy tail failed: {why})",
+                (_log(lower), _log(upper)),
+            )
         small, large = res.value, 1.0 - res.value
         logs = [math.log1p(-small), math.log1p(-small)]
         logs[side] = res.log_value
@@ -385,9 +395,14 @@ class DurbinWatsonResult(TestResult):
         p = "not available" if math.isnan(self.pvalue) else f"{self.pvalue:.4g}"
         lines = [
             f"{self.name} test (alternative: {self.alternative} autocorrelation)"
-            if self.alternative != "two-sided" else f"{self.name} test (two-sided)",
+            if self.alternative != "two-sided"
+            else f"{self.name} test (two-sided)",
             f"  d = {self.statistic:.4f}   n = {self.n}"
-            + ("" if self.k_prime is None else f"   k' = {self.k_prime}" + (" (assumed)" if self.k_prime_assumed else "")),
+            + (
+                ""
+                if self.k_prime is None
+                else f"   k' = {self.k_prime}" + (" (assumed)" if self.k_prime_assumed else "")
+            ),
             f"  p-value {p}   method: {self.method}",
         ]
         if not math.isnan(self.null_mean):
@@ -442,8 +457,10 @@ def durbin_watson(
     notes: list[str] = []
     kp = 1 if k_given is None else k_given
     if k_given is None:
-        notes.append("no design given: k' = 1 was assumed for the bounds (one regressor besides a constant); "
-                     "give the design for an exact p-value")
+        notes.append(
+            "no design given: k' = 1 was assumed for the bounds (one regressor besides a constant); "
+            "give the design for an exact p-value"
+        )
     else:
         notes.append("no design given: no exact p-value, only the bounds dL and dU")
     bounds = None
@@ -454,10 +471,22 @@ def durbin_watson(
     elif lag != 1:
         notes.append(f"bounds are tabulated for lag 1 only; the order-{lag} statistic needs the design")
     return DurbinWatsonResult(
-        statistic=d, pvalue=float("nan"), alternative=alternative, df=None,
-        method="bounds only", name=_name(lag), notes=tuple(notes),
-        numerator=num, denominator=den, n=n, rank=None, k_prime=kp, k_prime_assumed=k_given is None,
-        lag=lag, bounds=bounds, bounds_decision=decision,
+        statistic=d,
+        pvalue=float("nan"),
+        alternative=alternative,
+        df=None,
+        method="bounds only",
+        name=_name(lag),
+        notes=tuple(notes),
+        numerator=num,
+        denominator=den,
+        n=n,
+        rank=None,
+        k_prime=kp,
+        k_prime_assumed=k_given is None,
+        lag=lag,
+        bounds=bounds,
+        bounds_decision=decision,
     )
 
 
@@ -492,12 +521,27 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
         else:
             notes.append(f"bounds dL/dU not computed for n > {BOUNDS_MAX_N}; the exact p-value replaces them")
     result = DurbinWatsonResult(
-        statistic=d, pvalue=pvalue, alternative=alternative, df=(n, dist.rank),
-        method=method, name=_name(lag), notes=tuple(notes),
-        numerator=num, denominator=den, n=n, rank=dist.rank, k_prime=kp, lag=lag,
-        null_mean=dist.mean, null_var=dist.var, lower_tail=lower, upper_tail=upper,
-        log_lower_tail=log_lower, log_upper_tail=log_upper,
-        bounds=bounds, bounds_decision=decision,
+        statistic=d,
+        pvalue=pvalue,
+        alternative=alternative,
+        df=(n, dist.rank),
+        method=method,
+        name=_name(lag),
+        notes=tuple(notes),
+        numerator=num,
+        denominator=den,
+        n=n,
+        rank=dist.rank,
+        k_prime=kp,
+        lag=lag,
+        null_mean=dist.mean,
+        null_var=dist.var,
+        lower_tail=lower,
+        upper_tail=upper,
+        log_lower_tail=log_lower,
+        log_upper_tail=log_upper,
+        bounds=bounds,
+        bounds_decision=decision,
     )
     return result, dist
 

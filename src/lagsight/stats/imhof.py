@@ -6,6 +6,7 @@ decaying cases (three terms, say) stay exact.  The Durbin-Watson engine with
 thousands to millions of weights is :class:`lagsight.stats.quadform.SpectralForm`;
 this function is its independent check and the general tool.
 """
+
 from __future__ import annotations
 
 import math
@@ -51,13 +52,16 @@ def imhof_cdf(weights, x: float = 0.0, *, df=1, nc=0.0) -> float:
     # the head of the integral in geometric panels between the scales 1/|w_j|
     u_small = 0.05 / np.max(np.abs(lam))
     split = 50.0 / np.min(np.abs(lam))
-    edges = np.concatenate([[0.0], np.geomspace(u_small, split, max(2, int(np.log(split / u_small) / np.log(4.0)) + 2))])
+    edges = np.concatenate(
+        [[0.0], np.geomspace(u_small, split, max(2, int(np.log(split / u_small) / np.log(4.0)) + 2))]
+    )
     head = 0.0
     for a, b in zip(edges[:-1], edges[1:]):
         head += integrate.quad(integrand, a, b, limit=200, epsabs=1e-14, epsrel=1e-12)[0]
     if x == 0.0:
         tail, _ = integrate.quad(integrand, split, np.inf, limit=2000, epsabs=1e-13, epsrel=1e-13)
     else:
+
         def amp_sin(u):
             beta, log_rho = beta_rho(u)
             return 0.0 if log_rho > 700.0 else math.sin(beta) / (u * math.exp(log_rho))

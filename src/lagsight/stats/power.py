@@ -8,11 +8,12 @@ for this design.  The same innovations eps are reused for every rho (common
 random numbers), so the curve is smooth and differences along it are precise.
 Work is done in chunks of series so memory stays bounded for any n.
 """
+
 from __future__ import annotations
 
 import math
-import numbers
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from scipy import signal
@@ -81,7 +82,7 @@ class PowerCurve:
     lag: int = 1
 
     def _rule(self) -> str:
-        cv = self.critical_value
+        cv: Any = self.critical_value
         if self.alternative == "two-sided":
             return f"reject when d <= {cv[0]:.4f} or d >= {cv[1]:.4f}"
         return f"reject when d {'<=' if self.alternative == 'positive' else '>='} {cv:.4f}"
@@ -94,7 +95,7 @@ class PowerCurve:
             f"  n = {self.n}   rank = {self.rank}   {self._rule()} (exact critical value)",
             f"  {'rho':>7}  {'power':>7}  {'se':>7}",
         ]
-        rows = list(range(self.rhos.size))
+        rows: list[int | None] = list(range(self.rhos.size))
         if len(rows) > 25:
             rows = rows[:10] + [None] + rows[-10:]
         for i in rows:
@@ -203,11 +204,15 @@ def _min_detectable(r: np.ndarray, p: np.ndarray, alternative: str) -> float:
 # ----------------------------------------------------------------------------
 # public function
 # ----------------------------------------------------------------------------
+#: the AR(1) coefficients of the default power curve
+DEFAULT_RHOS = tuple(np.linspace(0.0, 0.9, 10))
+
+
 def dw_power(
     exog,
     *,
     alpha: float = 0.05,
-    rhos=np.linspace(0.0, 0.9, 10),
+    rhos=DEFAULT_RHOS,
     alternative: str = "positive",
     n_sim: int = 2000,
     seed: int = 12345,
@@ -248,7 +253,7 @@ def dw_power(
     n, k, lag = dist.n, dist.rank, dist.lag
     notes = list(dist.notes)
     if alternative == "positive":
-        crit = dist.ppf(alpha)
+        crit: float | tuple[float, float] = dist.ppf(alpha)
     elif alternative == "negative":
         crit = dist.ppf(1.0 - alpha)
     else:
@@ -296,8 +301,18 @@ def dw_power(
         "critical value (the same innovations for every rho)"
     )
     return PowerCurve(
-        rhos=_readonly(r), power=_readonly(power), se=_readonly(se),
+        rhos=_readonly(r),
+        power=_readonly(power),
+        se=_readonly(se),
         critical_value=crit if isinstance(crit, tuple) else float(crit),
-        alpha=alpha, n=n, rank=k, n_sim=n_sim, seed=seed, method=method,
-        min_detectable_rho=mdr, notes=tuple(notes), alternative=alternative, lag=lag,
+        alpha=alpha,
+        n=n,
+        rank=k,
+        n_sim=n_sim,
+        seed=seed,
+        method=method,
+        min_detectable_rho=mdr,
+        notes=tuple(notes),
+        alternative=alternative,
+        lag=lag,
     )

@@ -22,6 +22,7 @@ probabilities too small for that absolute accuracy are computed with relative
 accuracy by :mod:`lagsight.stats.tails` (the same integral on a contour through
 the saddle point of the moment generating function).
 """
+
 from __future__ import annotations
 
 import math
@@ -33,11 +34,11 @@ from .tall import map_blocks
 
 __all__ = ["SpectralForm"]
 
-_TOL = 1e-12          # target for successive trapezoid sums (absolute, on the integral)
-_DIRECT_BLOCK = 2_000_000   # complex entries per block in the direct path
-_EVAL_BLOCK = 20_000        # multipliers per evaluation block (bounds memory)
-_WW_CACHE_MAX = 4_000_000   # entries of the N x k^2 product matrix kept between evaluations (32 MB)
-_CHEB_MIN_N = 300    # below this the direct path is always used
+_TOL = 1e-12  # target for successive trapezoid sums (absolute, on the integral)
+_DIRECT_BLOCK = 2_000_000  # complex entries per block in the direct path
+_EVAL_BLOCK = 20_000  # multipliers per evaluation block (bounds memory)
+_WW_CACHE_MAX = 4_000_000  # entries of the N x k^2 product matrix kept between evaluations (32 MB)
+_CHEB_MIN_N = 300  # below this the direct path is always used
 _CHEB_MAX_DEGREE = 600
 
 
@@ -233,11 +234,11 @@ class SpectralForm:
         c = np.broadcast_to(np.asarray(c, dtype=float).ravel(), z.shape)
         nats = np.broadcast_to(np.asarray(nats, dtype=float).ravel(), z.shape)
         if z.size > _EVAL_BLOCK:
-            parts = [self.evaluate(z[s : s + _EVAL_BLOCK], c[s : s + _EVAL_BLOCK], trace,
-                                   nats[s : s + _EVAL_BLOCK])
-                     for s in range(0, z.size, _EVAL_BLOCK)]
-            return (np.concatenate([p[0] for p in parts]),
-                    np.concatenate([p[1] for p in parts]) if trace else None)
+            parts = [
+                self.evaluate(z[s : s + _EVAL_BLOCK], c[s : s + _EVAL_BLOCK], trace, nats[s : s + _EVAL_BLOCK])
+                for s in range(0, z.size, _EVAL_BLOCK)
+            ]
+            return (np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts]) if trace else None)
         logdet = np.empty(z.shape, complex)
         tr = np.empty(z.shape, complex) if trace else None
         use_cheb = np.zeros(z.shape, bool)
@@ -257,7 +258,7 @@ class SpectralForm:
             else:
                 ld, t = self._eval_direct(z[idx], c[idx], trace)
             logdet[idx] = ld
-            if trace:
+            if tr is not None:
                 tr[idx] = t
         return logdet, tr
 
@@ -324,8 +325,9 @@ class SpectralForm:
                     if trace:
                         G2 = G * G
                         K2 = K2 + (G2.real @ WW + 1j * (G2.imag @ WW))
-            ld, tr = self._finish(zz, L, None if W is None else H, None if W is None else K2,
-                                  T1 if trace else None, cc, trace)
+            ld, tr = self._finish(
+                zz, L, None if W is None else H, None if W is None else K2, T1 if trace else None, cc, trace
+            )
             out_ld.append(ld)
             out_tr.append(tr)
         return np.concatenate(out_ld), (np.concatenate(out_tr) if trace else None)
@@ -385,8 +387,7 @@ class SpectralForm:
         p1, p2 = sums[:, 0], sums[:, 1]
         t_lo = float(np.min(1e-5 / np.sqrt(2.0 * p2 + p1 * p1)))
         # first guess from log|phi(t)| ~ -t^2 p2 (small t); doubled until the bound holds
-        t_hi = float(np.max(self._upper_limits(c, np.maximum(1.0 / np.sqrt(2.0 * p2),
-                                                              1.15 * np.sqrt(36.0 / p2)))))
+        t_hi = float(np.max(self._upper_limits(c, np.maximum(1.0 / np.sqrt(2.0 * p2), 1.15 * np.sqrt(36.0 / p2)))))
         v_lo, v_hi = math.log(t_lo), math.log(t_hi)
 
         def f(v):

@@ -7,26 +7,43 @@ is solved from the R factor of [X, y] read in row blocks (:mod:`lagsight.stats.t
 the numbers of statsmodels' OLS: pseudo-inverse, rank, degrees of freedom), and
 the Newey-West middle matrix comes from moving sums of x_t u_t, a block at a time.
 """
+
 from __future__ import annotations
 
 import dataclasses
-
-from dataclasses import dataclass
 import math
 import numbers
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 from scipy import stats
 
-from ._arrays import (as_design, as_vector, check_alpha, check_choice, check_int,
-                      check_names, check_rank_of_r, constant_columns, readonly)
-from .tall import (LagProducts, Solution, column_tops, gram_of, map_blocks, r_factor, row_blocks,
-                   solve_r, stacked)
+from ._arrays import (
+    as_design,
+    as_vector,
+    check_alpha,
+    check_choice,
+    check_int,
+    check_names,
+    check_rank_of_r,
+    constant_columns,
+    readonly,
+)
+from .tall import LagProducts, Solution, column_tops, gram_of, map_blocks, r_factor, row_blocks, solve_r, stacked
 
 __all__ = [
-    "HacLag", "NeweyWestResult", "FGLSResult", "RhoOutOfRangeError", "InferenceComparison",
-    "HAC_RULES", "hac_lag", "newey_west", "prais_winsten", "cochrane_orcutt", "compare_inference",
+    "HacLag",
+    "NeweyWestResult",
+    "FGLSResult",
+    "RhoOutOfRangeError",
+    "InferenceComparison",
+    "HAC_RULES",
+    "hac_lag",
+    "newey_west",
+    "prais_winsten",
+    "cochrane_orcutt",
+    "compare_inference",
 ]
 
 HAC_RULES = ("newey-west-1994", "common")
@@ -78,8 +95,13 @@ def hac_lag(n: int, *, lag_rule: str = "newey-west-1994", resid=None, exog=None)
     rule = check_choice(lag_rule, "lag_rule", HAC_RULES)
     if rule == "common":
         bw = _common_lag(n)
-        return HacLag(lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
-                      notes=("floor(4 (n/100)^(2/9)): a common-practice rule of thumb.",))
+        return HacLag(
+            lag_rule=rule,
+            lag=min(int(math.floor(bw)), n - 1),
+            n=n,
+            bandwidth=bw,
+            notes=("floor(4 (n/100)^(2/9)): a common-practice rule of thumb.",),
+        )
     if resid is None:
         raise ValueError("'resid' must be given for rule 'newey-west-1994' (got None)")
     e = as_vector(resid, "resid")
@@ -91,6 +113,7 @@ def hac_lag(n: int, *, lag_rule: str = "newey-west-1994", resid=None, exog=None)
 def _lagged_sums(n: int, values, m: int) -> np.ndarray:
     """[sum_{t >= j} h_t h_{t-j} for j = 0..m], with h read a block of rows at a time by
     ``values(a, b)`` (rows a..b-1), so no n-vector is formed."""
+
     def one(a, b):
         lo = max(a - m, 0)
         H = values(lo, b)
@@ -125,14 +148,14 @@ def _plugin_lag(n: int, resid, X: np.ndarray | None) -> HacLag:
     if not s0 > 0:
         bw = _common_lag(n)
         notes.append("Plug-in failed (s0 <= 0); fell back to the common rule.")
-        return HacLag(lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw,
-                      pilot_lag=m, notes=tuple(notes))
+        return HacLag(
+            lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw, pilot_lag=m, notes=tuple(notes)
+        )
     gamma = 1.1447 * ((s1 / s0) ** 2) ** (1.0 / 3.0)
     bw = gamma * n ** (1.0 / 3.0)
     lag = min(int(math.floor(bw)), n - 1)
     notes.append(f"Newey-West (1994) plug-in with pilot lag {m}, Bartlett kernel.")
-    return HacLag(lag_rule=rule, lag=lag, n=n, bandwidth=float(bw), pilot_lag=m,
-                  gamma=float(gamma), notes=tuple(notes))
+    return HacLag(lag_rule=rule, lag=lag, n=n, bandwidth=float(bw), pilot_lag=m, gamma=float(gamma), notes=tuple(notes))
 
 
 # ---------------------------------------------------------------- Newey-West
@@ -155,8 +178,9 @@ class NeweyWestResult:
     notes: tuple = ()
 
     def to_frame(self) -> pd.DataFrame:
-        return pd.DataFrame({"coef": self.params, "se": self.bse, "t": self.tvalues,
-                             "pvalue": self.pvalues}, index=list(self.names))
+        return pd.DataFrame(
+            {"coef": self.params, "se": self.bse, "t": self.tvalues, "pvalue": self.pvalues}, index=list(self.names)
+        )
 
 
 @dataclass(frozen=True, eq=False)
@@ -233,7 +257,7 @@ def _hac_middle(X: np.ndarray, resid, lag: int) -> np.ndarray:
     n, k = X.shape
     width = lag + 1
 
-    def one(a, b):            # windows [m, m + lag] for m = a - lag .. b - lag - 1
+    def one(a, b):  # windows [m, m + lag] for m = a - lag .. b - lag - 1
         m0, m1 = a - lag, b - lag
         r0, r1 = max(m0, 0), min(m1 + lag, n)
         c = np.zeros((r1 - r0 + 1, k))
@@ -245,8 +269,16 @@ def _hac_middle(X: np.ndarray, resid, lag: int) -> np.ndarray:
     return sum(map_blocks(n + lag, one, rows=max(4 * width, 1 << 15)), np.zeros((k, k))) / width
 
 
-def newey_west(endog, exog, *, max_lag: int | None = None, lag_rule: str = "newey-west-1994",
-               use_correction: bool = False, use_t: bool = True, names=None) -> NeweyWestResult:
+def newey_west(
+    endog,
+    exog,
+    *,
+    max_lag: int | None = None,
+    lag_rule: str = "newey-west-1994",
+    use_correction: bool = False,
+    use_t: bool = True,
+    names=None,
+) -> NeweyWestResult:
     """OLS with HAC (Newey-West, Bartlett kernel) standard errors, as statsmodels'
     ``OLS(...).fit(cov_type="HAC")`` computes them.
 
@@ -255,8 +287,7 @@ def newey_west(endog, exog, *, max_lag: int | None = None, lag_rule: str = "newe
     ``use_t`` gives Student-t p-values with n - k df instead of normal ones.
     """
     _, _, ols = _xy(endog, exog)
-    return _newey_west(ols, max_lag=max_lag, lag_rule=lag_rule, use_correction=use_correction,
-                       use_t=use_t, names=names)
+    return _newey_west(ols, max_lag=max_lag, lag_rule=lag_rule, use_correction=use_correction, use_t=use_t, names=names)
 
 
 def _newey_west(ols: _Fit, *, max_lag, lag_rule, use_correction, use_t, names) -> NeweyWestResult:
@@ -283,11 +314,19 @@ def _newey_west(ols: _Fit, *, max_lag, lag_rule, use_correction, use_t, names) -
     tvalues = params / bse
     df_resid = ols.sol.df_resid
     return NeweyWestResult(
-        params=readonly(params), bse=readonly(bse), tvalues=readonly(tvalues),
-        pvalues=readonly(_pvalues(tvalues, df_resid, bool(use_t))), names=labels, max_lag=lag, lag_rule=used_rule,
-        use_correction=bool(use_correction), use_t=bool(use_t), df_resid=float(df_resid),
-        n=n, method=f"HAC, Bartlett kernel, {lag} lags, "
-                       f"{'t' if use_t else 'normal'} p-values", notes=tuple(notes),
+        params=readonly(params),
+        bse=readonly(bse),
+        tvalues=readonly(tvalues),
+        pvalues=readonly(_pvalues(tvalues, df_resid, bool(use_t))),
+        names=labels,
+        max_lag=lag,
+        lag_rule=used_rule,
+        use_correction=bool(use_correction),
+        use_t=bool(use_t),
+        df_resid=float(df_resid),
+        n=n,
+        method=f"HAC, Bartlett kernel, {lag} lags, {'t' if use_t else 'normal'} p-values",
+        notes=tuple(notes),
     )
 
 
@@ -314,8 +353,7 @@ class FGLSResult:
     df_resid: float = math.nan
 
     def to_frame(self) -> pd.DataFrame:
-        return pd.DataFrame({"coef": self.params, "se": self.bse, "pvalue": self.pvalues},
-                            index=list(self.names))
+        return pd.DataFrame({"coef": self.params, "se": self.bse, "pvalue": self.pvalues}, index=list(self.names))
 
 
 class _ResidualMoments:
@@ -337,7 +375,7 @@ class _ResidualMoments:
         lp = ols.lags
         if lp is not None:
             self.G = 0.5 * (lp.gram + lp.gram.T)
-            self.C = 0.5 * (lp.lag1 + lp.lag1.T)   # only quadratic forms of it are needed
+            self.C = 0.5 * (lp.lag1 + lp.lag1.T)  # only quadratic forms of it are needed
             self.f, self.last = lp.first, lp.last
         self.lp = lp
 
@@ -412,9 +450,12 @@ class _ResidualMoments:
         n, k = self.ols.X.shape
         # the estimate (or the previous transformed rows' R factor) makes these rows nearly
         # orthonormal: one pass of products
-        self.R_prev = r_factor(n if keep_first else n - 1, k + 1,
-                               _ar1_rows(self.ols.X, self.ols.y, rho, keep_first),
-                               precondition=self.R_prev if estimate is None else estimate)
+        self.R_prev = r_factor(
+            n if keep_first else n - 1,
+            k + 1,
+            _ar1_rows(self.ols.X, self.ols.y, rho, keep_first),
+            precondition=self.R_prev if estimate is None else estimate,
+        )
         return self.R_prev
 
 
@@ -429,7 +470,7 @@ def _ar1_rows(X: np.ndarray, y: np.ndarray, rho: float, keep_first: bool):
         t0, t1 = a + off, b + off
         lo = max(t0, 1)
         B = np.empty((t1 - t0, k + 1))
-        body = B[lo - t0:]
+        body = B[lo - t0 :]
         np.multiply(X[lo - 1 : t1 - 1], rho, out=body[:, :k])
         np.subtract(X[lo:t1], body[:, :k], out=body[:, :k])
         np.multiply(y[lo - 1 : t1 - 1], rho, out=body[:, k])
@@ -445,8 +486,7 @@ def _ar1_rows(X: np.ndarray, y: np.ndarray, rho: float, keep_first: bool):
 
 def _fgls(endog, exog, *, keep_first, tol, maxiter, names, rho_method) -> FGLSResult:
     _, _, ols = _xy(endog, exog)
-    return _fgls_fit(ols, keep_first=keep_first, tol=tol, maxiter=maxiter, names=names,
-                     rho_method=rho_method)
+    return _fgls_fit(ols, keep_first=keep_first, tol=tol, maxiter=maxiter, names=names, rho_method=rho_method)
 
 
 def _fgls_fit(ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLSResult:
@@ -454,7 +494,10 @@ def _fgls_fit(ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLS
     labels = check_names(names, k)
     check_choice(rho_method, "rho_method", RHO_METHODS)
     maxiter = check_int(maxiter, "maxiter", minimum=1)
-    if isinstance(tol, bool) or not isinstance(tol, numbers.Real) or not tol > 0:
+    if isinstance(tol, bool) or not isinstance(tol, numbers.Real):
+        raise TypeError(f"'tol' must be a positive number (got {tol!r})")
+    tol = float(tol)
+    if not tol > 0:
         raise ValueError(f"'tol' must be a positive number (got {tol!r})")
     if n - (0 if keep_first else 1) <= k:
         raise ValueError(f"'endog' must have more than {k + 1} observations for AR(1) FGLS (got {n})")
@@ -483,29 +526,41 @@ def _fgls_fit(ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLS
     fit = solve_r(moments.transformed_r(rho, keep_first, rows=True), m)
     lag_ss, s2 = moments.lag_ss(fit.params), moments.quasi_ss(fit.params, rho) / (n - 2)
     name = "Prais-Winsten" if keep_first else "Cochrane-Orcutt"
-    how = ("rho = sum u_t u_{t-1} / sum u_{t-1}^2 (residual regression)" if rho_method == "regression"
-           else "rho = sum u_t u_{t-1} / sum u_t^2 (first-order autocorrelation)")
+    how = (
+        "rho = sum u_t u_{t-1} / sum u_{t-1}^2 (residual regression)"
+        if rho_method == "regression"
+        else "rho = sum u_t u_{t-1} / sum u_t^2 (first-order autocorrelation)"
+    )
     notes = ["rho_se is the OLS standard error of the slope of u_t on u_{t-1} from the final residuals."]
     if keep_first:
         notes.append("First observation kept, scaled by sqrt(1 - rho^2).")
     else:
         notes.append("First observation dropped (no previous value to quasi-difference with).")
     if outside is not None:
-        notes.append(f"rho reached {outside:.4f}, outside (-1, 1): the errors look non-stationary "
-                     "(a unit root or worse); consider differencing the data.")
+        notes.append(
+            f"rho reached {outside:.4f}, outside (-1, 1): the errors look non-stationary "
+            "(a unit root or worse); consider differencing the data."
+        )
     if not converged:
         notes.append(f"rho did not converge within {maxiter} iterations (tol {tol:g}).")
     bse = fit.bse
     return FGLSResult(
-        rho=float(rho), rho_se=math.sqrt(s2 / lag_ss), iterations=it, converged=converged,
-        params=readonly(fit.params), bse=readonly(bse), pvalues=readonly(_pvalues(fit.params / bse, fit.df_resid)),
-        names=labels, method=f"{name} iterated FGLS, AR(1); {how}; Student-t inference",
-        notes=tuple(notes), n=int(m), df_resid=float(fit.df_resid),
+        rho=float(rho),
+        rho_se=math.sqrt(s2 / lag_ss),
+        iterations=it,
+        converged=converged,
+        params=readonly(fit.params),
+        bse=readonly(bse),
+        pvalues=readonly(_pvalues(fit.params / bse, fit.df_resid)),
+        names=labels,
+        method=f"{name} iterated FGLS, AR(1); {how}; Student-t inference",
+        notes=tuple(notes),
+        n=int(m),
+        df_resid=float(fit.df_resid),
     )
 
 
-def prais_winsten(endog, exog, *, tol=1e-8, maxiter=100, names=None,
-                  rho_method="regression") -> FGLSResult:
+def prais_winsten(endog, exog, *, tol=1e-8, maxiter=100, names=None, rho_method="regression") -> FGLSResult:
     """Iterated Prais-Winsten FGLS for AR(1) errors (keeps the first observation).
 
     rho is re-estimated from the untransformed residuals y - X b until it
@@ -518,19 +573,16 @@ def prais_winsten(endog, exog, *, tol=1e-8, maxiter=100, names=None,
     RhoOutOfRangeError
         If an estimate of rho leaves (-1, 1): the first row cannot be scaled.
     """
-    return _fgls(endog, exog, keep_first=True, tol=tol, maxiter=maxiter, names=names,
-                 rho_method=rho_method)
+    return _fgls(endog, exog, keep_first=True, tol=tol, maxiter=maxiter, names=names, rho_method=rho_method)
 
 
-def cochrane_orcutt(endog, exog, *, tol=1e-8, maxiter=100, names=None,
-                    rho_method="regression") -> FGLSResult:
+def cochrane_orcutt(endog, exog, *, tol=1e-8, maxiter=100, names=None, rho_method="regression") -> FGLSResult:
     """Iterated Cochrane-Orcutt FGLS for AR(1) errors (drops the first observation).
 
     Same iteration as :func:`prais_winsten`; the regression uses n - 1 rows
     (n - 1 - k df).  A rho outside (-1, 1) is allowed and reported in ``notes``.
     """
-    return _fgls(endog, exog, keep_first=False, tol=tol, maxiter=maxiter, names=names,
-                 rho_method=rho_method)
+    return _fgls(endog, exog, keep_first=False, tol=tol, maxiter=maxiter, names=names, rho_method=rho_method)
 
 
 # ------------------------------------------------------------- side by side
@@ -551,15 +603,17 @@ class InferenceComparison:
     rho: float
     notes: tuple = ()
 
-    def at_alpha(self, alpha: float) -> "InferenceComparison":
+    def at_alpha(self, alpha: float) -> InferenceComparison:
         """The same comparison judged at another alpha (estimates do not depend on alpha)."""
         alpha = check_alpha(alpha)
         t = _flag_changes(self.table.copy(), alpha)
         return dataclasses.replace(self, table=t, alpha=alpha)
 
     def __str__(self) -> str:
-        return (f"OLS vs HAC ({self.hac_lag} lags) vs {self.fgls_method} (rho={self.rho:.4f}), "
-                f"alpha={self.alpha:g}\n{self.table.to_string()}")
+        return (
+            f"OLS vs HAC ({self.hac_lag} lags) vs {self.fgls_method} (rho={self.rho:.4f}), "
+            f"alpha={self.alpha:g}\n{self.table.to_string()}"
+        )
 
 
 def _flag_changes(t: pd.DataFrame, alpha: float) -> pd.DataFrame:
@@ -567,13 +621,16 @@ def _flag_changes(t: pd.DataFrame, alpha: float) -> pd.DataFrame:
     sig_ols = t["p_ols"] < alpha
     t["changed_hac"] = (t["p_hac"] < alpha) != sig_ols
     t["changed_fgls"] = (t["p_fgls"] < alpha) != sig_ols
-    t["changes"] = [", ".join(w for w, flag in (("HAC", a), ("FGLS", b)) if flag)
-                    for a, b in zip(t["changed_hac"], t["changed_fgls"])]
+    t["changes"] = [
+        ", ".join(w for w, flag in (("HAC", a), ("FGLS", b)) if flag)
+        for a, b in zip(t["changed_hac"], t["changed_fgls"])
+    ]
     return t
 
 
-def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule: str = "newey-west-1994",
-                      fgls="prais-winsten") -> InferenceComparison:
+def compare_inference(
+    endog, exog, *, names=None, alpha: float = 0.05, lag_rule: str = "newey-west-1994", fgls="prais-winsten"
+) -> InferenceComparison:
     """Coefficients, standard errors and p-values under OLS, HAC and AR(1) FGLS.
 
     HAC coefficients equal the OLS ones, so only their SE and p-value appear.
@@ -597,16 +654,30 @@ def compare_inference(endog, exog, *, names=None, alpha: float = 0.05, lag_rule:
         extra.append(f"Prais-Winsten was not possible ({err}); Cochrane-Orcutt used instead.")
     se_ols = ols.sol.bse
     p_ols = _pvalues(ols.sol.params / se_ols, ols.sol.df_resid)
-    t = pd.DataFrame({
-        "coef_ols": ols.sol.params, "se_ols": se_ols, "p_ols": p_ols,
-        "se_hac": hac.bse, "p_hac": hac.pvalues,
-        "coef_fgls": gls.params, "se_fgls": gls.bse, "p_fgls": gls.pvalues,
-    }, index=pd.Index(list(labels), name="term"))
+    t = pd.DataFrame(
+        {
+            "coef_ols": ols.sol.params,
+            "se_ols": se_ols,
+            "p_ols": p_ols,
+            "se_hac": hac.bse,
+            "p_hac": hac.pvalues,
+            "coef_fgls": gls.params,
+            "se_fgls": gls.bse,
+            "p_fgls": gls.pvalues,
+        },
+        index=pd.Index(list(labels), name="term"),
+    )
     if rescale:
         for col in ("coef_ols", "se_ols", "se_hac", "coef_fgls", "se_fgls"):
             t[col] = t[col].to_numpy() * (s_y / col_factor)
     t = _flag_changes(t, alpha)
     notes = (*extra, f"HAC: {hac.method}.", f"FGLS: {gls.method}.", *gls.notes)
-    return InferenceComparison(table=t, alpha=alpha, hac_lag=hac.max_lag, lag_rule=lag_rule,
-                               fgls_method="Prais-Winsten" if fgls == "prais-winsten" else "Cochrane-Orcutt",
-                               rho=gls.rho, notes=notes)
+    return InferenceComparison(
+        table=t,
+        alpha=alpha,
+        hac_lag=hac.max_lag,
+        lag_rule=lag_rule,
+        fgls_method="Prais-Winsten" if fgls == "prais-winsten" else "Cochrane-Orcutt",
+        rho=gls.rho,
+        notes=notes,
+    )

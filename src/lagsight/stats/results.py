@@ -4,12 +4,12 @@ Every test returns a frozen dataclass whose first fields are ``statistic`` and
 ``pvalue``; the alternative is stored on the result and :func:`tail_pvalue` is
 the one place that maps it to a tail.  Results print as readable text.
 """
+
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, fields
 from typing import Any
-
-import math
 
 ALTERNATIVES = ("positive", "negative", "two-sided")
 
@@ -18,8 +18,7 @@ def check_alternative(alternative: str) -> str:
     """Return ``alternative`` if it is one we know, else raise a ValueError."""
     if alternative not in ALTERNATIVES:
         raise ValueError(
-            f"'alternative' must be one of {', '.join(repr(a) for a in ALTERNATIVES)} "
-            f"(got {alternative!r})"
+            f"'alternative' must be one of {', '.join(repr(a) for a in ALTERNATIVES)} (got {alternative!r})"
         )
     return alternative
 

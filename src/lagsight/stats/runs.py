@@ -3,6 +3,7 @@
 Too few runs of one sign signals positive autocorrelation (lower tail); too many,
 negative.  Small samples use the exact runs distribution.
 """
+
 from __future__ import annotations
 
 import math
@@ -63,8 +64,9 @@ def runs_distribution(n1: int, n2: int) -> RunsDistribution:
     log_total = _log_comb(n1 + n2, n1)
     with np.errstate(invalid="ignore"):
         ev = np.log(2.0) + _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k - 1)
-        od = np.logaddexp(_log_comb(n1 - 1, k) + _log_comb(n2 - 1, k - 1),
-                          _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k))
+        od = np.logaddexp(
+            _log_comb(n1 - 1, k) + _log_comb(n2 - 1, k - 1), _log_comb(n1 - 1, k - 1) + _log_comb(n2 - 1, k)
+        )
     pmf = np.exp(np.where(even, ev, od) - log_total)
     return RunsDistribution(readonly(r), readonly(pmf))
 
@@ -86,13 +88,11 @@ def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
     n1 = int(signs.sum())
     n2 = int(signs.shape[0] - n1)
     if n1 == 0 or n2 == 0:
-        raise ValueError(
-            f"'resid' must have both positive and negative values (got {n1} positive, {n2} negative)"
-        )
+        raise ValueError(f"'resid' must have both positive and negative values (got {n1} positive, {n2} negative)")
     runs = int(1 + np.count_nonzero(signs[1:] != signs[:-1]))
     N = n1 + n2
     mean = 2.0 * n1 * n2 / N + 1.0
-    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - N) / (N ** 2 * (N - 1.0))
+    var = 2.0 * n1 * n2 * (2.0 * n1 * n2 - N) / (N**2 * (N - 1.0))
     z = (runs - mean) / math.sqrt(var) if var > 0 else math.nan
     use_exact = method == "exact" or (method == "auto" and min(n1, n2) <= 20) or var <= 0
     if use_exact:
@@ -108,8 +108,18 @@ def runs_test(resid, *, alternative="positive", method="auto") -> RunsResult:
     if dropped:
         notes.append(f"{dropped} zero residual(s) dropped: they have no sign.")
     return RunsResult(
-        statistic=float(z), pvalue=tail_pvalue(lower, upper, alternative),
-        alternative=alternative, df=None, method=how, name="Runs test",
-        notes=tuple(notes), runs=runs, expected_runs=mean,
-        n_positive=n1, n_negative=n2, zeros_dropped=dropped, lower_tail=lower, upper_tail=upper,
+        statistic=float(z),
+        pvalue=tail_pvalue(lower, upper, alternative),
+        alternative=alternative,
+        df=None,
+        method=how,
+        name="Runs test",
+        notes=tuple(notes),
+        runs=runs,
+        expected_runs=mean,
+        n_positive=n1,
+        n_negative=n2,
+        zeros_dropped=dropped,
+        lower_tail=lower,
+        upper_tail=upper,
     )

@@ -4,6 +4,7 @@ The matrix of sum_t (e_t - e_{t-s})^2 splits into s interleaved first-difference
 chains (and, for panels, never differences across a block boundary); each chain
 of length m is diagonalised by the DCT-II with eigenvalues 2 - 2 cos(pi j / m).
 """
+
 from __future__ import annotations
 
 import numpy as np

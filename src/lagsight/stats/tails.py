@@ -29,6 +29,7 @@ the contour the branch of log det Z is followed from y = 0 by its derivative.
 Memory stays O(nk); every evaluation is O(nk^2) or, through the Chebyshev
 moments of the engine, O(Mk^2).
 """
+
 from __future__ import annotations
 
 import math
@@ -38,15 +39,15 @@ import numpy as np
 
 __all__ = ["TailResult", "tail_probability"]
 
-_SMALL_D = 1e-3        # factors D_j below this are taken out through the bordered matrix
+_SMALL_D = 1e-3  # factors D_j below this are taken out through the bordered matrix
 _EPS = 2.220446049250313e-16
-_MAX_BAD = 400        # bordered matrices larger than this are not formed
-_EXPENSIVE = 2e7      # n k^2 above which per-point O(n k^2) evaluations are not repeated
-_CHEB_CAP = 600       # the engine's largest Chebyshev degree (quadform._CHEB_MAX_DEGREE)
-_BIG_SCALE = 1e6       # beyond |2 s| = this the real-axis and line evaluations are rescaled
-_REL_TOL = 1e-11       # relative change between trapezoid refinements at which we stop
+_MAX_BAD = 400  # bordered matrices larger than this are not formed
+_EXPENSIVE = 2e7  # n k^2 above which per-point O(n k^2) evaluations are not repeated
+_CHEB_CAP = 600  # the engine's largest Chebyshev degree (quadform._CHEB_MAX_DEGREE)
+_BIG_SCALE = 1e6  # beyond |2 s| = this the real-axis and line evaluations are rescaled
+_REL_TOL = 1e-11  # relative change between trapezoid refinements at which we stop
 _MAX_LEVELS = 9
-_BLOCK_COLS = 65536    # columns per block in the direct products (bounds memory)
+_BLOCK_COLS = 65536  # columns per block in the direct products (bounds memory)
 
 
 @dataclass(frozen=True)
@@ -56,7 +57,7 @@ class TailResult:
     value: float
     log_value: float
     method: str
-    error: float          # estimated relative error
+    error: float  # estimated relative error
     saddle: float = math.nan
 
 
@@ -104,7 +105,7 @@ class _Line:
             out += (Wb * g[s : s + _BLOCK_COLS]) @ Wb.T
         return out
 
-    def _bordered(self, Dt: np.ndarray, bad: np.ndarray) -> np.ndarray:
+    def _bordered(self, Dt: np.ndarray, bad: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         """Z = [[-diag(Dt_b), W_b], [W_b', sum_good w_j w_j' / Dt_j]]."""
         good = np.ones(Dt.size, bool)
         good[bad] = False
@@ -279,11 +280,11 @@ def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, s_edge: float, 
     Returns (s, L(s), L''(s)).  K is convex, so K' is increasing; lower tail: K'(0) = p1 > 0 and s* < 0.
     """
     sgn = -1.0 if lower else 1.0
-    s = -p1 / (2.0 * p2)                                        # Newton step from 0
+    s = -p1 / (2.0 * p2)  # Newton step from 0
     if abs(s) > 0.5 * abs(s_edge):
         s = 0.5 * s_edge
     s_start = s
-    near, far = 0.0, None     # K'(near) > 0 side (towards 0) and K'(far) < 0 side (or outside)
+    near, far = 0.0, None  # K'(near) > 0 side (towards 0) and K'(far) < 0 side (or outside)
     best = None
     checked = False
     for it in range(200):
@@ -296,9 +297,9 @@ def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, s_edge: float, 
         except _Underflow:
             raise _Underflow(best) from None
         if inside:
-            K1 = -0.5 * L1   # K'(s)
+            K1 = -0.5 * L1  # K'(s)
             best = (s, L, L2)
-            if (K1 > 0) == lower:      # s lies between 0 and s*: move outwards
+            if (K1 > 0) == lower:  # s lies between 0 and s*: move outwards
                 near = s
             else:
                 far = s
@@ -320,8 +321,11 @@ def _find_saddle(line: _Line, lower: bool, p1: float, p2: float, s_edge: float, 
             lo, hi = sorted((near, far))
             if not (math.isfinite(new) and lo < new < hi):
                 ratio = far / near if near != 0 else math.inf
-                new = (math.copysign(math.exp(0.5 * (math.log(abs(near)) + math.log(abs(far)))), far)
-                       if ratio > 4.0 else 0.5 * (near + far))
+                new = (
+                    math.copysign(math.exp(0.5 * (math.log(abs(near)) + math.log(abs(far)))), far)
+                    if ratio > 4.0
+                    else 0.5 * (near + far)
+                )
         if new == s or (far is not None and abs(far - near) <= 1e-15 * abs(s)):
             break
         s = new
@@ -348,7 +352,7 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
         raise ValueError(f"the {tail} tail at c = {c:g} is not the smaller one")
     line = _Line(form, c)
     s_edge = 1.0 / (2.0 * ((form.nu_min if lower else form.nu_max) - c))  # the smallest D_j vanishes there
-    probe = (1.0 - 4.0 * _SMALL_D) * s_edge   # every factor D_j >= 4 _SMALL_D there
+    probe = (1.0 - 4.0 * _SMALL_D) * s_edge  # every factor D_j >= 4 _SMALL_D there
 
     def outside_support() -> bool:
         # beyond the support's true end (which a design can move inside [nu_min, nu_max])
@@ -377,7 +381,7 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
         last = stop.args[0]
         if last is not None and -0.5 * last[1] < -745.2:
             return TailResult(0.0, math.nan, "exact (below the smallest positive double)", 0.0)
-        raise RuntimeError(f"tail inversion at c = {c!r} would need the bordered matrix on a long series")
+        raise RuntimeError(f"tail inversion at c = {c!r} would need the bordered matrix on a long series") from None
     K0 = -0.5 * L0
     K2 = -0.5 * L2
     bad = line.bad_set(s0)
@@ -393,8 +397,10 @@ def tail_probability(form, c: float, tail: str) -> TailResult:
     err = max(err, kappa)
     method = "exact (saddle-line inversion)"
     if err > 1e-6:
-        method = (f"exact (saddle-line inversion) to about {err:.0e} relative: the statistic lies so close "
-                  "to the end of its range that rounding in the data limits the digits")
+        method = (
+            f"exact (saddle-line inversion) to about {err:.0e} relative: the statistic lies so close "
+            "to the end of its range that rounding in the data limits the digits"
+        )
     return TailResult(math.exp(log_p) if log_p > -745.2 else 0.0, log_p, method, err, s0)
 
 
@@ -405,7 +411,7 @@ def _line_integral(line: _Line, s0: float, L0: float, a: float, bad: np.ndarray,
     Returns (J, relative error estimate).
     """
     unwrap = line.bordered(s0)
-    cols = {"u": [], "y": [], "ld": [], "ph": [], "dp": [], "g": []}
+    cols: dict[str, list] = {"u": [], "y": [], "ld": [], "ph": [], "dp": [], "g": []}
 
     def magnitude(y, ld):
         """|integrand| before the weight dy/du; it decreases in y."""

@@ -20,6 +20,7 @@ OLS does (pseudo-inverse through the singular values, cut off at 1e-15 of the la
 :func:`orthonormal_basis_t` writes Q' itself (the Durbin-Watson basis), once.  Blocks run one
 thread per core (:func:`map_blocks`).
 """
+
 from __future__ import annotations
 
 import contextlib
@@ -30,8 +31,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["ROWS", "GRAM_COND_LIMIT", "row_blocks", "column_tops", "r_factor", "solve_r", "Solution",
-           "stacked", "one_blas_thread", "orthonormal_basis_t", "gram_of", "LagProducts", "map_blocks", "cores"]
+__all__ = [
+    "ROWS",
+    "GRAM_COND_LIMIT",
+    "row_blocks",
+    "column_tops",
+    "r_factor",
+    "solve_r",
+    "Solution",
+    "stacked",
+    "one_blas_thread",
+    "orthonormal_basis_t",
+    "gram_of",
+    "LagProducts",
+    "map_blocks",
+    "cores",
+]
 
 #: rows per block: 32768 x 12 doubles is 3 MB
 ROWS = 1 << 15
@@ -110,8 +125,10 @@ def column_tops(X: np.ndarray) -> np.ndarray:
 
 def stacked(*parts) -> Block:
     """``block`` for the matrix whose columns are ``parts`` side by side (2-D arrays or 1-D vectors)."""
+
     def block(a, b):
         return np.column_stack([p[a:b] for p in parts])
+
     return block
 
 
@@ -134,13 +151,14 @@ def gram_of(*parts) -> np.ndarray:
                     g = (ci.T @ cj[:, 0])[:, None]
                 else:
                     g = ci.T @ cj
-                G[edges[i]:edges[i + 1], edges[j]:edges[j + 1]] = g
-                G[edges[j]:edges[j + 1], edges[i]:edges[i + 1]] = g.T
+                G[edges[i] : edges[i + 1], edges[j] : edges[j + 1]] = g
+                G[edges[j] : edges[j + 1], edges[i] : edges[i + 1]] = g.T
     return G
 
 
 def _gram(n, ncols, block, T=None):
     """sum over blocks of B'B, with B = block(a, b) @ T when T is given."""
+
     def one(a, b):
         B = block(a, b)
         if T is not None:
@@ -165,6 +183,7 @@ class LagProducts:
 def _second_pass(n, ncols, block, T, lags: bool):
     """The Gram matrix of the rows of block @ T and, with ``lags``, their lag-1 products and the
     first and last rows (one pass)."""
+
     def one(a, b):
         Y = block(a, b) @ T
         return Y.T @ Y, ((Y[1:].T @ Y[:-1], Y[0].copy(), Y[-1].copy()) if lags else None)
@@ -177,7 +196,7 @@ def _second_pass(n, ncols, block, T, lags: bool):
     for i, (_, (Cb, head, _)) in enumerate(parts):
         C += Cb
         if i:
-            C += np.outer(head, parts[i - 1][1][2])   # row a with row a - 1 of the previous block
+            C += np.outer(head, parts[i - 1][1][2])  # row a with row a - 1 of the previous block
     return G, (C, parts[0][1][1], parts[-1][1][2])
 
 
@@ -232,8 +251,15 @@ def _inverse(R: np.ndarray):
     return T if np.all(np.isfinite(T)) else None
 
 
-def r_factor(n: int, ncols: int, block: Block, *, precondition: np.ndarray | None = None,
-             gram: np.ndarray | None = None, lag_products: bool = False):
+def r_factor(
+    n: int,
+    ncols: int,
+    block: Block,
+    *,
+    precondition: np.ndarray | None = None,
+    gram: np.ndarray | None = None,
+    lag_products: bool = False,
+):
     """The R factor (upper triangular, non-negative diagonal) of the n x ncols matrix A read by
     ``block``; with ``lag_products`` also its :class:`LagProducts` (None when A is rank deficient).
 
@@ -242,8 +268,9 @@ def r_factor(n: int, ncols: int, block: Block, *, precondition: np.ndarray | Non
     products of whole arrays), in place of the first pass.  Values of extreme magnitude are
     scaled column by column (and R scaled back), so nothing overflows before R itself would.
     """
+
     def done(R, lp=None):
-        sign = np.where(np.diag(R) < 0, -1.0, 1.0)   # R -> S R and Q -> Q S keep A = QR
+        sign = np.where(np.diag(R) < 0, -1.0, 1.0)  # R -> S R and Q -> Q S keep A = QR
         R = R * sign[:, None]
         if lp is not None and np.any(sign < 0):
             S = np.outer(sign, sign)
@@ -343,6 +370,7 @@ def solve_r(R_full: np.ndarray, nobs: int, *, rcond: float = PINV_RCOND) -> Solu
 def _fill_rows(out: np.ndarray, n: int, rows_of, dest) -> np.ndarray:
     """out[:, dest[a:b]] = rows_of(a, b) (k x (b - a)) for every block; returns the Gram matrix
     of out's rows."""
+
     def one(a, b):
         Qb = rows_of(a, b)
         if dest is None:
@@ -405,7 +433,7 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int, np.
                 if np.max(np.abs(G2 - np.eye(k))) <= _ORTHONORMAL:
                     # a well-conditioned design: the first pass is orthonormal to rounding already
                     return out, k, T1 / top[None, :]
-                L2 = _reorthogonalise(out, G2)   # the second pass restores orthogonality to rounding
+                L2 = _reorthogonalise(out, G2)  # the second pass restores orthogonality to rounding
                 return out, k, (L2 @ T1) / top[None, :]
         R = _tsqr(n, k, rows)
         _, s, Vt = np.linalg.svd(R)
@@ -414,8 +442,7 @@ def orthonormal_basis_t(X: np.ndarray, order=None) -> tuple[np.ndarray, int, np.
         out = np.empty((rank, n))
         if rank == 0:
             return out, 0, np.zeros((0, k))
-        T = (Vt[:rank].T / s[:rank]).T     # rank x k: Q1' = T X'
+        T = (Vt[:rank].T / s[:rank]).T  # rank x k: Q1' = T X'
         La = _reorthogonalise(out, _fill_rows(out, n, lambda a, b: T @ rows(a, b).T, dest))
-        Lb = _reorthogonalise(out, sum(map_blocks(n, lambda a, b: out[:, a:b] @ out[:, a:b].T),
-                                       np.zeros((rank, rank))))
+        Lb = _reorthogonalise(out, sum(map_blocks(n, lambda a, b: out[:, a:b] @ out[:, a:b].T), np.zeros((rank, rank))))
     return out, rank, (Lb @ La @ T) / top[None, :]

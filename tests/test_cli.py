@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -215,3 +216,19 @@ def test_a_repeated_column_name_in_the_header_exits_two(tmp_path, capsys):
     assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(tmp_path / "r.html")]) == 2
     err = capsys.readouterr().err
     assert "more than one column named 'x'" in err and err.count("\n") == 1
+
+
+def test_every_x_item_names_a_column(tmp_path, capsys):
+    # an item is never dropped on the way: an empty one is an error, spaces around a name are read as the
+    # file has it (before, ',' items that were blank after stripping silently left the model)
+    frame = _frame()
+    frame["\x1e"] = np.random.default_rng(5).normal(size=len(frame))  # a name Python's strip() removes
+    path = tmp_path / "d.csv"
+    frame.to_csv(path, index=False)
+    out = str(tmp_path / "r.html")
+    assert main(["report", str(path), "--y", "y", "--x", "x,", "-o", out]) == 2
+    assert "empty column name" in capsys.readouterr().err
+    assert main(["report", str(path), "--y", "y", "--x", "x,\x1e", "-o", out]) in (0, 1)
+    assert "OLS of y on const + x + \x1e" in Path(out).read_text(encoding="utf-8")
+    assert main(["report", str(path), "--y", "y", "--x", " x ,\x1e", "-o", out]) in (0, 1)
+    capsys.readouterr()

@@ -448,10 +448,14 @@ def test_hostile_frames_through_the_magic(shell, case):
         ("undefined_name", "'undefined_name'"),
         ("e --X 1/0", "ZeroDivisionError"),
         ('e --y "y"', "--y"),
+        ('f --y y --X "x,"', "empty column name"),
+        ("f --y y --X nowhere", "'nowhere'"),
     ],
 )
 def test_bad_magic_lines_are_one_line_usage_errors(shell, line, says):
-    shell.user_ns["e"] = np.random.default_rng(0).normal(size=30)
+    rng = np.random.default_rng(0)
+    shell.user_ns["e"] = rng.normal(size=30)
+    shell.user_ns["f"] = pd.DataFrame({"y": rng.normal(size=30), "x": rng.normal(size=30)})
     with pytest.raises(UsageError) as err:
         shell.run_line_magic("lagsight", line)
     assert says in one_line(err.value)

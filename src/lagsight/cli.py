@@ -176,9 +176,13 @@ def _load(args) -> pd.DataFrame:
         raise _InputError(f"{path} has a header but no rows")
     if len(frame) < 3:
         raise _InputError(f"{path} has {len(frame)} row(s); at least 3 are needed")
-    predictors = [c.strip() for c in args.x.split(",") if c.strip()]
-    if not predictors:
-        raise _InputError("--x names no column")
+    from .inputs import typed_column, typed_columns
+
+    try:
+        predictors = typed_columns(args.x, frame.columns, "--x")
+    except ValueError as err:
+        raise _InputError(str(err)) from None
+    args.y = typed_column(args.y, frame.columns)
     needed = [args.y, *predictors] + [c for c in (args.time, args.group) if c]
     header = _header(path)
     repeated = sorted({c for c in needed if header.count(c) > 1})

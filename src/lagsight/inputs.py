@@ -58,6 +58,21 @@ def frame_column(frame: pd.DataFrame, column, arg: str) -> pd.Series:
     return col
 
 
+def typed_column(item: str, columns) -> str:
+    """A column name as typed on a command line: as it is, or without the spaces around it when only
+    that names a column (so ' x' finds 'x', and a column named ' x' is still found)."""
+    return item if item in columns or item.strip() not in columns else item.strip()
+
+
+def typed_columns(text: str, columns, option: str) -> list:
+    """Comma-separated column names typed for ``option`` (--x, --X): each item names a column, none is
+    dropped; an empty item is a one-line ValueError."""
+    names = [typed_column(item, columns) for item in text.split(",")]
+    if any(not name.strip() and name not in columns for name in names):
+        raise ValueError(f"{option} {text!r} holds an empty column name (name each column once, comma separated)")
+    return names
+
+
 def unlabelled(labels) -> np.ndarray:
     """Mask of the group labels that are missing (NaN, None, NaT); a ValueError when all are."""
     missing = np.asarray(pd.isna(pd.Series(labels, dtype=object)), dtype=bool)

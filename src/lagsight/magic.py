@@ -8,8 +8,6 @@ IPython shows as one line without a traceback.
 
 from __future__ import annotations
 
-import warnings
-
 from IPython.core.error import UsageError
 from IPython.core.magic import Magics, line_magic, magics_class
 from IPython.core.magic_arguments import argument, magic_arguments, parse_argstring
@@ -124,7 +122,7 @@ class LagsightMagics(Magics):
     @argument(
         "--quiet",
         action="store_true",
-        help="Show only the verdict and the sentence to paste; hide warnings raised while diagnosing.",
+        help="Show only the verdict and the sentence to paste (the notes stay on the returned Diagnosis).",
     )
     @line_magic
     def lagsight(self, line: str = ""):
@@ -162,11 +160,8 @@ class LagsightMagics(Magics):
         from .diagnosis import diagnose
         from .display import set_preferences, silence_in_cell
 
-        try:
-            with warnings.catch_warnings():
-                if args.quiet:
-                    warnings.simplefilter("ignore")
-                diag = diagnose(model, **options)
+        try:  # library warnings never escape diagnose: they become notes on the Diagnosis
+            diag = diagnose(model, **options)
         except (TypeError, ValueError) as err:
             raise _usage(err) from None
         mode = "quiet" if args.quiet else ("static" if args.static else "panel")
@@ -202,8 +197,13 @@ class LagsightMagics(Magics):
                 raise UsageError("a DataFrame needs --y (the response column) and --X (predictor columns)")
             if X is None:
                 raise UsageError("a DataFrame needs --X: the predictor columns, separated by commas")
-            options["response"] = y.strip()
-            options["predictors"] = [c.strip() for c in X.split(",") if c.strip()]
+            from .inputs import typed_column, typed_columns
+
+            options["response"] = typed_column(y, model.columns)
+            try:
+                options["predictors"] = typed_columns(X, model.columns, "--X")
+            except ValueError as err:
+                raise UsageError(_first_line(err)) from None
         elif isinstance(model, (np.ndarray, list, tuple, pd.Series)):
             if y is not None:
                 raise UsageError("--y does not apply to residuals (use --X for their design matrix)")

@@ -195,7 +195,7 @@ def test_notes_and_cautions_are_printed_and_quiet_prints_the_headline(tmp_path, 
     frame["g"] = ["a"] * 35 + ["b"] * 35 + [""] * 10  # empty cells: no group label
     path = tmp_path / "d.csv"
     frame.to_csv(path, index=False)
-    args = ["report", str(path), "--y", "y", "--x", "x", "--group", "g", "-o", str(tmp_path / "r.html")]
+    args = ["report", str(path), "--y", "y", "--x", "x", "--groups", "g", "-o", str(tmp_path / "r.html")]
     main(args)
     out = capsys.readouterr().out.splitlines()
     assert (

@@ -510,7 +510,7 @@ def test_hostile_files_through_the_cli(capsys, case, time):
         out_path = Path(folder) / "report.html"
         args = ["report", str(path), "--y", resp, "--x", ",".join(preds), "-o", str(out_path)]
         if group is not None:
-            args += ["--group", group]
+            args += ["--groups", group]
         if time is not None:
             args += ["--time", "when"]
         code, out = run_cli(args, capsys)

@@ -77,7 +77,7 @@ def _parser() -> argparse.ArgumentParser:
         metavar="FORMAT",
         help="strftime format of the --time values, e.g. %%d/%%m/%%Y or %%Y-%%m-%%d %%H:%%M",
     )
-    r.add_argument("--group", help="group column: the battery runs within each group")
+    r.add_argument("--groups", help="group column: the battery runs within each group")
     r.add_argument("--alpha", type=float, default=0.05, help="level of the tests (default 0.05)")
     r.add_argument("--alternative", default="positive", choices=("positive", "negative", "two-sided"))
     r.add_argument("-o", "--output", help="HTML report path (default: DATA stem + '_lagsight.html')")
@@ -183,7 +183,7 @@ def _load(args) -> pd.DataFrame:
     except ValueError as err:
         raise _InputError(str(err)) from None
     args.y = typed_column(args.y, frame.columns)
-    needed = [args.y, *predictors] + [c for c in (args.time, args.group) if c]
+    needed = [args.y, *predictors] + [c for c in (args.time, args.groups) if c]
     header = _header(path)
     repeated = sorted({c for c in needed if header.count(c) > 1})
     if repeated:
@@ -200,7 +200,7 @@ def _load(args) -> pd.DataFrame:
     twice = sorted({c for c in needed if needed.count(c) > 1})
     if twice:
         raise _InputError(
-            f"column(s) {', '.join(map(repr, twice))} given for more than one of --y, --x, --time and --group"
+            f"column(s) {', '.join(map(repr, twice))} given for more than one of --y, --x, --time and --groups"
         )
     for col in [args.y, *predictors]:
         if not pd.api.types.is_numeric_dtype(frame[col]):
@@ -211,7 +211,7 @@ def _load(args) -> pd.DataFrame:
         frame[args.time] = _time_values(frame[args.time], args.time, args.time_format)
         frame = frame.set_index(args.time)
     else:
-        used = {args.y, *predictors, args.group}
+        used = {args.y, *predictors, args.groups}
         found = [c for c in frame.columns if c not in used and _as_dates(frame[c]) is not None]
         if found:
             args.checked_on = found[0]
@@ -251,7 +251,7 @@ def _report(args) -> int:
             frame,
             response=args.y,
             predictors=args.predictors,
-            groups=args.group,
+            groups=args.groups,
             order="index" if args.time else "auto",
             alpha=args.alpha,
             alternative=args.alternative,

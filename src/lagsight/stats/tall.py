@@ -123,7 +123,7 @@ def column_tops(X: np.ndarray) -> np.ndarray:
     return top
 
 
-class stacked:  # noqa: N801 - used like the function it replaced
+class stacked:  # lower case: used like the function it replaced
     """``block`` for the matrix whose columns are ``parts`` side by side (2-D arrays or 1-D vectors),
     each column divided by its entry of ``scale`` when given.
 

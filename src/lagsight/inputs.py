@@ -19,7 +19,7 @@ import pandas as pd
 
 from .stats._arrays import check_label, check_labels, finite_rows, has_constant, has_constant_sharing_r
 from .stats._caught import caught_warnings
-from .stats.tall import column_tops, gram_of, map_blocks, r_factor, solve_r
+from .stats.tall import column_tops, gram_of, map_blocks, r_factor, solve_r, stacked
 
 ACCEPTED_KINDS = (
     "statsmodels regression results (OLS, WLS, GLS, GLSAR)",
@@ -542,7 +542,7 @@ def ols_residuals(y: np.ndarray, X: np.ndarray) -> tuple[np.ndarray, int]:
     scale = np.append(tops, top)
     with np.errstate(over="ignore", invalid="ignore"):
         G = gram_of(X, y) / np.outer(scale, scale)  # the first pass, from products of the whole arrays
-    R = r_factor(n, k + 1, lambda a, b: np.column_stack([X[a:b] / tops, y[a:b] / top]), gram=G)
+    R = r_factor(n, k + 1, stacked(X, y, scale=scale), gram=G)
     sol = solve_r(R, n)
     beta = sol.params / tops
     return (y / top - X @ beta) * top, sol.rank

@@ -16,7 +16,7 @@ import numpy as np
 
 from .results import TestResult, _fmt
 from .results import check_alternative as check_alternative  # re-exported: one place for input rules
-from .tall import column_tops, map_blocks, r_factor, row_blocks
+from .tall import column_tops, map_blocks, r_factor, row_blocks, stacked
 
 
 def _describe(value) -> str:
@@ -255,7 +255,7 @@ def _span_r(X: np.ndarray, top: np.ndarray, extra=()) -> np.ndarray:
             G[k, i] = G[i, k] = float(v.sum())
             for j, w in enumerate(extra[: i - k], start=k + 1):
                 G[i, j] = G[j, i] = float(v @ w)
-    return r_factor(n, m, lambda a, b: np.column_stack([X[a:b] / top] + [p[a:b] for p in parts]), gram=G)
+    return r_factor(n, m, stacked(X, *parts, scale=np.concatenate([top, np.ones(len(parts))])), gram=G)
 
 
 def _span_gap(R: np.ndarray, k: int, n: int) -> float:

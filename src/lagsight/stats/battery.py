@@ -29,7 +29,7 @@ from ._arrays import (
 )
 from .correlogram import sample_acf
 from .results import TestResult, check_alternative, tail_pvalue
-from .tall import column_tops, r_factor, solve_r
+from .tall import column_tops, r_factor, solve_r, stacked
 
 __all__ = [
     "BreuschGodfreyResult",
@@ -352,7 +352,7 @@ def _ols_checked(y, X, top, e):
     """The OLS fit of y on the columns X / top (read in row blocks), after checking that ``e`` are
     its residuals."""
     n = y.shape[0]
-    sol = solve_r(r_factor(n, X.shape[1] + 1, lambda a, b: np.column_stack([X[a:b] / top, y[a:b]])), n)
+    sol = solve_r(r_factor(n, X.shape[1] + 1, stacked(X, y, scale=np.append(top, 1.0))), n)
     scale = max(float(np.max(np.abs(y))), 1.0)
     gap = float(np.max(np.abs((y - X @ (sol.params / top)) - e)))
     if gap > 1e-6 * scale:

@@ -227,7 +227,7 @@ def _xy(endog, exog, *, rescale=False):
     if rescale:
         const = constant_columns(X)
         top_y = float(np.max(np.abs(y)))
-        top_x = float(column_tops(X[:, ~const]).max()) if (~const).any() else 1.0
+        top_x = float(column_tops(X)[~const].max()) if (~const).any() else 1.0  # no copy of X
         factors = np.where(const, np.abs(X[0]), top_x)
         if top_y > 0 and top_x > 0 and not all(1e-100 < v < 1e100 for v in (top_y, *factors)):
             s_y, col_factor = top_y, factors

@@ -123,13 +123,40 @@ def column_tops(X: np.ndarray) -> np.ndarray:
     return top
 
 
-def stacked(*parts) -> Block:
-    """``block`` for the matrix whose columns are ``parts`` side by side (2-D arrays or 1-D vectors)."""
+class stacked:  # lower case: used like the function it replaced
+    """``block`` for the matrix whose columns are ``parts`` side by side (2-D arrays or 1-D vectors),
+    each column divided by its entry of ``scale`` when given.
 
-    def block(a, b):
-        return np.column_stack([p[a:b] for p in parts])
+    Calling it forms rows a..b-1; :meth:`times` gives those rows times a matrix without forming
+    them (the scale folded into the matrix, the 2-D parts multiplied where they lie), which is what
+    the second pass of :func:`r_factor` needs.
+    """
 
-    return block
+    def __init__(self, *parts, scale=None):
+        self.parts = [np.asarray(p) for p in parts]
+        widths = [1 if p.ndim == 1 else p.shape[1] for p in self.parts]
+        self.edges = np.concatenate(([0], np.cumsum(widths)))
+        self.scale = None if scale is None else np.asarray(scale, dtype=float)
+
+    def __call__(self, a, b):
+        B = np.column_stack([p[a:b] for p in self.parts])
+        return B if self.scale is None else B / self.scale
+
+    def times(self, a, b, T):
+        T = T if self.scale is None else T / self.scale[:, None]
+        Y = None
+        vectors, rows = [], []
+        for p, lo, hi in zip(self.parts, self.edges[:-1], self.edges[1:]):
+            if p.ndim == 1:
+                vectors.append(p[a:b])
+                rows.append(lo)
+                continue
+            term = p[a:b] @ T[lo:hi]
+            Y = term if Y is None else Y + term
+        if vectors:
+            term = np.column_stack(vectors) @ T[rows]
+            Y = term if Y is None else Y + term
+        return Y
 
 
 def gram_of(*parts) -> np.ndarray:
@@ -184,8 +211,10 @@ def _second_pass(n, ncols, block, T, lags: bool):
     """The Gram matrix of the rows of block @ T and, with ``lags``, their lag-1 products and the
     first and last rows (one pass)."""
 
+    times = getattr(block, "times", None)
+
     def one(a, b):
-        Y = block(a, b) @ T
+        Y = times(a, b, T) if times is not None else block(a, b) @ T
         return Y.T @ Y, ((Y[1:].T @ Y[:-1], Y[0].copy(), Y[-1].copy()) if lags else None)
 
     parts = map_blocks(n, one)
@@ -297,7 +326,12 @@ def r_factor(
         for a, b in row_blocks(n):
             np.maximum(top, np.max(np.abs(block(a, b)), axis=0), out=top)
         top = np.where(top > 0, top, 1.0)
-        out = r_factor(n, ncols, lambda a, b: block(a, b) / top, lag_products=lag_products)
+        scaled_block = (
+            stacked(*block.parts, scale=top * (1.0 if block.scale is None else block.scale))
+            if isinstance(block, stacked)
+            else (lambda a, b: block(a, b) / top)
+        )
+        out = r_factor(n, ncols, scaled_block, lag_products=lag_products)
         R, lp = out if lag_products else (out, None)
         return done(R * top[None, :], lp)
     R1 = _cholesky_r(gram, GRAM_COND_LIMIT)
@@ -372,10 +406,11 @@ def _fill_rows(out: np.ndarray, n: int, rows_of, dest) -> np.ndarray:
     of out's rows."""
 
     def one(a, b):
-        Qb = rows_of(a, b)
         if dest is None:
-            out[:, a:b] = Qb
+            Qb = out[:, a:b]
+            Qb[...] = rows_of(a, b)
         else:
+            Qb = rows_of(a, b)
             out[:, dest[a:b]] = Qb
         return Qb @ Qb.T
 

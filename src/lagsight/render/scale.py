@@ -29,6 +29,11 @@ __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point"]
 
 
 # ---------------------------------------------------------------------------
+
+#: the legend below the 0-4 scale and below the bounds figure: two columns, no frame
+_LEGEND_STYLE = dict(ncol=2, fontsize=7.5, handlelength=2.2, columnspacing=1.5, borderaxespad=0, frameon=False)
+
+
 def _bounds(res, alpha: float):
     b = getattr(res, "bounds", None) if res is not None else None
     if b is not None and abs(b.alpha - alpha) > 1e-12:
@@ -358,12 +363,7 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None, 
             handles=_legend(b, dist, alpha),
             loc="lower left",
             bbox_to_anchor=(left - 0.01, yb / height),
-            ncol=2,
-            fontsize=7.5,
-            handlelength=2.2,
-            columnspacing=1.5,
-            borderaxespad=0,
-            frameon=False,
+            **_LEGEND_STYLE,
         )
         for i, note in enumerate(reversed(notes)):
             fig.text(
@@ -521,12 +521,7 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
             handles=_legend(bounds, None, bounds.alpha)[:4],
             loc="lower left",
             bbox_to_anchor=(left - 0.01, 0.06 / height),
-            ncol=2,
-            fontsize=7.5,
-            handlelength=2.2,
-            columnspacing=1.5,
-            borderaxespad=0,
-            frameon=False,
+            **_LEGEND_STYLE,
         )
         fig.lagsight_caption = (  # type: ignore[attr-defined]
             f"Classical bounds decision for a test against positive correlation at "

@@ -343,11 +343,12 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     )
 
 
-def failure_reason(err: BaseException) -> str:
+def failure_reason(err: BaseException, *, with_kind: bool = False) -> str:
     """One line on why a computation failed: its message's first line, with the kind of error when
-    the message alone would not say it (a bare ZeroDivisionError, an index error deep in a library)."""
+    the message alone would not say it (a bare ZeroDivisionError, an index error deep in a library)
+    or when ``with_kind`` (screen's table, where one column lists failures of every kind)."""
     first = (str(err).strip().splitlines() or [""])[0]
-    if isinstance(err, (ValueError, TypeError)) and first:
+    if isinstance(err, (ValueError, TypeError)) and first and not with_kind:
         return first
     return f"{type(err).__name__}: {first}" if first else type(err).__name__
 

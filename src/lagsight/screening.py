@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 from statsmodels.stats.multitest import multipletests
 
-from .battery_run import BG, DW, LB, BatterySettings, ljung_box_lag, run_battery, strength
+from .battery_run import BG, DW, LB, BatterySettings, failure_reason, ljung_box_lag, run_battery, strength
 from .inputs import ResidualData, as_residual_data, frame_column, unlabelled, unlabelled_note
 from .order import check_order, infer_bg_order, infer_seasonal_period
 from .stats._arrays import (
@@ -171,11 +171,6 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
     }
 
 
-def _reason(err: BaseException) -> str:
-    first = str(err).splitlines()[0] if str(err) else ""
-    return f"{type(err).__name__}: {first}" if first else type(err).__name__
-
-
 def _run_chunk(items: list, alpha: float, alternative: str) -> list:
     """Screen a chunk of models; a model that raises gives its reason instead of a row."""
     out: list[tuple[int, Any]] = []
@@ -184,7 +179,7 @@ def _run_chunk(items: list, alpha: float, alternative: str) -> list:
             try:
                 out.append((item["pos"], _light_battery(item, alpha, alternative)))
             except Exception as err:  # isolate the model: the rest of the chunk goes on
-                out.append((item["pos"], _reason(err)))
+                out.append((item["pos"], failure_reason(err, with_kind=True)))
     return out
 
 
@@ -390,7 +385,7 @@ def screen(
             try:
                 results = fut.result()
             except Exception as err:  # the whole chunk was lost (a worker died, say): its models fail
-                results = [(p, f"worker error: {_reason(err)}") for p in positions]
+                results = [(p, f"worker error: {failure_reason(err, with_kind=True)}") for p in positions]
             for p, res in results:
                 if isinstance(res, str):
                     failed_at[p] = res
@@ -405,7 +400,7 @@ def screen(
                 item, metas[pos] = _prepare(pos, build(pos), order)
                 chunk.append(item)
             except Exception as err:  # conversion failed: skip this model, keep its reason
-                failed_at[pos] = _reason(err)
+                failed_at[pos] = failure_reason(err, with_kind=True)
                 bar.update(1)
             if len(chunk) == size or (pos == len(names) - 1 and chunk):
                 fut = _submit(executor, chunk, alpha, alternative)

@@ -278,8 +278,9 @@ def has_constant(exog) -> bool:
         X = X[:, None]
     if X.ndim != 2 or X.shape[1] == 0 or X.shape[0] == 0:
         return False
-    if _first_nonfinite(X) is not None:
-        X = X[finite_rows(X)]
+    keep = finite_rows(X)  # one cheap pass when every value is finite
+    if not keep.all():
+        X = X[keep]
         if X.shape[0] == 0:
             return False
     if constant_columns(X).any():

@@ -18,11 +18,13 @@ from statsmodels.regression.linear_model import OLS
 
 from ._arrays import (
     ArrayResult,
+    _check_rank,
     as_design,
     as_vector,
     check_int,
     check_names,
     constant_columns,
+    design_rank,
     has_constant,
     readonly,
     scaled,
@@ -54,9 +56,6 @@ def _upper_means_positive(stat_cdf: float, stat_sf: float, alternative: str) -> 
     return tail_pvalue(stat_sf, stat_cdf, alternative)
 
 
-_unit = scaled  # every statistic here is scale-free: values on unit scale, and the factor
-
-
 def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndarray]:
     """The design (never copied) and the factors that bring its columns to unit size: regressors of
     very different sizes are put on one footing, block by block, for the QR and the rank check."""
@@ -64,7 +63,7 @@ def _unit_columns(exog, n: int, *, full_rank: bool) -> tuple[np.ndarray, np.ndar
     top = column_tops(X)
     top = np.where(top > 0, top, 1.0)
     if full_rank:
-        as_design(X, n, scale=top)  # the rank check, on columns of comparable size
+        _check_rank(design_rank(X, top), X.shape[1], "exog")  # on columns of comparable size
     return X, top
 
 
@@ -125,9 +124,8 @@ def _aux_precondition(X, top, e, lags, *, start=0, constant=False):
 
 
 def _aux_fit(rows: int, block, ncols: int, precondition=None):
-    """(least-squares solution, R factor) of the last of ``ncols + 1`` columns on the others."""
-    R = r_factor(rows, ncols + 1, block, precondition=precondition)
-    return solve_r(R, rows), R
+    """The least-squares solution of the last of ``ncols + 1`` columns on the others."""
+    return solve_r(r_factor(rows, ncols + 1, block, precondition=precondition), rows)
 
 
 def _wald_f(sol, idx) -> float:
@@ -160,7 +158,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     :mod:`lagsight.stats.tall`) RSS_restricted - RSS_full is the sum of squares of the last
     ``max_lag`` entries of Q'e: the same numbers as statsmodels' OLS + f_test.
     """
-    e, _ = _unit(as_vector(resid, "resid", min_len=3))
+    e, _ = scaled(as_vector(resid, "resid", min_len=3))
     _check_varies(e)
     n = e.shape[0]
     order = check_int(max_lag, "max_lag", minimum=1)
@@ -242,7 +240,7 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
         Degrees of freedom used up by a fitted ARMA model; the reference
         chi-square has lags - model_df df, and lags with df <= 0 get NaN p-values.
     """
-    e, _ = _unit(as_vector(resid, "resid", min_len=3))
+    e, _ = scaled(as_vector(resid, "resid", min_len=3))
     _check_varies(e)
     n = e.shape[0]
     model_df = check_int(model_df, "model_df", minimum=0)
@@ -393,10 +391,10 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     lag_column = check_int(lag_column, "lag_column", minimum=0)
     if lag_column >= k:
         raise ValueError(f"'lag_column' must be < {k}, the number of columns of 'exog' (got {lag_column})")
-    y, y_scale = _unit(y)
+    y, y_scale = scaled(y)
     e = e / y_scale  # the residuals of the scaled response
     fit = _ols_checked(y, X, col_scale, e)
-    e, _ = _unit(e)
+    e, _ = scaled(e)
     d = float(np.sum(np.diff(e) ** 2) / np.dot(e, e))
     rho = 1.0 - d / 2.0
     # Var(b_lag) in the original units: b_lag = b_scaled * y_scale / col_scale[lag]
@@ -454,7 +452,7 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
     order = check_int(max_lag, "max_lag", minimum=1)
     if order > 1 and alternative != "two-sided":
         raise ValueError(f"'alternative' must be 'two-sided' when max_lag > 1 (got {alternative!r})")
-    e, _ = _unit(e)
+    e, _ = scaled(e)
     X, top = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     m = n - order
@@ -464,7 +462,7 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
         )
     # rows t = order .. n-1 of [X_t, e_{t-1}, ..., e_{t-order}, e_t], a block at a time
     lags = range(1, order + 1)
-    fit, _ = _aux_fit(
+    fit = _aux_fit(
         m, _aux_rows(X, top, e, lags, start=order), k + order, _aux_precondition(X, top, e, lags, start=order)
     )
     notes = (
@@ -513,7 +511,7 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
     e = as_vector(resid, "resid", min_len=3)
     n = e.shape[0]
     period = check_int(period, "period", minimum=2)
-    e, _ = _unit(e)
+    e, _ = scaled(e)
     X, top = _unit_columns(exog, n, full_rank=True)
     k = X.shape[1]
     m = n - period
@@ -522,7 +520,7 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
             f"'period' is too large for n={n} with {k} regressors: need n - period > k + 2 (got period={period})"
         )
     # rows t = s .. n-1 of [X_t, e_{t-1}, e_{t-s}, e_t], a block at a time
-    fit, _ = _aux_fit(
+    fit = _aux_fit(
         m,
         _aux_rows(X, top, e, (1, period), start=period),
         k + 2,

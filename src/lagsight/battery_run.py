@@ -106,6 +106,11 @@ class BatteryRun:
     #: test name -> notes made from the library warnings raised while it ran (also in the test's notes)
     warned: dict = field(default_factory=dict)
 
+    @property
+    def warned_notes(self) -> tuple:
+        """The library warnings caught while testing, one note per warning, prefixed with the test's name."""
+        return tuple(f"{name}: {note}" for name, notes in self.warned.items() for note in notes)
+
 
 def ljung_box_lag(n: int, period: int | None, *, leading: bool = False) -> int:
     """Ljung-Box lag: 10 for non-seasonal data, 2 periods for seasonal data, at most n/5.
@@ -304,7 +309,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
 
     # seasonal order-s Durbin-Watson: only when the period is known (index frequency or given)
     if period:
-        if exog is None or data.exog is None or not data.dw_applicable:
+        if exog is None or not data.dw_applicable:
             errors[SEASONAL] = "needs the model's design matrix (pass exog) for an exact p-value"
         elif not _seasonal_fits(n, period, exog.shape[1]):
             errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"

@@ -117,7 +117,7 @@ def _row(label, part: ResidualData, settings: BatterySettings) -> dict:
     row["runs_pvalue"] = runs.pvalue if runs is not None else math.nan
     row["errors"] = "; ".join(f"{k}: {v}" for k, v in run.errors.items() if k != "Correlogram")
     row["tails"] = (*_tails(dw), *_tails(runs))
-    row["warned"] = tuple(f"{name}: {note}" for name, notes in run.warned.items() for note in notes)
+    row["warned"] = run.warned_notes
     return row
 
 

@@ -46,10 +46,10 @@ def frame_column(frame: pd.DataFrame, column, arg: str) -> pd.Series:
     """The column ``column`` of ``frame``; a one-line ValueError when it is absent or not unique."""
     if column not in frame.columns:
         raise ValueError(f"'{arg}': column {column!r} is not in the DataFrame (columns: {list(frame.columns)})")
-    picked = frame.loc[:, frame.columns == column] if not isinstance(frame.columns, pd.MultiIndex) else None
-    if picked is not None and picked.shape[1] > 1:
+    count = 1 if isinstance(frame.columns, pd.MultiIndex) else int(np.sum(frame.columns == column))
+    if count > 1:  # counted on the names alone: no sub-frame of the data is built
         raise ValueError(
-            f"'{arg}': the DataFrame has {picked.shape[1]} columns named {column!r}; "
+            f"'{arg}': the DataFrame has {count} columns named {column!r}; "
             "column names must be unique (rename the duplicates)"
         )
     col = frame[column]
@@ -178,11 +178,6 @@ class ResidualData:
         if sel.size and (sel.min() < 0 or sel.max() >= self.n):
             raise ValueError(f"'selector' positions must lie in [0, {self.n}) (got {sel.min()}..{sel.max()})")
         return self._take(sel.astype(np.intp))
-
-
-def _detect_constant(X: np.ndarray | None) -> bool | None:
-    """None without a design, else :func:`lagsight.stats._arrays.has_constant`."""
-    return None if X is None else has_constant(X)
 
 
 def _as_2d(exog, name: str) -> tuple[np.ndarray, tuple | None, pd.Index | None]:
@@ -379,7 +374,7 @@ def _from_sklearn(est, X, y) -> tuple[ResidualData, np.ndarray | None]:
     fit_intercept = bool(getattr(est, "fit_intercept", False))
     if hasattr(est, "coef_") and Xv is not None and np.size(est.coef_) == Xv.shape[1]:
         names = names or tuple(f"x{j + 1}" for j in range(Xv.shape[1]))
-        exog, has_const = Xv, _detect_constant(Xv if keep.all() else Xv[keep])
+        exog, has_const = Xv, has_constant(Xv if keep.all() else Xv[keep])
         if fit_intercept and not has_const:
             exog, names, has_const = np.column_stack([np.ones(n), Xv]), ("const",) + names, True
         if name != "LinearRegression":
@@ -668,5 +663,5 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
     if n < n0:  # no copy of the rows when every row is kept
         out = out.subset(keep)
     if out.has_constant is None and out.exog is not None:
-        out = out.replace(has_constant=_detect_constant(out.exog))
+        out = out.replace(has_constant=has_constant(out.exog))
     return out

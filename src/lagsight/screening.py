@@ -154,7 +154,7 @@ def _light_battery(item: dict, alpha: float, alternative: str) -> dict:
             shuffled=item["shuffled"],
             lagged_response=run.lagged_response,
         )
-    warned = [f"{name}: {note}" for name, notes in run.warned.items() for note in notes] + list(caught.notes())
+    warned = [*run.warned_notes, *caught.notes()]
     dw, bg, lb = (run.tests.get(name) for name in (DW, BG, LB))
     k = dw.rank if dw is not None and dw.rank is not None else (None if data.exog is None else data.exog.shape[1])
     return {

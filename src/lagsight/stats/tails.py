@@ -148,9 +148,9 @@ class _Line:
                 return math.nan, math.nan, math.nan, False
             q = self.e_incl / D
             return float(np.sum(np.log(D))), float(-2.0 * q.sum()), float(-4.0 * np.dot(q, q)), True
-        bad = self.bad_set(s)
         if not self.bordered(s):
             return self._real_fast(s)
+        bad = self.bad_set(s)
         if bad.size > _MAX_BAD or self.expensive:
             raise _Underflow(s)
         return self._real_bordered(s, bad)

@@ -183,13 +183,11 @@ def gram_of(*parts) -> np.ndarray:
     return G
 
 
-def _gram(n, ncols, block, T=None):
-    """sum over blocks of B'B, with B = block(a, b) @ T when T is given."""
+def _gram(n, ncols, block):
+    """sum over blocks of B'B, with B = block(a, b)."""
 
     def one(a, b):
         B = block(a, b)
-        if T is not None:
-            B = B @ T
         return B.T @ B
 
     return sum(map_blocks(n, one), np.zeros((ncols, ncols)))

@@ -114,6 +114,19 @@ def _frame(n=80, seed=2):
     return pd.DataFrame({"x": x, "y": 1 + x + rng.normal(size=n)})
 
 
+def test_an_existing_report_is_replaced_only_with_overwrite(tmp_path, capsys):
+    path = tmp_path / "d.csv"
+    _frame().to_csv(path, index=False)
+    out = tmp_path / "r.html"
+    out.write_text("keep me", encoding="utf-8")
+    assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert "exists; add --overwrite" in err and err.count("\n") == 1
+    assert out.read_text(encoding="utf-8") == "keep me"
+    assert main(["report", str(path), "--y", "y", "--x", "x", "-o", str(out), "--overwrite"]) in (0, 1)
+    assert "lagsight" in out.read_text(encoding="utf-8")
+
+
 @pytest.mark.parametrize("where", ["missing folder", "a folder"])
 def test_output_that_cannot_be_a_file_exits_two_with_one_line(tmp_path, capsys, where):
     path = tmp_path / "d.csv"
@@ -183,7 +196,19 @@ def test_iso_and_numeric_time_columns_are_accepted(tmp_path, capsys):
         frame["t"] = values
         path = tmp_path / "t.csv"
         frame.to_csv(path, index=False)
-        args = ["report", str(path), "--y", "y", "--x", "x", "--time", "t", "-o", str(tmp_path / "r.html")]
+        args = [
+            "report",
+            str(path),
+            "--y",
+            "y",
+            "--x",
+            "x",
+            "--time",
+            "t",
+            "-o",
+            str(tmp_path / "r.html"),
+            "--overwrite",
+        ]
         assert main(args) in (0, 1)
         captured = capsys.readouterr()
         assert captured.err == "" and "irregular gaps" not in captured.out
@@ -195,7 +220,7 @@ def test_notes_and_cautions_are_printed_and_quiet_prints_the_headline(tmp_path, 
     frame["g"] = ["a"] * 35 + ["b"] * 35 + [""] * 10  # empty cells: no group label
     path = tmp_path / "d.csv"
     frame.to_csv(path, index=False)
-    args = ["report", str(path), "--y", "y", "--x", "x", "--groups", "g", "-o", str(tmp_path / "r.html")]
+    args = ["report", str(path), "--y", "y", "--x", "x", "--groups", "g", "-o", str(tmp_path / "r.html"), "--overwrite"]
     main(args)
     out = capsys.readouterr().out.splitlines()
     assert (
@@ -230,5 +255,5 @@ def test_every_x_item_names_a_column(tmp_path, capsys):
     assert "empty column name" in capsys.readouterr().err
     assert main(["report", str(path), "--y", "y", "--x", "x,\x1e", "-o", out]) in (0, 1)
     assert "OLS of y on const + x + \x1e" in Path(out).read_text(encoding="utf-8")
-    assert main(["report", str(path), "--y", "y", "--x", " x ,\x1e", "-o", out]) in (0, 1)
+    assert main(["report", str(path), "--y", "y", "--x", " x ,\x1e", "-o", out, "--overwrite"]) in (0, 1)
     capsys.readouterr()

@@ -61,9 +61,13 @@ def test_initial_state(panel, diag):
     assert panel.max_lag == len(diag.correlogram.lags)
     assert panel.alpha == 0.05 and panel.alternative == "positive"
     assert panel.errors == {}
-    for name in ("scale", "correlogram", "lag", "residuals"):
+    for name in ("scale", "correlogram", "lag"):
         assert isinstance(panel.figures[name], Figure), name
-    assert "<svg" in panel.test_view.value and "<svg" in panel.correlogram_view.value
+    assert "<svg" in panel.scale_view.value and "<svg" in panel.correlogram_view.value
+    # the sections open on demand: only the open one is drawn (here the corrections, for evidence)
+    assert panel.section == "remedies" and "residuals" not in panel.figures and panel.residuals_view.value == ""
+    panel.section = "residuals"
+    assert isinstance(panel.figures["residuals"], Figure) and "<svg" in panel.residuals_view.value
 
 
 def test_every_widget_has_a_lagsight_class(panel):
@@ -78,7 +82,10 @@ def test_every_widget_has_a_lagsight_class(panel):
         "lgs-band",
         "lgs-lag-picker",
         "lgs-save",
-        "lgs-save-path",
+        "lgs-prepare",
+        "lgs-scale-view",
+        "lgs-cautions-line",
+        "lgs-more",
         "lgs-panel",
     ):
         assert cls in named, cls
@@ -125,9 +132,9 @@ def test_test_toggles_show_each_statistic(panel, fit):
     panel.test_toggle.value = LB
     q = acorr_ljungbox(fit.resid, lags=[14])["lb_stat"].iloc[0]  # statsmodels reference at lag 14
     assert f"{q:.4g}" in panel.test_view.value
-    assert "<svg" not in panel.test_view.value  # the scale belongs to Durbin-Watson
+    assert "<svg" not in panel.test_view.value and "<svg" in panel.scale_view.value  # the scale shows beside
     panel.test_toggle.value = DW
-    assert "<svg" in panel.test_view.value
+    assert panel.test_stack.selected_index == list(panel.test_views).index(DW)
 
 
 def test_alternative_updates_every_view(panel, fit):
@@ -202,6 +209,8 @@ def test_no_remedies_when_no_evidence():
     d = lagsight.diagnose(smf.ols("y ~ x", data=frame).fit())
     assert d.verdict.finding == "no evidence"
     panel = DiagnosisPanel(d, snapshot_delay=0)
+    assert panel.section == "next" and panel.remedies_view.value == ""  # drawn when opened
+    panel.section = "remedies"
     assert "No corrected inference" in panel.remedies_view.value
 
 
@@ -261,25 +270,50 @@ def test_hostile_names_are_escaped_in_every_view():
     assert "&lt;script&gt;" in panel.remedies_view.value
 
 
-def test_save_button_writes_a_report(panel, tmp_path):
-    target = tmp_path / "report.html"
-    panel.save_path.value = str(target)
-    panel.save_button.click()
-    assert target.exists() and panel.saved_path == target.resolve()
-    assert str(target.resolve()) in panel.save_status.value
-    text = target.read_text(encoding="utf-8")
-    assert "<svg" in text and "http://" not in text and "https://" not in text
+def test_the_report_button_offers_a_browser_download_and_writes_nothing(panel, tmp_path, monkeypatch):
+    import base64
+    import datetime
+    import html
 
+    from lagsight.panel import download_name
 
-def test_save_to_a_bad_path_says_why_and_keeps_working(panel, tmp_path):
-    panel.save_path.value = str(tmp_path / "missing-dir" / "report.html")
+    monkeypatch.chdir(tmp_path)
+    panel.name = "fit"
+    panel.section = "report"
     panel.save_button.click()
-    assert "Not saved" in panel.save_status.value and "save" in panel.errors
+    assert list(tmp_path.iterdir()) == [], "the report button wrote a file on the server"
+    link = re.search(
+        r'<a class="lgs-download" download="([^"]+)" href="data:text/html;charset=utf-8;base64,([^"]+)"',
+        panel.save_status.value,
+    )
+    assert link, panel.save_status.value
+    name = html.unescape(link.group(1))
+    assert re.fullmatch(r"fit-\d{4}-\d{2}-\d{2}-\d{4}\.html", name), name
+    page = base64.b64decode(link.group(2)).decode("utf-8")
+    same_ids = lambda text: re.sub(r"lgs[0-9a-f]+[a-z]+\d+-", "", text)  # noqa: E731  (SVG id prefixes count up)
+    assert same_ids(page) == same_ids(panel.report_html())
+    assert "<svg" in page and "http://" not in page and "https://" not in page
+    # the link is withdrawn when the view changes (it would hold an older state)
     panel.lag_slider.value = 4
-    assert panel.max_lag == 4 and "correlogram" not in panel.errors
-    panel.save_path.value = str(tmp_path / "ok.html")
-    panel.save_button.click()
-    assert "save" not in panel.errors
+    assert "lgs-download" not in panel.save_status.value and "prepare the report again" in panel.save_status.value
+    assert download_name("my model/<x>", datetime.datetime(2026, 1, 2, 3, 4)) == "my-model-x-2026-01-02-0304.html"
+    assert download_name(None, datetime.datetime(2026, 1, 2, 3, 4)) == "lagsight-report-2026-01-02-0304.html"
+
+
+def test_save_writes_only_where_asked_and_never_overwrites_unasked(panel, tmp_path):
+    target = tmp_path / "report.html"
+    assert panel.save(target) == target.resolve() and target.exists()
+    first = target.read_text(encoding="utf-8")
+    with pytest.raises(FileExistsError, match="overwrite=True"):
+        panel.save(target)
+    assert target.read_text(encoding="utf-8") == first
+    panel.lag_slider.value = 4
+    panel.save(target, overwrite=True)
+    assert target.read_text(encoding="utf-8") != first
+    with pytest.raises(ValueError, match="existing folder"):
+        panel.save(tmp_path / "missing-dir" / "report.html")
+    with pytest.raises(FileExistsError):
+        panel.current.save_html(target)
 
 
 def test_snapshot_follows_the_panel(panel):
@@ -346,7 +380,7 @@ def test_idle_prefetch_draws_every_level_choice_so_picking_one_draws_nothing(dia
     # the prefetched scale is the one a cold panel draws at that level (same bounds text in the SVG)
     cold = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=None)
     cold.alpha_picker.value, cold.alternative_picker.value = panel.alpha, panel.alternative
-    assert _svg_texts(cold.test_view.value) == _svg_texts(panel.test_view.value)
+    assert _svg_texts(cold.scale_view.value) == _svg_texts(panel.scale_view.value)
     assert _svg_texts(cold.correlogram_view.value) == _svg_texts(panel.correlogram_view.value)
 
 
@@ -375,7 +409,7 @@ def test_a_figure_that_fails_ahead_is_skipped_and_shows_its_error_when_picked(di
         assert steps < 100, "prefetch keeps retrying"
     assert ("scale", 0.001, panel.alternative) in panel._not_ahead
     panel.alpha_picker.value = 0.001
-    assert "scale broken at 0.001" in panel.test_view.value and "test" in panel.errors
+    assert "scale broken at 0.001" in panel.scale_view.value and "scale" in panel.errors
     assert "<svg" in panel.correlogram_view.value  # the other views still work
 
 

@@ -81,6 +81,7 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--alpha", type=float, default=0.05, help="level of the tests (default 0.05)")
     r.add_argument("--alternative", default="positive", choices=("positive", "negative", "two-sided"))
     r.add_argument("-o", "--output", help="HTML report path (default: DATA stem + '_lagsight.html')")
+    r.add_argument("--overwrite", action="store_true", help="replace the report file if it exists")
     r.add_argument("--quiet", action="store_true", help="print the verdict's headline only")
     return p
 
@@ -259,7 +260,9 @@ def _report(args) -> int:
     except (ValueError, TypeError, ArithmeticError, np.linalg.LinAlgError) as err:
         raise _InputError(str(err).splitlines()[0] or type(err).__name__) from None
     try:
-        written = save_html(diag, out)
+        written = save_html(diag, out, overwrite=args.overwrite)
+    except FileExistsError:
+        raise _InputError(f"-o {str(out)!r} exists; add --overwrite to replace it") from None
     except (OSError, ValueError) as err:
         raise _InputError(f"-o {str(out)!r}: the report could not be written ({str(err).splitlines()[0]})") from None
     print(diag.verdict.headline)

@@ -174,11 +174,14 @@ class Diagnosis:
 
         show(self)
 
-    def save_html(self, path, **view_options):
-        """Write a standalone HTML report (no network needed) and return its path."""
+    def save_html(self, path, *, overwrite: bool = False, **view_options):
+        """Write a standalone HTML report (no network needed) and return its path.
+
+        An existing file is replaced only with ``overwrite=True`` (else FileExistsError).
+        """
         from .render.html import save_html
 
-        return save_html(self, path, **view_options)
+        return save_html(self, path, overwrite=overwrite, **view_options)
 
     def panel(self, **options):
         """The interactive panel (:class:`lagsight.panel.DiagnosisPanel`) for this diagnosis."""

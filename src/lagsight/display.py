@@ -43,6 +43,8 @@ __all__ = [
     "widget_bundle",
     "error_box",
     "headline_html",
+    "next_html",
+    "cautions_html",
     "test_html",
     "remedies_html",
     "groups_html",
@@ -286,25 +288,64 @@ def error_box(title: str, message: str) -> str:
     return f'<div class="lgs-error"><strong>{_esc(title)}</strong> {_esc(message)}</div>'
 
 
+#: key figures the panel's top line leaves out: the finding is the headline's colour, α and the alternative
+#: are the controls beside it, the rule is in the test view
+_TOP_LEFT_OUT = ("finding", "alpha", "\u03b1", "alternative", "rule")
+
+
 def headline_html(diag) -> str:
-    """Verdict, key figures, order-guard warnings, next steps and the sentence to paste."""
+    """Verdict, key figures, order-guard warnings and notes (the top of the panel).
+
+    The α and alternative are left out of the key figures: the panel's controls beside them show those.
+    """
     from .render.html import headline_html as verdict_html
-    from .render.html import keys_html, warnings_html
-    from .render.text import key_figures, report_sentence
+    from .render.html import warnings_html
+    from .render.text import key_figures
 
     v = diag.verdict
-    parts = [verdict_html(v.finding, v.headline), keys_html(key_figures(diag)), warnings_html(diag.order.warnings)]
-    if v.next_steps:
-        parts.append('<ul class="lgs-list">' + "".join(f"<li>{_esc(s)}</li>" for s in v.next_steps) + "</ul>")
-    parts.append(f'<div class="lgs-sentence">{_esc(report_sentence(diag, "text"))}</div>')
+    keys = [(k, val) for k, val in key_figures(diag) if k not in _TOP_LEFT_OUT]
+    keyline = " \u00b7 ".join(f"<b>{_esc(k)}</b> {_esc(val)}" for k, val in keys)
+    parts = [verdict_html(v.finding, v.headline), f'<p class="lgs-keyline">{keyline}</p>']
+    parts.append(warnings_html(diag.order.warnings))
     notes = [n for n in diag.notes if n not in diag.order.warnings]
     if notes:
-        parts.append(
-            '<div class="lgs-caption"><b>Notes</b></div><ul class="lgs-list lgs-notes">'
-            + "".join(f"<li>{_esc(n)}</li>" for n in notes)
-            + "</ul>"
-        )
+        parts.append('<ul class="lgs-list lgs-notes">' + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul>")
     return "".join(parts)
+
+
+def next_html(diag) -> str:
+    """What to do next, and the sentence to paste into a report."""
+    from .render.text import report_sentence
+
+    parts = []
+    if diag.verdict.next_steps:
+        parts.append(
+            '<ul class="lgs-list">' + "".join(f"<li>{_esc(s)}</li>" for s in diag.verdict.next_steps) + "</ul>"
+        )
+    parts.append('<div class="lgs-caption">To report:</div>')
+    parts.append(f'<div class="lgs-sentence">{_esc(report_sentence(diag, "text"))}</div>')
+    return "".join(parts)
+
+
+def cautions_html(diag, shown=()) -> str:
+    """A short cautions line (what the leading test assumes; failing to reject is not proof) that opens in
+    the browser, with no kernel, to the full list.  ``shown``: names of the views on offer (the power
+    section is pointed at only when it is there)."""
+    from .verdict import ASSUMPTIONS
+
+    v = diag.verdict
+    lead = ASSUMPTIONS.get(v.leading or "")
+    short = [lead[0].upper() + lead[1:] + "." if lead else "", "Not rejecting is not proof of independence."]
+    full = list(v.cautions)
+    if "power" in shown:
+        full[0] = full[0] + " The power section below shows how much power the test has here."
+    summary = " ".join(p for p in short if p)
+    return (
+        f'<details class="lgs-cautions"><summary><b>Cautions:</b> {_esc(summary)} <u>All cautions</u></summary>'
+        + '<ul class="lgs-list">'
+        + "".join(f"<li>{_esc(c)}</li>" for c in full)
+        + "</ul></details>"
+    )
 
 
 def test_html(diag, name: str | None) -> str:
@@ -318,6 +359,8 @@ def test_html(diag, name: str | None) -> str:
         return error_box(f"{name} could not be run:", diag.errors[name])
     row = next(r for r in test_rows(diag) if r[0] == name)
     pairs = [(k, v) for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v] + [("alpha", f"{diag.alpha:g}")]
+    if name in diag.verdict.family and diag.verdict.rule:
+        pairs.append(("rule", diag.verdict.rule))
     parts = [f"<h4>{_esc(name)}</h4>", keys_html(pairs)]
     parts.append(f'<p class="lgs-caption">{_esc(TEST_GUIDE.get(name, ""))}</p>')
     parts += [f'<p class="lgs-caption">{_esc(n)}</p>' for n in diag.tests[name].notes]

@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import asyncio
 import dataclasses
+import datetime
+import re
 import time
 import uuid
 from collections import OrderedDict
@@ -21,10 +23,19 @@ from pathlib import Path
 from . import display as views
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
 from .display import SNAPSHOT_CLASS, _message, error_box, snapshot_bundle, widget_bundle
-from .stats._arrays import check_int
+from .stats._arrays import check_choice, check_int
 from .stats._caught import caught_warnings
 
-__all__ = ["DiagnosisPanel", "ALPHAS", "ALTERNATIVES", "BANDS", "TEST_ORDER"]
+__all__ = [
+    "DiagnosisPanel",
+    "ALPHAS",
+    "ALTERNATIVES",
+    "BANDS",
+    "TEST_ORDER",
+    "SECTIONS",
+    "download_name",
+    "open_section",
+]
 
 #: alpha levels offered by the selector (the diagnosis's own alpha is added when missing)
 ALPHAS = (0.001, 0.01, 0.05, 0.1)
@@ -46,12 +57,47 @@ PREFETCH_DELAY = 1.0
 #: seconds between two prefetch steps (messages from the front end are served in between)
 _PREFETCH_STEP = 0.02
 
-_CACHE_SIZE = 32
+_CACHE_SIZE = 96
+#: lag h positions drawn ahead either side of the current one
+_LAG_AHEAD = 3
+#: control choices drawn ahead before the α and alternative choices
+_NEAR = 5
+#: the sections that open on demand, in order: key -> title
+SECTIONS = {
+    "next": "What to do next, and the sentence to paste",
+    "residuals": "Residuals in test order",
+    "remedies": "Corrected inference",
+    "groups": "Groups",
+    "power": "Power of the exact Durbin-Watson test",
+    "report": "Download the report",
+}
 _PANEL_CSS = """
-.lgs-panel.lgs-root{max-width:820px}
-.lgs-panel .lgs-section{font-weight:600;font-size:13px;margin:10px 0 2px 0;color:var(--lgs-fg)}
-.lgs-panel .lgs-view{overflow:auto}
-.lgs-panel .lgs-controls{align-items:center;flex-wrap:wrap}
+.lgs-panel.lgs-root{max-width:1240px;width:100%}
+.lgs-panel .lgs-row{display:grid!important;grid-template-columns:repeat(auto-fit,minmax(min(100%,460px),1fr));
+  gap:6px 18px;align-items:start;width:100%}
+.lgs-panel .lgs-row > *{min-width:0;max-width:100%}
+.lgs-panel .lgs-cell{min-width:0}
+.lgs-panel .widget-html-content{line-height:1.4}
+.lgs-panel .widget-html,.lgs-panel .widget-label{margin-top:0;margin-bottom:0}
+.lgs-panel .lgs-nowrap{flex-wrap:nowrap;width:auto!important}
+.lgs-panel .lgs-keyline{font-size:12.5px;margin:4px 0;color:var(--lgs-fg)}
+.lgs-panel .lgs-keyline b{font-weight:600;color:var(--lgs-muted)}
+.lgs-panel .lgs-about{font-size:12px;color:var(--lgs-muted);margin:0 0 4px 0}
+.lgs-panel .lgs-about summary{cursor:pointer}
+.lgs-panel .lgs-section{font-weight:600;font-size:13px;margin:6px 0 2px 0;color:var(--lgs-fg)}
+.lgs-panel .lgs-view{overflow:visible;min-width:0;max-width:100%}
+.lgs-panel .lgs-view figure{margin:2px 0}
+.lgs-panel .lgs-view figure svg,.lgs-panel .lgs-view figure img{width:100%;max-width:640px;height:auto}
+.lgs-panel .lgs-controls{align-items:center;flex-wrap:wrap;gap:2px 6px;min-width:0}
+.lgs-panel .lgs-controls .widget-toggle-buttons{flex-wrap:wrap}
+.lgs-panel .lgs-control-label{color:var(--lgs-muted);font-size:13px}
+.lgs-panel .lgs-headline{margin:2px 0}
+.lgs-panel .lgs-keys{margin:4px 0}
+.lgs-panel .lgs-cautions{font-size:12px;color:var(--lgs-muted);margin:2px 0}
+.lgs-panel .lgs-cautions summary{color:var(--lgs-muted)}
+.lgs-panel .lgs-cautions ul{margin:4px 0 2px 18px;padding:0}
+.lgs-panel .lgs-download{display:inline-block;padding:4px 12px;border-radius:4px;border:1px solid var(--lgs-border);
+  background:var(--lgs-card);color:var(--lgs-fg);text-decoration:none;font-weight:600}
 .lgs-panel .lgs-error{border:1px solid var(--lgs-orange);border-radius:6px;padding:6px 10px;
   background:var(--lgs-warn-bg)}
 """
@@ -78,8 +124,40 @@ def _bound(widget: str, doc: str) -> property:
     )
 
 
+def _figure_view(markup: str, caption: str = "") -> str:
+    """A figure in the panel: the drawing, and its caption folded under "How to read it" (one click, in the
+    browser) so the figures stay on one screen; the stored copy and the report print captions in full."""
+    about = f'<details class="lgs-about"><summary>How to read it</summary>{_esc(caption)}</details>' if caption else ""
+    return f"<figure>{markup}</figure>{about}"
+
+
+def download_name(name: str | None, when: datetime.datetime | None = None) -> str:
+    """File name of a downloaded report: the model's variable name (letters, digits, '-', '_', '.') and the time,
+    e.g. ``fit-2026-12-03-1630.html``; 'lagsight-report' when there is no usable name."""
+    stem = re.sub(r"[^A-Za-z0-9_.-]+", "-", str(name or "")).strip("-.")[:48] or "lagsight-report"
+    when = when or datetime.datetime.now()
+    return f"{stem}-{when:%Y-%m-%d-%H%M}.html"
+
+
+def open_section(diag) -> str:
+    """The section that matters for this finding, open when the panel is shown."""
+    if diag.groups is not None:
+        return "groups"
+    if diag.verdict.finding == "evidence" and diag.remedies is not None:
+        return "remedies"
+    if diag.verdict.finding == "no evidence" and diag.power is not None:
+        return "power"
+    return "next"
+
+
 class DiagnosisPanel:
     """Interactive view of a :class:`~lagsight.diagnosis.Diagnosis`.
+
+    The layout leads with the answer: the verdict, its key figures, the α and
+    alternative controls and a cautions line at the top; the 0-4 scale beside the
+    test toggles; the correlogram with its controls beside the lag scatter; the
+    rest in sections that open on demand (the one that matters for the finding
+    open).  Two columns reflow to one in narrow windows.
 
     Parameters
     ----------
@@ -89,25 +167,31 @@ class DiagnosisPanel:
     band : {'white', 'bartlett'}
         Band drawn around the ACF.
     test : str, optional
-        Test in the main view (default: the one the verdict leads with).
+        Test in the test view (default: the one the verdict leads with).
     lag : int
         Lag h of the e_t against e_{t-h} scatter.
     figures : {'svg', 'png'}
         How the live views embed figures (the snapshot always uses PNG).
+    name : str, optional
+        The model's variable name, used to name a downloaded report.
+    hint_syntax : {'api', 'magic'}
+        Whose syntax hints are written in (the magic passes 'magic').
     snapshot_delay : float
-        Seconds from a change to the snapshot refresh while an event loop runs (a
-        live kernel): changes in between are merged and callbacks return at once.
-        0, or no running loop, refreshes within the callback.
+        Seconds of quiet after a change before the snapshot is refreshed, while an
+        event loop runs (a live kernel): changes in between are merged and
+        callbacks return at once.  0, or no running loop, refreshes within the
+        callback.
     prefetch_delay : float or None
         Seconds of quiet, once the panel is shown in a running event loop, before
-        it draws the views for the other alpha and alternative choices in idle
-        time, one figure per loop step; None turns this off.  Without a running
-        loop nothing is drawn ahead.
+        it draws in idle time, one figure per loop step, the views a user may ask
+        for next (the other band, the neighbouring lags, the other α and
+        alternative choices); None turns this off.  Without a running loop
+        nothing is drawn ahead.
 
     Attributes
     ----------
     base, current : Diagnosis
-        The diagnosis given, and the one at the selected alpha and alternative.
+        The diagnosis given, and the one at the selected α and alternative.
     figures : dict
         Figure name ('scale', 'correlogram', 'lag', 'residuals', 'groups', 'power')
         -> the ``matplotlib.figure.Figure`` on show.
@@ -130,6 +214,8 @@ class DiagnosisPanel:
         test=None,
         lag=1,
         figures="svg",
+        name=None,
+        hint_syntax="api",
         snapshot_delay=SNAPSHOT_DELAY,
         prefetch_delay=PREFETCH_DELAY,
     ):
@@ -137,10 +223,8 @@ class DiagnosisPanel:
 
         from .render.text import primary_test
 
-        if band not in dict(BANDS).values():
-            raise ValueError(f"'band' must be 'white' or 'bartlett' (got {band!r})")
-        if figures not in ("svg", "png"):
-            raise ValueError(f"'figures' must be 'svg' or 'png' (got {figures!r})")
+        band = check_choice(band, "band", tuple(dict(BANDS).values()))
+        figures = check_choice(figures, "figures", ("svg", "png"))
         names = [t for t in TEST_ORDER if t in diag.tests or t in diag.errors]
         names += [t for t in [*diag.tests, *diag.errors] if t not in names and t != "Correlogram"]
         test = test if test is not None else (primary_test(diag) or (names[0] if names else None))
@@ -152,12 +236,15 @@ class DiagnosisPanel:
         lag = check_int(lag, "lag", minimum=1)
         self.base = self.current = diag
         self.figure_format = figures
+        self.name = None if name is None else str(name)
+        self.hint_syntax = hint_syntax
         self.snapshot_delay = float(snapshot_delay)
         self.prefetch_delay = None if prefetch_delay is None else float(prefetch_delay)
         self.renders = 0
         self.errors: dict = {}
         self.timings: dict = {}
         self.saved_path: Path | None = None
+        self._prepared: str | None = None
         self.uid = uuid.uuid4().hex[:12]
         self.display_id = f"lagsight-{self.uid}"
         self.snapshot_updates = 0
@@ -179,15 +266,23 @@ class DiagnosisPanel:
         def view(cls, height=None):
             return tag(w.HTML(layout=w.Layout(min_height=height) if height else w.Layout()), cls, "lgs-view")
 
+        def label(text):
+            return tag(w.Label(text, layout=w.Layout(margin="0 2px 0 8px")), "lgs-control-label")
+
+        def box(children, *classes, kind=w.VBox):
+            return tag(kind(children, layout=w.Layout(min_width="0", width="100%")), *classes)
+
         alphas = sorted(set(ALPHAS) | {diag.alpha})
         self.style = tag(w.HTML(self._style_markup()), "lgs-style")
         self.headline = view("lgs-headline-view")
+        self.cautions_view = view("lgs-cautions-line")
         self.alpha_picker = tag(
             w.Dropdown(
                 options=[(f"{a:g}", a) for a in alphas],
                 value=diag.alpha,
-                description="alpha",
-                layout=w.Layout(width="160px"),
+                description="\u03b1",
+                style={"description_width": "14px"},
+                layout=w.Layout(width="110px"),
             ),
             "lgs-alpha",
         )
@@ -197,16 +292,26 @@ class DiagnosisPanel:
             w.ToggleButtons(
                 options=list(ALTERNATIVES),
                 value=diag.alternative,
-                tooltips=["alternative: " + a for a in ALTERNATIVES],
+                tooltips=["alternative hypothesis: " + a for a in ALTERNATIVES],
                 **inline,
             ),
             "lgs-alternative",
         )
         self.test_toggle = tag(
-            w.ToggleButtons(options=names, value=test if names else None, style={"button_width": "auto"}),
-            "lgs-test-toggle",
+            w.ToggleButtons(options=names, value=test if names else None, **inline), "lgs-test-toggle"
         )
-        self.test_view = view("lgs-test-view", "120px")
+        # one view per test in a Stack that the toggle switches in the browser (linked there, no kernel round trip)
+        self.test_views = {t: view("lgs-test-one") for t in names}
+        self.test_stack = tag(
+            w.Stack(
+                list(self.test_views.values()) or [view("lgs-test-one")],
+                selected_index=names.index(test) if names else 0,
+            ),
+            "lgs-test-view",
+        )
+        if names:
+            w.jslink((self.test_toggle, "index"), (self.test_stack, "selected_index"))
+        self.scale_view = view("lgs-scale-view")
         self.lag_slider = tag(
             w.IntSlider(
                 value=min(max_lag, nlags),
@@ -215,69 +320,132 @@ class DiagnosisPanel:
                 continuous_update=False,
                 description="max lag",
                 disabled=diag.correlogram is None,
+                layout=w.Layout(width="260px"),
             ),
             "lgs-lag-slider",
         )
         self.band_toggle = tag(w.ToggleButtons(options=list(BANDS), value=band, **inline), "lgs-band")
-        self.correlogram_view = view("lgs-correlogram-view", "280px")
+        self.correlogram_view = view("lgs-correlogram-view")
         top = max(1, min(nlags, diag.n - 2))
         self.lag_picker = tag(
-            w.IntSlider(value=min(lag, top), min=1, max=top, continuous_update=False, description="lag h"),
+            w.IntSlider(
+                value=min(lag, top),
+                min=1,
+                max=top,
+                continuous_update=False,
+                description="lag h",
+                layout=w.Layout(width="260px"),
+            ),
             "lgs-lag-picker",
         )
-        self.scatter_view = view("lgs-scatter-view", "280px")
-        self.residuals_view = view("lgs-residuals-view", "240px")
+        self.scatter_view = view("lgs-scatter-view")
+        self.next_view = view("lgs-next-view")
+        self.residuals_view = view("lgs-residuals-view")
         self.remedies_view = view("lgs-remedies-view")
         self.groups_view = view("lgs-groups-view")
         self.power_view = view("lgs-power-view")
-        self.save_path = tag(
-            w.Text(value="lagsight-report.html", description="report file", layout=w.Layout(width="360px")),
-            "lgs-save-path",
-        )
         self.save_button = tag(
-            w.Button(description="Save HTML report", icon="download", layout=w.Layout(width="auto")), "lgs-save"
+            w.Button(
+                description="Prepare the report",
+                icon="file-text",
+                tooltip="Build the standalone HTML report of the current view, then download it from the link",
+                layout=w.Layout(width="auto"),
+            ),
+            "lgs-prepare",
         )
-        self.save_status = tag(w.HTML(), "lgs-save-status")
-
-        def label(text):
-            return tag(w.Label(text, layout=w.Layout(margin="0 4px 0 12px")), "lgs-control-label")
+        self.save_status = tag(w.HTML(), "lgs-save-status", "lgs-save")
 
         def section(title):
             return tag(w.HTML(f'<div class="lgs-section">{_esc(title)}</div>'), "lgs-section-title")
 
+        self._section_views = {
+            "next": self.next_view,
+            "residuals": self.residuals_view,
+            "remedies": self.remedies_view,
+            "groups": self.groups_view,
+            "power": self.power_view,
+            "report": box([self.save_button, self.save_status], "lgs-controls", "lgs-report", kind=w.HBox),
+        }
+        keys = [
+            k
+            for k in SECTIONS
+            if (k != "groups" or diag.groups is not None) and (k != "power" or diag.power is not None)
+        ]
+        self.section_keys = tuple(keys)
+        opened = open_section(diag)
+        self.sections = tag(
+            w.Accordion(
+                children=[self._section_views[k] for k in keys],
+                titles=tuple(SECTIONS[k] for k in keys),
+                selected_index=keys.index(opened),
+            ),
+            "lgs-more",
+        )
+        self._stale: set = set(keys)
+
+        level = box(
+            [
+                box(
+                    [
+                        self.alpha_picker,
+                        box([label("alternative"), self.alternative_picker], "lgs-controls", "lgs-nowrap", kind=w.HBox),
+                    ],
+                    "lgs-controls",
+                    kind=w.HBox,
+                ),
+                self.cautions_view,
+            ],
+            "lgs-level",
+        )
         children = [
             self.style,
-            self.headline,
-            tag(w.HBox([self.alpha_picker, label("alternative"), self.alternative_picker]), "lgs-controls"),
-            section("Tests"),
-            self.test_toggle,
-            self.test_view,
-            section("Correlogram of the residuals"),
-            tag(w.HBox([self.lag_slider, label("band"), self.band_toggle]), "lgs-controls"),
-            self.correlogram_view,
-            section("Residual against its own past"),
-            self.lag_picker,
-            self.scatter_view,
-            section("Residuals in test order"),
-            self.residuals_view,
-            section("Corrected inference"),
-            self.remedies_view,
+            box([self.headline, level], "lgs-row", "lgs-top"),
+            box(
+                [
+                    box([section("Durbin-Watson d on its 0\u20134 scale"), self.scale_view], "lgs-cell"),
+                    box([section("Tests"), self.test_toggle, self.test_stack], "lgs-cell", "lgs-tests-box"),
+                ],
+                "lgs-row",
+            ),
+            box(
+                [
+                    box(
+                        [
+                            section("Correlogram of the residuals"),
+                            box(
+                                [
+                                    self.lag_slider,
+                                    box([label("band"), self.band_toggle], "lgs-controls", "lgs-nowrap", kind=w.HBox),
+                                ],
+                                "lgs-controls",
+                                kind=w.HBox,
+                            ),
+                            self.correlogram_view,
+                        ],
+                        "lgs-cell",
+                        "lgs-correlogram-box",
+                    ),
+                    box(
+                        [section("Residual against its own past"), self.lag_picker, self.scatter_view],
+                        "lgs-cell",
+                        "lgs-scatter-box",
+                    ),
+                ],
+                "lgs-row",
+            ),
+            self.sections,
         ]
-        if diag.groups is not None:
-            children += [section("Groups"), self.groups_view]
-        if diag.power is not None:
-            children += [section("Power of the exact Durbin-Watson test"), self.power_view]
-        children += [tag(w.HBox([self.save_path, self.save_button]), "lgs-controls"), self.save_status]
         self.widget = tag(w.VBox(children), "lgs-panel", "lgs-root")
 
         self.alpha_picker.observe(self._on_level, names="value")
         self.alternative_picker.observe(self._on_level, names="value")
-        self.test_toggle.observe(lambda _change: self._timed("test", self._draw_test), names="value")
+        self.test_toggle.observe(self._on_test, names="value")
         redraw_cg = lambda _change: self._timed("correlogram", self._draw_correlogram)  # noqa: E731
         self.lag_slider.observe(redraw_cg, names="value")
         self.band_toggle.observe(redraw_cg, names="value")
         self.lag_picker.observe(lambda _change: self._timed("lag", self._draw_scatter), names="value")
-        self.save_button.on_click(lambda _button: self.save())
+        self.sections.observe(self._on_section, names="selected_index")
+        self.save_button.on_click(lambda _button: self.prepare_download())
         self.refresh()
 
     # -- state ---------------------------------------------------------------------
@@ -303,6 +471,23 @@ class DiagnosisPanel:
     lag = _bound("lag_picker", "Lag h of the e_t against e_{t-h} scatter.")
 
     @property
+    def test_view(self):
+        """The view of the test on show (one of :attr:`test_views`)."""
+        return self.test_views.get(self.test, self.test_stack.children[0])
+
+    @property
+    def section(self) -> str | None:
+        """Key of the open section (see :data:`SECTIONS`), or None when all are closed."""
+        i = self.sections.selected_index
+        return None if i is None else self.section_keys[i]
+
+    @section.setter
+    def section(self, key: str | None) -> None:
+        if key is not None:
+            key = check_choice(key, "section", self.section_keys)
+        self.sections.selected_index = None if key is None else self.section_keys.index(key)
+
+    @property
     def view_options(self) -> dict:
         """Options that make the static views match the panel."""
         opts = {"max_lag": self.max_lag, "band": self.band, "lag": self.lag, "figures": self.figure_format}
@@ -317,14 +502,16 @@ class DiagnosisPanel:
         cg = self.base.correlogram
         return None if cg is None else cg.at_alpha(self.alpha if alpha is None else alpha)
 
-    def _specs(self, diag=None) -> dict:
-        """Figure name -> (cache key, maker, title) for the current state (or for the panel's other
-        controls at ``diag``'s alpha and alternative), in report order."""
+    def _specs(self, diag=None, *, max_lag=None, band=None, lag=None) -> dict:
+        """Figure name -> (cache key, maker, title) for the current state, or for another state a user may
+        pick next: ``diag``'s alpha and alternative, another ``max_lag``, ``band`` or ``lag`` (drawn ahead)."""
         from .render import figures as F
         from .render.text import order_caveat
 
         d = self.current if diag is None else diag
-        h, cg = self.lag, self._correlogram(d.alpha)
+        max_lag = self.max_lag if max_lag is None else max_lag
+        band = self.band if band is None else band
+        h, cg = (self.lag if lag is None else lag), self._correlogram(d.alpha)
         caveat = order_caveat(self.base)  # rows out of time order: the same at every alpha and alternative
         specs: dict[str, tuple] = {}
         if DW in d.tests:
@@ -335,10 +522,8 @@ class DiagnosisPanel:
             )
         if cg is not None:
             specs["correlogram"] = (
-                ("correlogram", self.max_lag, self.band, cg.alpha),
-                lambda: F.correlogram_figure(
-                    cg, max_lag=self.max_lag, band=self.band, period=self.base.period, caveat=caveat
-                ),
+                ("correlogram", max_lag, band, cg.alpha),
+                lambda: F.correlogram_figure(cg, max_lag=max_lag, band=band, period=self.base.period, caveat=caveat),
                 "ACF and PACF of the residuals",
             )
         specs["lag"] = (
@@ -357,14 +542,16 @@ class DiagnosisPanel:
             specs["power"] = (("power",), lambda: F.power_figure(d.power), "Power of the exact Durbin-Watson test")
         return specs
 
-    def _figure(self, name: str, fmt: str | None = None, diag=None) -> tuple[str, str]:
+    def _figure(self, name: str, fmt: str | None = None, diag=None, **state) -> tuple[str, str]:
         """(markup, caption) of figure ``name`` as 'svg' or 'png'; each state is drawn and converted once.
 
-        ``diag`` draws it for another alpha/alternative (prefetch) without showing it.
+        ``diag`` (another alpha/alternative) or ``state`` (another ``max_lag``, ``band`` or ``lag``) draws it
+        ahead without showing it.
         """
         from .render import export
 
-        key, make, title = self._specs(diag)[name]
+        ahead = diag is not None or bool(state)
+        key, make, title = self._specs(diag, **state)[name]
         fmt = fmt or self.figure_format
         entry = self._entry(key)
         markups = entry[1]
@@ -378,7 +565,7 @@ class DiagnosisPanel:
                     markups[fmt] = export.figure_to_svg(fig, title=title)
             extra = [f"({n})" for n in caught.notes() if f"({n})" not in entry[2]]
             entry[2] = " ".join([entry[2], *extra]).strip()
-        if diag is None:
+        if not ahead:
             old = self._shown_keys.get(name)
             if old != key and old in self._cache:
                 self._cache[old][0] = None  # no longer on show: keep its markup only
@@ -416,25 +603,25 @@ class DiagnosisPanel:
                 out[name] = entry[0]
         return out
 
-    def _cached(self, name: str, diag) -> bool:
-        """Figure ``name`` at ``diag``'s level is cached (or absent, or failed when drawn ahead)."""
-        spec = self._specs(diag).get(name)
+    def _cached(self, name: str, diag=None, **state) -> bool:
+        """Figure ``name`` at ``diag``'s level (or another ``state``) is cached (or absent, or failed when drawn
+        ahead)."""
+        spec = self._specs(diag, **state).get(name)
         return (
             spec is None or spec[0] in self._not_ahead or self.figure_format in self._cache.get(spec[0], (None, {}))[1]
         )
 
     # -- drawing -------------------------------------------------------------------
     def refresh(self) -> None:
-        """Redraw every view."""
+        """Redraw every view on show (the closed sections are drawn when opened)."""
+        self._stale = set(self.section_keys)
         for draw in (
             self._draw_headline,
-            self._draw_test,
+            self._draw_tests,
+            self._draw_scale,
             self._draw_correlogram,
             self._draw_scatter,
-            self._draw_residuals,
-            self._draw_remedies,
-            self._draw_groups,
-            self._draw_power,
+            self._draw_open_section,
         ):
             draw()
 
@@ -445,60 +632,89 @@ class DiagnosisPanel:
 
     def _draw(self, name: str, widget, build) -> None:
         try:
-            widget.value = build()
+            value = build()
             self.errors.pop(name, None)
         except Exception as err:  # a failing view must not take the panel down
             self.errors[name] = _message(err)
-            widget.value = error_box("This view could not be drawn:", self.errors[name])
+            value = error_box("This view could not be drawn:", self.errors[name])
+        if widget.value != value:  # an unchanged view sends nothing to the browser
+            widget.value = value
 
     def _draw_headline(self) -> None:
         self._draw("headline", self.headline, lambda: views.headline_html(self.current))
+        self._draw("cautions", self.cautions_view, lambda: views.cautions_html(self.current, self._shown_views()))
 
-    def _draw_test(self) -> None:
+    def _shown_views(self) -> set:
+        """Names of the views this panel offers (a caution may point only at these)."""
+        return {"scale", "correlogram", "lag", "residuals", *(k for k in self.section_keys)}
+
+    def _draw_tests(self) -> None:
+        for name, widget in self.test_views.items():
+            self._draw("test", widget, lambda name=name: views.test_html(self.current, name))
+
+    def _draw_scale(self) -> None:
         def build():
-            body = views.test_html(self.current, self.test)
-            if self.test == DW and DW in self.current.tests:
-                body += views.figure_html(*self._figure("scale"))
-            return body
+            if DW not in self.current.tests:
+                why = self.current.errors.get(DW, "the Durbin-Watson test was not run for this input")
+                return error_box("No 0\u20134 scale:", why)
+            return _figure_view(*self._figure("scale"))
 
-        self._draw("test", self.test_view, build)
+        self._draw("scale", self.scale_view, build)
 
     def _draw_correlogram(self) -> None:
         def build():
             if self.base.correlogram is None:
                 return error_box("No correlogram:", self.base.errors.get("Correlogram", "too few residuals"))
-            return views.figure_html(*self._figure("correlogram"))
+            return _figure_view(*self._figure("correlogram"))
 
         self._draw("correlogram", self.correlogram_view, build)
 
     def _draw_scatter(self) -> None:
-        self._draw("lag", self.scatter_view, lambda: views.figure_html(*self._figure("lag")))
+        self._draw("lag", self.scatter_view, lambda: _figure_view(*self._figure("lag")))
 
-    def _draw_residuals(self) -> None:
-        self._draw("residuals", self.residuals_view, lambda: views.figure_html(*self._figure("residuals")))
-
-    def _draw_remedies(self) -> None:
-        self._draw("remedies", self.remedies_view, lambda: views.remedies_html(self.current))
-
-    def _draw_groups(self) -> None:
-        if self.current.groups is not None:
+    def _draw_section(self, key: str) -> None:
+        self._stale.discard(key)
+        if key == "next":
+            self._draw("next", self.next_view, lambda: views.next_html(self.current))
+        elif key == "residuals":
+            self._draw("residuals", self.residuals_view, lambda: _figure_view(*self._figure("residuals")))
+        elif key == "remedies":
+            self._draw("remedies", self.remedies_view, lambda: views.remedies_html(self.current))
+        elif key == "groups":
             self._draw(
                 "groups",
                 self.groups_view,
-                lambda: views.figure_html(*self._figure("groups")) + views.groups_html(self.current),
+                lambda: _figure_view(*self._figure("groups")) + views.groups_html(self.current),
             )
+        elif key == "power":
+            self._draw("power", self.power_view, lambda: _figure_view(*self._figure("power")))
+        elif key == "report":
+            self.save_status.value = ""  # a report prepared earlier shows an older state
 
-    def _draw_power(self) -> None:
-        if self.current.power is not None:
-            self._draw("power", self.power_view, lambda: views.figure_html(*self._figure("power")))
+    def _draw_open_section(self) -> None:
+        if self.section is not None and self.section in self._stale:
+            self._draw_section(self.section)
 
     # -- callbacks -----------------------------------------------------------------
     def _timed(self, name: str, redraw) -> None:
         start = time.perf_counter()
         redraw()
+        if self._prepared is not None:  # the report prepared earlier shows an older state
+            self._prepared = None
+            self.save_status.value = '<span class="lgs-caption">The view changed: prepare the report again.</span>'
         self.timings[name] = time.perf_counter() - start
         self._snapshot_changed()
         self._schedule_prefetch(self.prefetch_delay)
+
+    def _on_test(self, _change=None) -> None:
+        def switch():  # the browser switched the view already (linked); keep the kernel's copy in step
+            if self.test in self.test_views:
+                self.test_stack.selected_index = list(self.test_views).index(self.test)
+
+        self._timed("test", switch)
+
+    def _on_section(self, _change=None) -> None:
+        self._timed("section", self._draw_open_section)
 
     def _at_level(self, alpha: float, alternative: str):
         """The diagnosis at ``alpha`` and ``alternative`` (re-assessed once, then kept)."""
@@ -517,33 +733,64 @@ class DiagnosisPanel:
                 return
             self.errors.pop("reassess", None)
             self.current = current
+            self._stale = set(self.section_keys)
             for draw in (
                 self._draw_headline,
-                self._draw_test,
+                self._draw_tests,
+                self._draw_scale,
                 self._draw_correlogram,
-                self._draw_remedies,
-                self._draw_groups,
+                self._draw_open_section,
             ):
                 draw()
 
         self._timed("alpha/alternative", redraw)
 
-    def save(self, path=None) -> Path | None:
-        """Write the standalone HTML report of the current view (the save button); say where in the panel."""
-        from .render.html import save_html
+    def report_html(self) -> str:
+        """The standalone HTML report of the current view (what the download holds)."""
+        from .render.html import report_page
 
-        path = str(self.save_path.value if path is None else path).strip()
+        return report_page(self.current, **self.view_options)
+
+    def prepare_download(self) -> str | None:
+        """Build the report of the current view and offer it as a browser download (the panel's button).
+
+        Nothing is written on the server: the report travels to the browser as a
+        ``data:`` link named after the model's variable and the time (see
+        :func:`download_name`).  Returns the file name, or None when it failed (the
+        panel says why).
+        """
+        import base64
+
+        start = time.perf_counter()
         try:
-            if not path:
-                raise ValueError("'path' must be a file name (got an empty string)")
-            written = Path(save_html(self.current, Path(path).expanduser(), **self.view_options))
+            page = self.report_html()
         except Exception as err:  # shown to the user in the panel
             self.errors["save"] = _message(err)
-            self.save_status.value = error_box("Not saved:", self.errors["save"])
+            self.save_status.value = error_box("No report:", self.errors["save"])
             return None
         self.errors.pop("save", None)
+        file_name = download_name(self.name)
+        data = base64.b64encode(page.encode("utf-8")).decode("ascii")
+        size = len(page.encode("utf-8"))
+        self.save_status.value = (
+            f'<a class="lgs-download" download="{_esc(file_name)}" href="data:text/html;charset=utf-8;base64,{data}">'
+            f"Download {_esc(file_name)}</a> "
+            f'<span class="lgs-caption">{size / 1024:,.0f} KB, one file, opens offline</span>'
+        )
+        self._prepared = file_name
+        self.timings["report"] = time.perf_counter() - start
+        return file_name
+
+    def save(self, path, *, overwrite: bool = False) -> Path:
+        """Write the standalone HTML report of the current view to ``path`` on the kernel's machine.
+
+        Refuses to replace an existing file unless ``overwrite=True``.  (The panel's
+        button offers the report as a browser download instead and writes nothing.)
+        """
+        from .render.html import save_html
+
+        written = Path(save_html(self.current, path, overwrite=overwrite, **self.view_options))
         self.saved_path = written.resolve()
-        self.save_status.value = f'<span class="lgs-caption">Saved the report to {_esc(self.saved_path)}</span>'
         return self.saved_path
 
     # -- the static snapshot and display -------------------------------------------
@@ -614,12 +861,32 @@ class DiagnosisPanel:
         alternatives = [self.alternative] + [a for a in ALTERNATIVES if a != self.alternative]
         return [(a, alt) for alt in alternatives for a in alphas]
 
-    def prefetch_step(self) -> bool:
-        """Draw one figure that a level choice would need and is not cached; False when none is left.
+    def _control_choices(self):
+        """(figure, state) pairs a user may ask for next with the correlogram and lag controls, nearest first:
+        the other band, then the max lag and the lag h one, two, ... steps either side of their values."""
+        out = [("correlogram", {"band": b}) for _, b in BANDS if b != self.band]
+        top_cg, top_h = self.lag_slider.max, self.lag_picker.max
+        for step in range(1, max(top_cg, top_h)):
+            for sign in (-1, 1):
+                m, h = self.max_lag + sign * step, self.lag + sign * step
+                if 1 <= m <= top_cg:
+                    out.append(("correlogram", {"max_lag": m}))
+                if 1 <= h <= top_h and step <= _LAG_AHEAD:
+                    out.append(("lag", {"lag": h}))
+        return out
 
-        Only the views that change with alpha and alternative (the scale and the
-        correlogram bands) are drawn ahead; tables and text are cheap to redo.
+    def prefetch_step(self) -> bool:
+        """Draw one figure that a next choice would need and is not cached; False when none is left.
+
+        First the other α and alternative choices (the scale and the correlogram bands:
+        tables and text are cheap to redo), then the correlogram and the lag
+        scatter at the control positions nearest the current ones; the nearest few
+        (the other band, one step either side) before everything else.
         """
+        choices = self._control_choices()
+        for name, state in choices[:_NEAR]:
+            if self._draw_ahead(name, None, **state):
+                return True
         for alpha, alternative in self._level_choices():
             if (alpha, alternative) in self._not_ahead:
                 continue
@@ -631,13 +898,26 @@ class DiagnosisPanel:
                 return True
             diag = self._diagnoses[(alpha, alternative)]
             for name in ("scale", "correlogram"):
-                if not self._cached(name, diag):
-                    try:
-                        self._figure(name, diag=diag)
-                    except Exception:  # not retried ahead; the view shows the error if it is picked
-                        self._not_ahead.add(self._specs(diag)[name][0])
+                if self._draw_ahead(name, diag):
                     return True
+        drawn = 0
+        for name, state in choices:
+            if self._draw_ahead(name, None, **state):
+                return True
+            drawn += 1
+            if drawn >= _CACHE_SIZE // 2:  # keep the cache for the states near the current one
+                break
         return False
+
+    def _draw_ahead(self, name: str, diag, **state) -> bool:
+        """Draw figure ``name`` for a state not on show, unless cached; True when something was drawn."""
+        if self._cached(name, diag, **state):
+            return False
+        try:
+            self._figure(name, diag=diag, **state)
+        except Exception:  # not retried ahead; the view shows the error if it is picked
+            self._not_ahead.add(self._specs(diag, **state)[name][0])
+        return True
 
     def _schedule_prefetch(self, delay) -> None:
         loop = _running_loop()

@@ -16,15 +16,24 @@ from dataclasses import dataclass
 
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN, LeadPlan, strength
 
-__all__ = ["Verdict", "write_verdict", "holm", "CAUTIONS", "FINDINGS", "format_p", "tiny_p_text", "log10_p"]
+__all__ = [
+    "Verdict",
+    "write_verdict",
+    "holm",
+    "CAUTIONS",
+    "ASSUMPTIONS",
+    "FINDINGS",
+    "format_p",
+    "tiny_p_text",
+    "log10_p",
+]
 
 #: the four findings
 FINDINGS = ("evidence", "no evidence", "not meaningful", "cannot judge")
 
 #: assumptions of each test, shown with every verdict
 CAUTIONS = (
-    "Failing to reject is not proof that the errors are independent: a test can lack power for this n and "
-    "design (see the power curve).",
+    "Failing to reject is not proof that the errors are independent: a test can lack power for this n and design.",
     "Durbin-Watson looks at lag 1 only; Breusch-Godfrey and Ljung-Box look further, the seasonal statistic at lag s.",
     "The exact Durbin-Watson p-value assumes fixed regressors, normal errors with constant variance and OLS "
     "residuals of this design; it is biased towards 2 when a lagged response is a regressor.",
@@ -34,6 +43,18 @@ CAUTIONS = (
     "The finding reads the leading test only (adjusted by weighted Holm when it is a family of two); the other tests "
     "support the reading and do not change it.",
 )
+
+#: what each leading test assumes, in a few words (the panel's cautions line)
+ASSUMPTIONS = {
+    DW: "the exact Durbin-Watson p-value assumes fixed regressors and normal errors with constant variance",
+    DALT: "Durbin's alternative test is a large-sample test (approximate p-values in small samples)",
+    DH: "Durbin's h is a large-sample test and needs n \u00b7 var(lagged-response coefficient) < 1",
+    BG: "Breusch-Godfrey is a large-sample test (approximate p-values in small samples)",
+    LB: "Ljung-Box is a large-sample test (approximate p-values in small samples)",
+    SEASONAL: "the seasonal statistic assumes fixed regressors and normal errors with constant variance",
+    SEASONAL_GIVEN: "the seasonal statistic assumes fixed regressors and normal errors with constant variance",
+    RUNS: "the runs test uses only the signs of the residuals and has less power",
+}
 
 _STRENGTH_WORDS = {"strong": "Strong", "clear": "Clear", "some": "Some"}
 

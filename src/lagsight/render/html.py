@@ -18,7 +18,7 @@ from pathlib import Path
 
 from ..battery_run import DW
 from ..diagnosis import Diagnosis
-from ..stats._arrays import check_optional_int
+from ..stats._arrays import check_flag, check_optional_int
 from ..stats._caught import caught_warnings
 from . import figures as F
 from .style import CSS
@@ -420,16 +420,30 @@ _PAGE = """<!DOCTYPE html>
 """
 
 
-def save_html(diag, path, **view_options) -> Path:
-    """Write a standalone HTML report (one file, figures inline, no network); returns its path."""
-    if not isinstance(path, (str, os.PathLike)):
-        raise TypeError(f"'path' must be a str or path (got {type(path).__name__})")
-    target = Path(path)
-    if not target.parent.is_dir():
-        raise ValueError(f"'path' must be in an existing folder (got {str(target)!r})")
+def report_page(diag, **view_options) -> str:
+    """The standalone HTML report as a string (one page, figures inline, no network)."""
     from .. import __version__
 
     body = diagnosis_html(diag, **view_options)
-    page = _PAGE.format(title=_e(f"lagsight report: {diag.data.source}"), body=body, version=_e(__version__))
-    target.write_text(page, encoding="utf-8")
+    return _PAGE.format(title=_e(f"lagsight report: {diag.data.source}"), body=body, version=_e(__version__))
+
+
+def save_html(diag, path, *, overwrite: bool = False, **view_options) -> Path:
+    """Write a standalone HTML report (one file, figures inline, no network); returns its path.
+
+    An existing file is replaced only with ``overwrite=True`` (else FileExistsError).
+    """
+    if not isinstance(path, (str, os.PathLike)):
+        raise TypeError(f"'path' must be a str or path (got {type(path).__name__})")
+    overwrite = check_flag(overwrite, "overwrite")
+    target = Path(path).expanduser()
+    if not str(path).strip():
+        raise ValueError("'path' must be a file name (got an empty string)")
+    if not target.parent.is_dir():
+        raise ValueError(f"'path' must be in an existing folder (got {str(target)!r})")
+    if target.is_dir():
+        raise ValueError(f"'path' is a folder, not a file (got {str(target)!r})")
+    if target.exists() and not overwrite:
+        raise FileExistsError(f"{str(target)!r} exists; pass overwrite=True to replace it")
+    target.write_text(report_page(diag, **view_options), encoding="utf-8")
     return target

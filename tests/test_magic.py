@@ -249,7 +249,7 @@ MISTAKES = [
     ("%lagsight nothere", "not defined"),
     ("%lagsight 42", "model"),
     ("%lagsight 'text'", "model"),
-    ("%lagsight", "give the model"),
+    ("%lagsight", "several fitted models in this session (fit, gfit, sfit)"),
     ("%lagsight fit[", "not a Python expression"),
     ("%lagsight fit.nope", "AttributeError"),
     ("%lagsight fit --alpha 1.5", "--alpha"),
@@ -286,6 +286,60 @@ def test_user_mistakes_are_one_line_usage_errors(shell, line, word):
     assert word in lines[0]
     assert "Traceback" not in cap.stdout + cap.stderr
     assert cap.outputs == []
+
+
+# -- %lagsight with no argument ------------------------------------------------------
+@pytest.fixture
+def fresh_shell():
+    """A shell of its own (the module's holds several fitted models)."""
+    ip = InteractiveShell.instance()
+    saved = dict(ip.user_ns)
+    for name in [k for k in ip.user_ns if not k.startswith("_") and k not in ip.user_ns_hidden]:
+        del ip.user_ns[name]
+    ip.user_ns.update(frame=water_demand())
+    try:
+        yield ip
+    finally:
+        ip.user_ns.clear()
+        ip.user_ns.update(saved)
+
+
+def test_no_argument_takes_the_model_the_previous_cell_fitted_and_says_so(fresh_shell):
+    ip = fresh_shell
+    ip.user_ns["smf"] = smf
+    run(ip, "only = smf.ols('demand_ml ~ temp_c', data=frame).fit()")
+    result, _ = run(ip, "%lagsight")
+    d = result.result
+    assert isinstance(d, lagsight.Diagnosis)
+    # the same statistic as naming it (statsmodels' durbin_watson as the reference)
+    assert d.tests[DW].statistic == pytest.approx(sm_durbin_watson(ip.user_ns["only"].resid), rel=1e-12)
+    assert re.fullmatch(r"%lagsight took only: the fitted model cell \[\d+\] assigned\.", d.notes[0]), d.notes[0]
+    assert preferences(d)["name"] == "only" and preferences(d)["hint_syntax"] == "magic"
+    # a second fitted model elsewhere: the previous cell still decides
+    ip.user_ns["other"] = ip.user_ns["only"].model.fit()
+    run(ip, "newest = smf.ols('demand_ml ~ rain_mm', data=frame).fit()")
+    result, _ = run(ip, "%lagsight --quiet")
+    assert result.result.notes[0].startswith("%lagsight took newest: the fitted model cell [")
+    # nothing fitted in the previous cell and several in the session: a one-line list
+    run(ip, "z = 1")
+    result, cap = run(ip, "%lagsight")
+    assert isinstance(result.error_in_exec, UsageError)
+    assert "several fitted models in this session (newest, only, other): name one" in cap.stderr
+    assert len(cap.stderr.strip().splitlines()) == 1
+
+
+def test_no_argument_with_one_model_or_none(fresh_shell):
+    ip = fresh_shell
+    result, cap = run(ip, "%lagsight")
+    assert isinstance(result.error_in_exec, UsageError) and "no fitted model in this session" in cap.stderr
+    ip.user_ns["lone"] = smf.ols("demand_ml ~ temp_c", data=ip.user_ns["frame"]).fit()
+    run(ip, "z = 2")
+    result, _ = run(ip, "%lagsight --static")
+    assert result.result.notes[0] == "%lagsight took lone: the only fitted model in this session."
+    # a model the previous cell showed (its Out entry) is taken first
+    run(ip, "lone.model.fit()")
+    result, _ = run(ip, "%lagsight --quiet")
+    assert re.match(r"%lagsight took Out\[\d+\]: the result cell \[\d+\] showed\.", result.result.notes[0])
 
 
 # -- %lagsight_bounds ----------------------------------------------------------------

@@ -60,12 +60,18 @@ _VIEW_KEYS = ("max_lag", "band", "lag", "test", "figures")
 _PREFS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
-def set_preferences(diag, *, mode: str | None = None, **view_options) -> None:
+def set_preferences(
+    diag, *, mode: str | None = None, name: str | None = None, hint_syntax: str | None = None, **view_options
+) -> None:
     """Remember how ``diag`` is to be displayed (used by the magic's ``--static`` / ``--quiet``).
 
     Parameters
     ----------
     mode : {'panel', 'static', 'quiet'}, optional
+    name : str, optional
+        The model's variable name (names a downloaded report).
+    hint_syntax : {'api', 'magic'}, optional
+        Whose syntax the panel writes hints in.
     **view_options
         ``max_lag``, ``band``, ``lag``, ``test`` or ``figures`` for the views.
     """
@@ -77,6 +83,10 @@ def set_preferences(diag, *, mode: str | None = None, **view_options) -> None:
     prefs = dict(_PREFS.get(diag, {}))
     if mode is not None:
         prefs["mode"] = mode
+    if name is not None:
+        prefs["name"] = str(name)
+    if hint_syntax is not None:
+        prefs["hint_syntax"] = hint_syntax
     prefs.update({k: v for k, v in view_options.items() if v is not None})
     _PREFS[diag] = prefs
 
@@ -264,7 +274,13 @@ def show(diag, *, mode: str | None = None, widgets: bool | None = None, **view_o
     from .panel import DiagnosisPanel
 
     try:
-        panel = DiagnosisPanel(diag, **_view(diag, view_options))
+        prefs = preferences(diag)
+        panel = DiagnosisPanel(
+            diag,
+            name=prefs.get("name"),
+            hint_syntax=prefs.get("hint_syntax", "api"),
+            **_view(diag, view_options),
+        )
     except Exception as err:  # the static view still shows; say why the panel did not
         warnings.warn(
             f"lagsight: the interactive panel could not be built ({_message(err)}); showing the static view",

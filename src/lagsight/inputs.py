@@ -220,6 +220,15 @@ def _kind(model) -> str | None:
     return None
 
 
+def is_fitted_model(obj) -> bool:
+    """True for a fitted model lagsight diagnoses with nothing else given (statsmodels regression and
+    state-space results); what ``%lagsight`` with no argument looks for."""
+    try:
+        return _kind(obj) in ("regression", "statespace")
+    except Exception:  # an object whose attributes raise is no model
+        return False
+
+
 def _from_regression(res) -> tuple[ResidualData, np.ndarray | None]:
     from statsmodels.regression.linear_model import OLS
 

@@ -86,7 +86,12 @@ class LagsightMagics(Magics):
             ) from None
 
     @magic_arguments()
-    @argument("expr", nargs="*", help="The model or residuals: a name or expression from the notebook.")
+    @argument(
+        "expr",
+        nargs="*",
+        help="The model or residuals: a name or expression from the notebook. Left out: the fitted model the "
+        "previous cell showed or assigned, else the only fitted model in the session.",
+    )
     @argument("--max-lag", type=int, metavar="N", help="Highest lag of the correlogram and the Ljung-Box test.")
     @argument("--bg-max-lag", type=int, metavar="P", help="Highest lag of the Breusch-Godfrey test.")
     @argument("--alpha", type=float, metavar="A", help="Significance level, in (0, 1). Default 0.05.")
@@ -139,6 +144,7 @@ class LagsightMagics(Magics):
         ::
 
             %load_ext lagsight
+            %lagsight                              # the model the previous cell fitted
             %lagsight fit                          # statsmodels results: the full panel
             d = %lagsight fit --alpha 0.01 --alternative two-sided
             %lagsight fit --order date --max-lag 30  # sort rows by the 'date' column first
@@ -152,10 +158,12 @@ class LagsightMagics(Magics):
         silent = line.endswith(";")
         args = _parse(self.lagsight, line.rstrip(";"))
         expr = " ".join(args.expr)
-        if not expr:
-            raise UsageError("give the model to diagnose, e.g. %lagsight fit (see %lagsight?)")
         options = self._options(args)
-        model = self._evaluate(expr, "model")
+        took = None
+        if expr:
+            model = self._evaluate(expr, "model")
+        else:
+            expr, model, took = self._pick_model()
         self._design(model, args, options)
         from .diagnosis import diagnose
         from .display import set_preferences, silence_in_cell
@@ -164,11 +172,66 @@ class LagsightMagics(Magics):
             diag = diagnose(model, **options)
         except (TypeError, ValueError) as err:
             raise _usage(err) from None
+        if took is not None:
+            import dataclasses
+
+            diag = dataclasses.replace(diag, notes=(f"%lagsight took {expr}: {took}.", *diag.notes))
         mode = "quiet" if args.quiet else ("static" if args.static else "panel")
-        set_preferences(diag, mode=mode)
+        set_preferences(diag, mode=mode, name=expr, hint_syntax="magic")
         if silent:
             silence_in_cell(diag, self.shell)
         return diag
+
+    def _pick_model(self) -> tuple[str, object, str]:
+        """(name, model, why) for ``%lagsight`` with no argument: the fitted model the previous cell showed
+        or assigned, else the only fitted model in the session; a UsageError listing them when there are
+        several, or saying there is none."""
+        import ast
+
+        from .inputs import is_fitted_model
+
+        shell = self.shell
+        assert shell is not None  # a registered magic always has its shell
+        ns, hidden = shell.user_ns, getattr(shell, "user_ns_hidden", {})
+        found = {}
+        for name, value in list(ns.items()):
+            if name.startswith("_") or name in hidden:
+                continue
+            if is_fitted_model(value):
+                found[name] = value
+        # while a cell runs it is the last entry of In: the one before it is the previous cell
+        inputs = ns.get("In", [])
+        inputs = inputs if isinstance(inputs, list) else []
+        previous = len(inputs) - 2
+        out = ns.get("Out", {})
+        if previous > 0 and isinstance(out, dict) and is_fitted_model(out.get(previous)):
+            return f"Out[{previous}]", out[previous], f"the result cell [{previous}] showed"
+        source = inputs[previous] if previous > 0 else ""
+        try:
+            tree = ast.parse(source)
+        except SyntaxError:
+            tree = ast.parse("")
+        assigned = [
+            node.id
+            for node in ast.walk(tree)
+            if isinstance(node, ast.Name) and isinstance(node.ctx, ast.Store) and node.id in found
+        ]
+        if len(set(assigned)) == 1:
+            return assigned[0], found[assigned[0]], f"the fitted model cell [{previous}] assigned"
+        if len(set(assigned)) > 1:
+            names = ", ".join(sorted(set(assigned)))
+            raise UsageError(
+                f"cell [{previous}] assigned several fitted models ({names}): name one, e.g. %lagsight {assigned[-1]}"
+            )
+        if len(found) == 1:
+            name = next(iter(found))
+            return name, found[name], "the only fitted model in this session"
+        if not found:
+            raise UsageError("no fitted model in this session: give the model to diagnose, e.g. %lagsight fit")
+        names = ", ".join(sorted(found))
+        raise UsageError(
+            f"several fitted models in this session ({names}): name one, e.g. %lagsight {sorted(found)[0]}"
+        )
 
     def _options(self, args) -> dict:
         if args.static and args.quiet:

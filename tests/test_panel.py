@@ -384,6 +384,47 @@ def test_idle_prefetch_draws_every_level_choice_so_picking_one_draws_nothing(dia
     assert _svg_texts(cold.correlogram_view.value) == _svg_texts(panel.correlogram_view.value)
 
 
+def test_idle_prefetch_draws_the_neighbouring_control_states(diag):
+    panel = DiagnosisPanel(diag, snapshot_delay=0, prefetch_delay=None, max_lag=10, lag=3)
+    while panel.prefetch_step():
+        pass
+    drawn = panel.renders
+    for change in (
+        lambda: setattr(panel, "band", "bartlett"),
+        lambda: setattr(panel, "band", "white"),
+        lambda: setattr(panel, "max_lag", 11),
+        lambda: setattr(panel, "max_lag", 8),
+        lambda: setattr(panel, "lag", 1),
+        lambda: setattr(panel, "lag", 5),
+    ):
+        change()
+        assert panel.renders == drawn, "a neighbouring state was not drawn ahead"
+    panel.max_lag = 20  # far away: drawn on demand
+    assert panel.renders == drawn + 1
+
+
+def test_a_deferred_snapshot_draws_one_figure_per_loop_step_then_publishes(diag):
+    panel = DiagnosisPanel(diag, snapshot_delay=0.01, prefetch_delay=None)
+    steps = []
+    real = panel._snapshot_step
+
+    def step():
+        steps.append(panel.snapshot_updates)
+        real()
+
+    panel._snapshot_step = step
+
+    async def change():
+        panel.show()
+        panel.alpha = 0.01  # new PNG figures for the snapshot: the scale and the correlogram
+        await asyncio.sleep(0.3)
+
+    with capture_output():
+        asyncio.run(change())
+    assert panel.snapshot_updates == 1
+    assert len(steps) == 3, steps  # the scale, the correlogram, then the publication: one step each
+
+
 def _svg_texts(markup: str) -> list[str]:
     """The words of a view's inline SVG figure (matplotlib writes text as <text> elements here)."""
     texts = re.findall(r"<text\b[^>]*>(.*?)</text>", markup, flags=re.S)

@@ -49,17 +49,19 @@ TEST_ORDER = (DW, DH, DALT, BG, LB, SEASONAL, SEASONAL_GIVEN, RUNS)
 SNAPSHOT_FIGURES = ("scale", "correlogram")
 #: resolution of the snapshot's PNG figures
 SNAPSHOT_DPI = 96
-#: seconds between a change and the snapshot refresh while an event loop runs (a live kernel)
-SNAPSHOT_DELAY = 0.25
+#: seconds of quiet after a change before the snapshot refresh while an event loop runs (a live kernel)
+SNAPSHOT_DELAY = 0.6
 #: seconds of quiet after the panel is shown (or changed) before it draws, in idle time and one figure per
 #: step, the views for the other alpha and alternative choices, so that picking one later only swaps markup
-PREFETCH_DELAY = 1.0
+PREFETCH_DELAY = 0.5
 #: seconds between two prefetch steps (messages from the front end are served in between)
 _PREFETCH_STEP = 0.02
 
 _CACHE_SIZE = 96
 #: lag h positions drawn ahead either side of the current one
 _LAG_AHEAD = 3
+#: max-lag positions drawn ahead either side of the current one
+_MAX_LAG_AHEAD = 4
 #: control choices drawn ahead before the α and alternative choices
 _NEAR = 5
 #: the sections that open on demand, in order: key -> title
@@ -834,18 +836,41 @@ class DiagnosisPanel:
         self.show()
 
     def _snapshot_changed(self) -> None:
+        """Refresh the snapshot after :attr:`snapshot_delay` seconds of quiet (each change restarts the wait);
+        the figures it needs are drawn one per event-loop step, so a control moved meanwhile waits for one
+        figure at most."""
         if not self._shown:
             return
         loop = _running_loop()
         if self.snapshot_delay <= 0 or loop is None:
             self.flush_snapshot()
-        elif self._pending is None:
-            self._pending = loop.call_later(self.snapshot_delay, self.flush_snapshot)
+            return
+        if self._pending is not None:
+            self._pending.cancel()
+        self._pending = loop.call_later(self.snapshot_delay, self._snapshot_step)
+
+    def _snapshot_step(self) -> None:
+        """One step of a deferred refresh: draw one missing PNG of the snapshot, or publish it."""
+        loop = _running_loop()
+        for name in SNAPSHOT_FIGURES:
+            spec = self._specs().get(name)
+            if spec is None or "png" in self._cache.get(spec[0], (None, {}))[1]:
+                continue
+            try:
+                self._figure(name, "png")
+            except Exception:  # the snapshot shows the error in place of the figure
+                break
+            if loop is not None:
+                self._pending = loop.call_soon(self._snapshot_step)
+                return
+        self.flush_snapshot()
 
     def flush_snapshot(self) -> None:
         """Publish the current static snapshot to its display id now."""
         from IPython.display import update_display
 
+        if self._pending is not None:
+            self._pending.cancel()
         self._pending = None
         start = time.perf_counter()
         update_display(self.snapshot(), raw=True, display_id=self.display_id)
@@ -866,10 +891,10 @@ class DiagnosisPanel:
         the other band, then the max lag and the lag h one, two, ... steps either side of their values."""
         out = [("correlogram", {"band": b}) for _, b in BANDS if b != self.band]
         top_cg, top_h = self.lag_slider.max, self.lag_picker.max
-        for step in range(1, max(top_cg, top_h)):
+        for step in range(1, max(_MAX_LAG_AHEAD, _LAG_AHEAD) + 1):
             for sign in (-1, 1):
                 m, h = self.max_lag + sign * step, self.lag + sign * step
-                if 1 <= m <= top_cg:
+                if 1 <= m <= top_cg and step <= _MAX_LAG_AHEAD:
                     out.append(("correlogram", {"max_lag": m}))
                 if 1 <= h <= top_h and step <= _LAG_AHEAD:
                     out.append(("lag", {"lag": h}))
@@ -900,14 +925,7 @@ class DiagnosisPanel:
             for name in ("scale", "correlogram"):
                 if self._draw_ahead(name, diag):
                     return True
-        drawn = 0
-        for name, state in choices:
-            if self._draw_ahead(name, None, **state):
-                return True
-            drawn += 1
-            if drawn >= _CACHE_SIZE // 2:  # keep the cache for the states near the current one
-                break
-        return False
+        return any(self._draw_ahead(name, None, **state) for name, state in choices)
 
     def _draw_ahead(self, name: str, diag, **state) -> bool:
         """Draw figure ``name`` for a state not on show, unless cached; True when something was drawn."""

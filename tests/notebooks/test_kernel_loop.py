@@ -35,10 +35,10 @@ fit = sm.OLS(x @ [1.0, -2.0] + u, sm.add_constant(x)).fit()""",
     await asyncio.sleep(0.05)
     if panel._prefetch_handle is None:
         break
-drawn = panel.renders
+drawn, left = panel.renders, panel.prefetch_step()
 for alpha, alternative in panel._level_choices():
     panel.alpha_picker.value, panel.alternative_picker.value = alpha, alternative
-print(json.dumps({'left': panel.prefetch_step(), 'renders': drawn, 'drawn_on_pick': panel.renders - drawn,
+print(json.dumps({'left': left, 'renders': drawn, 'drawn_on_pick': panel.renders - drawn,
                   'errors': panel.errors}))""",
 ]
 

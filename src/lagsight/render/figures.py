@@ -13,17 +13,18 @@ import math
 import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
+from scipy import stats
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
 
 from ..order import _time_axis
 from ..stats._arrays import scaled
-from ..stats.correlogram import Correlogram, lag_pairs
+from ..stats.correlogram import Correlogram, lag_pairs, ljung_box_q
 from ..stats.power import TARGET_POWER
 from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
 from .scale import bounds_figure, density_grid, scale_figure
-from .style import FIG_WIDTH, PALETTE, figure_rc
-from .text import order_caveat
+from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, figure_rc
+from .text import format_pvalue, order_caveat
 
 __all__ = [
     "scale_figure",
@@ -62,7 +63,7 @@ def _finish(fig: Figure, caption: str, caveat: str = "") -> Figure:
             _plain(caveat),
             ha="right",
             va="top",
-            fontsize=7,
+            fontsize=MIN_FONT_PT,
             style="italic",
             color=PALETTE["orange"],
             wrap=True,
@@ -110,26 +111,51 @@ def correlogram_figure(
     shown = min(int(max_lag), available)
     lags = correlogram.lags[:shown]
     z_note = f"{100 * (1 - correlogram.alpha):g}%"
+    n = correlogram.n
+    q = float(ljung_box_q(correlogram.acf[:shown], n)[-1])
+    q_p = float(stats.chi2.sf(q, shown))
+    seasonal = bool(period and 1 < period <= shown)
+    # layout in inches, from the top: header, then ACF and PACF stacked on one lag axis
+    head_h, title_h, ax_h, foot_h, legend_h = 0.3, 0.2, 0.92, 0.42, 0.26
+    height = head_h + 2 * (title_h + ax_h) + foot_h + legend_h
+    left, right = 0.64 / width, 1 - 0.14 / width
     with figure_rc():
-        fig = Figure(figsize=(width, 3.0))
-        axes = fig.subplots(1, 2, sharey=True)
-        fig.subplots_adjust(left=0.08, right=0.98, top=0.8, bottom=0.26, wspace=0.08)
+        fig = Figure(figsize=(width, height))
+        axes = []
+        y = height - head_h
+        for i in range(2):
+            y -= title_h
+            axes.append(
+                fig.add_axes((left, (y - ax_h) / height, right - left, ax_h / height), sharex=axes[0] if axes else None)
+            )
+            y -= ax_h
         for ax, values, name in (
             (axes[0], correlogram.acf[:shown], "ACF"),
             (axes[1], correlogram.pacf[:shown], "PACF"),
         ):
             if name == "ACF" and band == "bartlett":
                 b = correlogram.bartlett_band[:shown]
-                poly = ax.fill_between(lags, -b, b, step="mid", color=PALETTE["blue_light"], lw=0, zorder=0)
+                # a step per lag, from lag - 1/2 to lag + 1/2: lag 1 has its band too (z/sqrt(n) there)
+                edges = np.append(lags - 0.5, shown + 0.5)
+                poly = ax.fill_between(
+                    edges,
+                    -np.append(b, b[-1]),
+                    np.append(b, b[-1]),
+                    step="post",
+                    color=PALETTE["blue_light"],
+                    lw=0,
+                    zorder=0,
+                )
             else:
                 b = np.full(shown, correlogram.white_band)
                 poly = ax.axhspan(
                     -correlogram.white_band, correlogram.white_band, color=PALETTE["blue_light"], lw=0, zorder=0
                 )
             poly.set_gid(f"lgs-band-{name.lower()}")
-            if period and period > 1:
+            if seasonal:
                 for m in range(period, shown + 1, period):
-                    ax.axvline(m, color=PALETTE["rule"], lw=0.8, ls=(0, (1, 2)), zorder=0)
+                    guide = ax.axvline(m, color=PALETTE["muted"], lw=0.9, ls=(0, (1, 2)), zorder=0)
+                    guide.set_gid("lgs-period")
             outside = np.abs(values) > b
             # stems as one path (NaN breaks) keeps the SVG small
             sx = np.repeat(lags.astype(float), 3)
@@ -137,44 +163,75 @@ def correlogram_figure(
             sx[2::3] = np.nan
             ax.plot(sx, sy, color=PALETTE["muted"], lw=1.1, zorder=2, solid_capstyle="butt")
             ax.axhline(0, color=PALETTE["ink"], lw=0.7, zorder=1)
-            (inn,) = ax.plot(lags[~outside], values[~outside], "o", ms=3.6, color=PALETTE["blue"], zorder=3)
-            (out,) = ax.plot(lags[outside], values[outside], "s", ms=4.2, color=PALETTE["orange"], zorder=4)
+            ms = 3.6 if shown <= 40 else 2.8
+            (inn,) = ax.plot(lags[~outside], values[~outside], "o", ms=ms, color=PALETTE["blue"], zorder=3)
+            (out,) = ax.plot(lags[outside], values[outside], "s", ms=ms + 0.6, color=PALETTE["orange"], zorder=4)
             inn.set_gid(f"lgs-{name.lower()}-inside")
             out.set_gid(f"lgs-{name.lower()}-outside")
-            ax.set_title(f"{name}: {int(outside.sum())} of {shown} lags outside the band", fontsize=8.5)
-            ax.set_xlim(0.3, shown + 0.7)
-            ax.set_xlabel("lag")
+            ax.set_title(f"{name}: {int(outside.sum()):,} of {shown:,} lags outside", fontsize=9)
+            ax.set_ylabel("correlation" if name == "ACF" else "partial", fontsize=MIN_FONT_PT)
+        axes[0].set_title(
+            f"Ljung-Box, lags 1\u2013{shown:,}: p-value {format_pvalue(q_p)}",
+            loc="right",
+            fontsize=MIN_FONT_PT,
+            fontweight="normal",
+            color=PALETTE["muted"],
+        )
+        axes[0].tick_params(labelbottom=False)
+        axes[1].set_xlim(0.5, shown + 0.5)
+        axes[1].set_xlabel("lag")
+        if seasonal:
+            step = period * max(1, math.ceil(shown / period / 8))
+            axes[1].set_xticks([1, *range(step, shown + 1, step)] if step > 3 else range(step, shown + 1, step))
         peak = float(np.max(np.abs(np.concatenate([correlogram.acf[:shown], correlogram.pacf[:shown]]))))
-        lim = max(0.25, peak * 1.15)
-        axes[0].set_ylim(-lim, lim)
-        axes[0].set_ylabel("correlation")
+        lim = max(
+            0.25, peak * 1.15, float(np.max(correlogram.bartlett_band[:shown])) * 1.1 if band == "bartlett" else 0
+        )
+        for ax in axes:
+            ax.set_ylim(-lim, lim)
         band_words = "Bartlett band (ACF)" if band == "bartlett" else "white-noise band"
         fig.text(
-            0.08, 0.95, f"Residual autocorrelation, lags 1\u2013{shown}", fontsize=10, fontweight="bold", va="center"
+            left,
+            1 - 0.16 / height,
+            f"Residual autocorrelation, lags 1\u2013{shown:,}",
+            fontsize=10,
+            fontweight="bold",
+            va="center",
         )
+        handles = [
+            Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4.5, label="outside the band"),
+            Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
+        ]
+        if seasonal:
+            handles.append(Line2D([], [], color=PALETTE["muted"], lw=0.9, ls=(0, (1, 2)), label=f"period {period:,}"))
         fig.legend(
-            handles=[
-                Line2D([], [], marker="o", ls="none", color=PALETTE["blue"], ms=4, label="inside the band"),
-                Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4, label="outside the band"),
-                Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
-            ],
-            loc="lower center",
-            bbox_to_anchor=(0.53, 0.0),
-            ncol=3,
-            fontsize=7.5,
+            handles=handles,
+            loc="lower left",
+            bbox_to_anchor=(left - 0.01, 0.04 / height),
+            ncol=len(handles),
+            fontsize=MIN_FONT_PT,
+            handlelength=1.6,
+            columnspacing=1.2,
+            borderaxespad=0,
             frameon=False,
         )
     which = (
         "Bartlett band for the ACF (white-noise band for the PACF)"
         if band == "bartlett"
-        else "white-noise band, z/sqrt(n)"
+        else "white-noise band, z/\u221an"
     )
     cap = (
-        f"Sample ACF and PACF (Yule-Walker) of the residuals, n = {correlogram.n:,}. The shaded band is the "
-        f"{z_note} {which}; points outside it are squares."
+        f"Sample ACF and PACF (Yule-Walker) of the residuals at lags 1\u2013{shown:,}, n = {n:,}. The shaded band "
+        f"is the {z_note} {which}; points outside it are orange squares."
+    )
+    if seasonal:
+        cap += f" Dotted lines mark the seasonal period, {period:,}, and its multiples."
+    cap += (
+        f" Ljung-Box over the {shown:,} lags drawn: Q = {q:,.2f}, p-value {format_pvalue(q_p)} "
+        f"(chi-square with {shown:,} degrees of freedom)."
     )
     if max_lag is not None and int(max_lag) > available:
-        cap += f" Only {available} lags were computed."
+        cap += f" Only {available:,} lags were computed."
     return _finish(fig, cap, caveat)
 
 
@@ -186,7 +243,7 @@ def _thin_even(m: int, max_points: int) -> np.ndarray:
 
 
 def lag_scatter_figure(
-    resid, *, lag: int, max_points: int = MAX_POINTS, width: float = 3.9, caveat: str = ""
+    resid, *, lag: int, max_points: int = MAX_POINTS, width: float = FIG_WIDTH, caveat: str = ""
 ) -> Figure:
     """e_t against e_{t-lag}, with the correlation of the pairs in the title.
 
@@ -203,8 +260,9 @@ def lag_scatter_figure(
     x, y = pairs.lagged[keep], pairs.current[keep]
     r = pairs.correlation
     with figure_rc():
-        fig = Figure(figsize=(width, width * 0.92))
-        ax = fig.add_axes((0.17, 0.15, 0.78, 0.72))
+        height = 3.3
+        fig = Figure(figsize=(width, height))
+        ax = fig.add_axes((0.62 / width, 0.5 / height, 1 - 0.78 / width, 1 - 0.86 / height))
         (pts,) = ax.plot(x, y, "o", ms=2.6, alpha=0.55, color=PALETTE["blue"], mec="none", zorder=2)
         pts.set_gid("lgs-lag-points")
         if keep.size > RASTER_MARKERS:
@@ -220,10 +278,10 @@ def lag_scatter_figure(
             (fit,) = ax.plot(xs, my + slope * (xs - mx), color=PALETTE["orange"], lw=1.5, zorder=3)
             fit.set_gid("lgs-lag-fit")
         r_text = "n/a" if math.isnan(r) else f"{r:.3f}"
-        ax.set_title(f"Lag {h}: correlation r = {r_text}", fontsize=9.5)
-        ax.set_xlabel(f"residual at t \u2212 {h}")
+        ax.set_title(f"Lag {h:,}: correlation r = {r_text}", fontsize=9.5)
+        ax.set_xlabel(f"residual at t \u2212 {h:,}")
         ax.set_ylabel("residual at t")
-    cap = f"Each point pairs a residual with the one {h} step{'s' * (h != 1)} earlier; {m:,} pairs."
+    cap = f"Each point pairs a residual with the one {h:,} step{'s' * (h != 1)} earlier; {m:,} pairs."
     if keep.size < m:
         cap += f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}."
     return _finish(fig, cap, caveat)
@@ -306,8 +364,9 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         xs = np.insert(xs, cut, np.nan)
         ys = np.insert(ys, cut, np.nan)
     with figure_rc():
-        fig = Figure(figsize=(width, 2.6))
-        ax = fig.add_axes((0.08, 0.2, 0.9, 0.64))
+        height = 2.4
+        fig = Figure(figsize=(width, height))
+        ax = fig.add_axes((0.62 / width, 0.5 / height, 1 - 0.78 / width, 1 - 0.86 / height))
         shown_gaps = gaps
         if gaps.size > 200:
             widths = x_at(gaps + 1) - x_at(gaps)
@@ -341,7 +400,7 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
                     zorder=0,
                 )
         if is_time:
-            loc = mdates.AutoDateLocator(minticks=4, maxticks=9)
+            loc = mdates.AutoDateLocator(minticks=3, maxticks=6)
             ax.xaxis.set_major_locator(loc)
             ax.xaxis.set_major_formatter(mdates.ConciseDateFormatter(loc))
             name = diag.data.index.name
@@ -351,7 +410,9 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         ax.set_ylabel("residual")
         first, last = x_at([0, n - 1])
         ax.set_xlim(first, last if n > 1 else first + 1)
-        fig.text(0.08, 0.93, "Residuals in test order", fontsize=10, fontweight="bold", va="center")
+        fig.text(
+            0.62 / width, 1 - 0.17 / height, "Residuals in test order", fontsize=10, fontweight="bold", va="center"
+        )
     cap = f"Residuals in the order tested ({diag.order.order_used}), n = {n:,}."
     if keep.size < n:
         cap += (
@@ -362,22 +423,23 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         cap += (
             f" {gaps.size:,} gap{'s' * (gaps.size != 1)} in the time stamps "
             f"{'are' if gaps.size != 1 else 'is'} shaded with cross-hatching"
-            + (f" (the {shown_gaps.size} widest drawn)" if shown_gaps.size < gaps.size else "")
+            + (f" (the {shown_gaps.size:,} widest drawn)" if shown_gaps.size < gaps.size else "")
             + "; the line is broken there."
         )
         if diag.order.flags.get("largest_gap"):
             cap += f" Largest gap: {diag.order.flags['largest_gap']}."
     elif diag.order.flags.get("gaps") and not is_time:
-        cap += f" The time stamps have {diag.order.flags['gaps']} irregular gaps (see the order check)."
+        cap += f" The time stamps have {diag.order.flags['gaps']:,} irregular gaps (see the order check)."
     return _finish(fig, cap, order_caveat(diag))
 
 
 # ---------------------------------------------------------------------------
-def power_figure(curve, *, width: float = 5.6) -> Figure:
+def power_figure(curve, *, width: float = FIG_WIDTH) -> Figure:
     """Power of the exact Durbin-Watson test along AR(1) coefficients, with a 95% Monte Carlo band."""
     with figure_rc():
-        fig = Figure(figsize=(width, 3.0))
-        ax = fig.add_axes((0.11, 0.17, 0.85, 0.68))
+        height = 2.8
+        fig = Figure(figsize=(width, height))
+        ax = fig.add_axes((0.62 / width, 0.5 / height, 1 - 0.78 / width, 1 - 0.86 / height))
         band = ax.fill_between(
             curve.rhos,
             np.clip(curve.power - 1.96 * curve.se, 0, 1),
@@ -393,12 +455,14 @@ def power_figure(curve, *, width: float = 5.6) -> Figure:
         # labels at the end of the grid where the curve is farther from them
         end = 0 if abs(curve.power[0] - TARGET_POWER) > abs(curve.power[-1] - TARGET_POWER) else -1
         ha = "left" if end == 0 else "right"
-        ax.text(curve.rhos[end], TARGET_POWER + 0.02, f" power {TARGET_POWER:g} ", fontsize=7.5, va="bottom", ha=ha)
+        ax.text(
+            curve.rhos[end], TARGET_POWER + 0.02, f" power {TARGET_POWER:g} ", fontsize=MIN_FONT_PT, va="bottom", ha=ha
+        )
         ax.text(
             curve.rhos[end],
             curve.alpha + 0.02,
             f" \u03b1 = {curve.alpha:g} ",
-            fontsize=7.5,
+            fontsize=MIN_FONT_PT,
             va="bottom",
             ha=ha,
             color=PALETTE["muted"],
@@ -411,7 +475,7 @@ def power_figure(curve, *, width: float = 5.6) -> Figure:
                 0.5,
                 f" \u03c1 = {rho:.3f}",
                 color=PALETTE["orange"],
-                fontsize=8,
+                fontsize=MIN_FONT_PT,
                 va="center",
                 ha="left" if rho <= np.median(curve.rhos) else "right",
             )
@@ -419,9 +483,9 @@ def power_figure(curve, *, width: float = 5.6) -> Figure:
         ax.set_xlabel("AR(1) coefficient \u03c1 of the errors")
         ax.set_ylabel("probability of detection")
         fig.text(
-            0.11,
-            0.93,
-            f"Power of the exact Durbin-Watson test (n = {curve.n:,})",
+            0.62 / width,
+            1 - 0.17 / height,
+            f"Power of the exact Durbin-Watson test, n = {curve.n:,}",
             fontsize=10,
             fontweight="bold",
             va="center",
@@ -439,21 +503,27 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
     with figure_rc():
         if len(table) == 0 or "dw" not in table:
             fig = Figure(figsize=(width, 1.2))
-            fig.text(0.05, 0.5, "No group could be tested.", fontsize=9, va="center")
+            fig.text(0.05, 0.5, "No group could be tested.", fontsize=9.0, va="center")
             return _finish(fig, "No group could be tested.")
         d = table["dw"].to_numpy(float)
         found = ~table["finding"].isin(["none", "unknown"]).to_numpy() if "finding" in table else np.zeros(d.size, bool)
         few = len(table) <= max_labels
-        height = (max(2.4, 0.5 + 0.18 * len(table)) if few else 2.6) + 0.3
+        names = [_plain(g) for g in table["group"]]
+        # layout in inches: header, the axis, tick labels and axis label, two legend rows
+        head_h, foot_h, legend_h = 0.34, 0.44, 0.4
+        ax_h = max(1.2, 0.2 * len(table)) if few else 1.4
+        height = head_h + ax_h + foot_h + legend_h
+        # room for the group names: about 0.6 em per character at 8 pt (common for sans-serif fonts)
+        left = (min(0.45 * width, 0.2 + 0.068 * max(len(g) for g in names)) if few else 0.52) / width
         fig = Figure(figsize=(width, height))
-        ax = fig.add_axes((0.22 if few else 0.09, 0.85 / height, 0.74 if few else 0.87, 1 - 1.35 / height))
+        ax = fig.add_axes((left, (foot_h + legend_h) / height, 1 - left - 0.14 / width, ax_h / height))
         if few:
             y = np.arange(len(table))[::-1]
             (a,) = ax.plot(d[~found], y[~found], "o", color=PALETTE["blue"], ms=5)
             (b,) = ax.plot(d[found], y[found], "s", color=PALETTE["orange"], ms=5.5)
             a.set_gid("lgs-group-none")
             b.set_gid("lgs-group-evidence")
-            ax.set_yticks(y, [_plain(g) for g in table["group"]])
+            ax.set_yticks(y, names)
             ax.set_ylim(-0.7, len(table) - 0.3)
         else:
             ok = d[np.isfinite(d)]
@@ -485,15 +555,18 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
             ]
         fig.legend(
             handles=handles,
-            loc="lower center",
-            ncol=len(handles),
-            fontsize=7.5,
-            bbox_to_anchor=(0.5, 0.0),
+            loc="lower left",
+            ncol=2,
+            fontsize=MIN_FONT_PT,
+            handlelength=1.6,
+            columnspacing=1.2,
+            borderaxespad=0,
+            bbox_to_anchor=(0.14 / width, 0.04 / height),
             frameon=False,
         )
         fig.text(
-            0.02,
-            1 - 0.22 / height,
+            0.14 / width,
+            1 - 0.17 / height,
             f"Durbin-Watson d by group ({_groups_count(summary)})",
             fontsize=10,
             fontweight="bold",
@@ -503,7 +576,7 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
         "Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
         "Benjamini-Hochberg adjustment."
         if few
-        else f"Distribution of the per-group d over {len(table)} tested groups."
+        else f"Distribution of the per-group d over {len(table):,} tested groups."
     )
     return _finish(fig, cap)
 

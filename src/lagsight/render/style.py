@@ -13,7 +13,7 @@ from contextlib import contextmanager
 
 import matplotlib as mpl
 
-__all__ = ["PALETTE", "REGION_STYLE", "FIGURE_RC", "figure_rc", "CSS", "FIG_WIDTH"]
+__all__ = ["PALETTE", "REGION_STYLE", "FIGURE_RC", "figure_rc", "CSS", "FIG_WIDTH", "MIN_FONT_PT"]
 
 #: named colours used by every figure (hex strings)
 PALETTE = {
@@ -39,8 +39,11 @@ REGION_STYLE = {
     "negative": ("evidence of negative correlation", PALETTE["orange_light"], "\\\\\\", PALETTE["orange"]),
 }
 
-#: default figure width in inches
-FIG_WIDTH = 7.2
+#: default figure width in inches: 360 pt, which a browser draws 480 CSS px wide (the narrowest
+#: panel column), so 8 pt text, the smallest any figure uses, shows at 10.7 px or more
+FIG_WIDTH = 5.0
+#: smallest font size on any figure, pt (10.7 CSS px at FIG_WIDTH)
+MIN_FONT_PT = 8.0
 
 #: matplotlib settings applied through a local rc_context only (never globally)
 FIGURE_RC = {
@@ -51,8 +54,8 @@ FIGURE_RC = {
     "path.simplify_threshold": 0.5,
     "font.family": "sans-serif",
     "font.sans-serif": ["DejaVu Sans", "Verdana", "Arial"],
-    "font.size": 9.0,
-    "axes.titlesize": 9.5,
+    "font.size": 8.5,
+    "axes.titlesize": 9.0,
     "axes.titleweight": "bold",
     "axes.titlelocation": "left",
     "axes.labelsize": 8.5,

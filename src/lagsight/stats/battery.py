@@ -29,7 +29,7 @@ from ._arrays import (
     readonly,
     scaled,
 )
-from .correlogram import sample_acf
+from .correlogram import ljung_box_q, sample_acf
 from .results import TestResult, check_alternative, tail_pvalue
 from .tall import column_tops, r_factor, solve_r, stacked
 
@@ -258,8 +258,7 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
         raise ValueError(f"'max_lag' must be smaller than n={n} (got largest lag {int(lag_arr.max())})")
     # Q_LB = n(n+2) sum r_k^2/(n-k), Q_BP = n sum r_k^2 (Ljung & Box 1978; Box & Pierce 1970)
     r = sample_acf(e, int(lag_arr.max()))
-    k = np.arange(1, r.size + 1)
-    lb_all = n * (n + 2.0) * np.cumsum(r * r / (n - k))
+    lb_all = ljung_box_q(r, n)
     bp_all = n * np.cumsum(r * r)
     lag_df = lag_arr - model_df
     with np.errstate(invalid="ignore"):

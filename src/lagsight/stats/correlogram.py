@@ -17,7 +17,16 @@ from statsmodels.tsa.stattools import pacf as _sm_pacf
 
 from ._arrays import as_vector, check_alpha, check_int, readonly, unit_scale
 
-__all__ = ["Correlogram", "LagPairs", "correlogram", "lag_pairs", "sample_acf", "PACF_METHOD", "FFT_MIN_N"]
+__all__ = [
+    "Correlogram",
+    "LagPairs",
+    "correlogram",
+    "lag_pairs",
+    "sample_acf",
+    "ljung_box_q",
+    "PACF_METHOD",
+    "FFT_MIN_N",
+]
 
 #: statsmodels PACF method used: Yule-Walker with n-k denominators.
 PACF_METHOD = "ywadjusted"
@@ -40,6 +49,14 @@ def sample_acf(resid, nlags: int) -> np.ndarray:
     x = e - e.mean()
     c0 = float(x @ x)
     return np.array([float(x[h:] @ x[: n - h]) for h in range(1, nlags + 1)]) / c0
+
+
+def ljung_box_q(r: np.ndarray, n: int) -> np.ndarray:
+    """Ljung-Box Q at lags 1 .. r.size from the autocorrelations r_1 .. r_L of n values:
+    Q_h = n (n + 2) sum_{k<=h} r_k^2 / (n - k) (Ljung & Box 1978)."""
+    r = np.asarray(r, dtype=float)
+    k = np.arange(1, r.size + 1)
+    return n * (n + 2.0) * np.cumsum(r * r / (n - k))
 
 
 @dataclass(frozen=True, eq=False)

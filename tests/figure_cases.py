@@ -1,6 +1,6 @@
 """Every figure kind drawn through the public figure functions, and helpers that read their text.
 
-Shared by tests/test_figure_text.py and benchmarks/figure_sizes.py.  The data are invented
+Used by tests/test_figure_text.py.  The data are invented
 scenarios (lagsight.scenarios) and seeded random series; nothing here is a reference value.
 """
 

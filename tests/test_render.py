@@ -99,7 +99,7 @@ def test_scale_figure_has_five_hatched_regions_density_and_observed_d(water):
     (mark,) = _by_gid(fig, "lgs-observed-marker")
     assert mark.get_xdata()[0] == pytest.approx(water.tests[DW].statistic)
     texts = " ".join(t.get_text() for t in fig.axes[0].texts)
-    assert f"observed d = {water.tests[DW].statistic:.3f}" in texts
+    assert f"d = {water.tests[DW].statistic:.3f}, exact p-value" in texts
     assert T.format_pvalue(water.tests[DW].pvalue) in texts
     for words in ("evidence of positive", "evidence of negative"):
         assert words in texts.replace("\n", " ")
@@ -566,7 +566,9 @@ def test_assumed_k_prime_in_the_key_figures_and_the_scale_subtitle():
     assert "k&#x27;:</b> 1 (assumed: no design given)" in page
     fig = F.scale_figure(d)
     texts = [t.get_text() for t in fig.texts]
-    assert any("k\u2032 = 1 (assumed: no design given)" in t for t in texts)
+    # the subtitle says the value is assumed; the note under the axes says why (no design matrix)
+    assert any("k\u2032 = 1 (assumed)" in t for t in texts)
+    assert any("design matrix is not known" in t for t in texts)
 
 
 @pytest.mark.parametrize("scale", [1e200, 1e-200])

@@ -13,16 +13,17 @@ import math
 import matplotlib.dates as mdates
 import numpy as np
 import pandas as pd
-from scipy import stats
+from matplotlib.artist import Artist
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
+from scipy import stats
 
 from ..order import _time_axis
 from ..stats._arrays import scaled
 from ..stats.correlogram import Correlogram, lag_pairs, ljung_box_q
 from ..stats.power import TARGET_POWER
 from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
-from .scale import bounds_figure, density_grid, scale_figure
+from .scale import ALTERNATIVE_WORDS, bounds_figure, density_grid, scale_figure
 from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, figure_rc
 from .text import format_pvalue, order_caveat
 
@@ -114,16 +115,17 @@ def correlogram_figure(
     n = correlogram.n
     q = float(ljung_box_q(correlogram.acf[:shown], n)[-1])
     q_p = float(stats.chi2.sf(q, shown))
-    seasonal = bool(period and 1 < period <= shown)
+    every = int(period) if period is not None and 1 < period <= shown else 0  # seasonal guides
+    seasonal = every > 0
     # layout in inches, from the top: header, then ACF and PACF stacked on one lag axis
     head_h, title_h, ax_h, foot_h, legend_h = 0.3, 0.2, 0.92, 0.42, 0.26
     height = head_h + 2 * (title_h + ax_h) + foot_h + legend_h
     left, right = 0.64 / width, 1 - 0.14 / width
     with figure_rc():
         fig = Figure(figsize=(width, height))
-        axes = []
+        axes: list = []
         y = height - head_h
-        for i in range(2):
+        for _ in range(2):
             y -= title_h
             axes.append(
                 fig.add_axes((left, (y - ax_h) / height, right - left, ax_h / height), sharex=axes[0] if axes else None)
@@ -133,6 +135,7 @@ def correlogram_figure(
             (axes[0], correlogram.acf[:shown], "ACF"),
             (axes[1], correlogram.pacf[:shown], "PACF"),
         ):
+            poly: Artist
             if name == "ACF" and band == "bartlett":
                 b = correlogram.bartlett_band[:shown]
                 # a step per lag, from lag - 1/2 to lag + 1/2: lag 1 has its band too (z/sqrt(n) there)
@@ -153,7 +156,7 @@ def correlogram_figure(
                 )
             poly.set_gid(f"lgs-band-{name.lower()}")
             if seasonal:
-                for m in range(period, shown + 1, period):
+                for m in range(every, shown + 1, every):
                     guide = ax.axvline(m, color=PALETTE["muted"], lw=0.9, ls=(0, (1, 2)), zorder=0)
                     guide.set_gid("lgs-period")
             outside = np.abs(values) > b
@@ -181,7 +184,7 @@ def correlogram_figure(
         axes[1].set_xlim(0.5, shown + 0.5)
         axes[1].set_xlabel("lag")
         if seasonal:
-            step = period * max(1, math.ceil(shown / period / 8))
+            step = every * max(1, math.ceil(shown / every / 8))
             axes[1].set_xticks([1, *range(step, shown + 1, step)] if step > 3 else range(step, shown + 1, step))
         peak = float(np.max(np.abs(np.concatenate([correlogram.acf[:shown], correlogram.pacf[:shown]]))))
         lim = max(
@@ -203,7 +206,7 @@ def correlogram_figure(
             Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
         ]
         if seasonal:
-            handles.append(Line2D([], [], color=PALETTE["muted"], lw=0.9, ls=(0, (1, 2)), label=f"period {period:,}"))
+            handles.append(Line2D([], [], color=PALETTE["muted"], lw=0.9, ls=(0, (1, 2)), label=f"period {every:,}"))
         fig.legend(
             handles=handles,
             loc="lower left",
@@ -225,7 +228,7 @@ def correlogram_figure(
         f"is the {z_note} {which}; points outside it are orange squares."
     )
     if seasonal:
-        cap += f" Dotted lines mark the seasonal period, {period:,}, and its multiples."
+        cap += f" Dotted lines mark the seasonal period, {every:,}, and its multiples."
     cap += (
         f" Ljung-Box over the {shown:,} lags drawn: Q = {q:,.2f}, p-value {format_pvalue(q_p)} "
         f"(chi-square with {shown:,} degrees of freedom)."
@@ -491,8 +494,10 @@ def power_figure(curve, *, width: float = FIG_WIDTH) -> Figure:
             va="center",
         )
     cap = (
-        f"Share of {curve.n_sim:,} simulated series per \u03c1 in which the test rejects at \u03b1 = "
-        f"{curve.alpha:g} ({curve.alternative}); shaded: \u00b11.96 Monte Carlo standard errors. {curve.method}."
+        f"Share of {curve.n_sim:,} simulated series with AR(1) errors per \u03c1 in which the exact test "
+        f"rejects at \u03b1 = {curve.alpha:g} ({ALTERNATIVE_WORDS.get(curve.alternative, 'two-sided')}), "
+        f"against its exact critical value; the same innovations for every \u03c1 (seed {curve.seed}). "
+        "Shaded: \u00b11.96 Monte Carlo standard errors."
     )
     return _finish(fig, cap)
 

@@ -104,9 +104,8 @@ class LabelPlacer:
     PAD = 2.0
 
     def __init__(self, fig: Figure):
-        if not isinstance(fig.canvas, FigureCanvasAgg):
-            FigureCanvasAgg(fig)
-        self.renderer = fig.canvas.get_renderer()
+        canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
+        self.renderer = canvas.get_renderer()
         self.boxes: list = []
         self.lines: list[tuple[float, float, float]] = []  # (x, y0, y1) in display px
 
@@ -248,7 +247,7 @@ def _observed(ax, placer: LabelPlacer, d: float, texts: list[str], x0: float, x1
     placer.place(ax, candidates, cross=True, fontsize=MIN_FONT_PT, color=PALETTE["mark"], zorder=8, bbox=box)
 
 
-def _p_text(res, alt: str, verdict) -> str:
+def _p_text(res, verdict) -> str:
     """The words beside the observed d: its p-value and how the verdict reads it (the
     alternative is in the subtitle)."""
     if verdict.finding == "not meaningful":
@@ -275,11 +274,9 @@ def _critical(dist, alpha: float, alt: str) -> list[float]:
     return [exact_point(dist, q) for q in qs]
 
 
-def _critical_words(alpha: float, alt: str, count: int) -> str:
-    """What the dashed lines are, with the level each one is drawn at (per tail when two-sided)."""
-    if alt == "two-sided":
-        return f"exact critical values, \u03b1/2 = {alpha / 2:g} in each tail"
-    return f"exact critical value, \u03b1 = {alpha:g}" if count == 1 else f"exact critical values, \u03b1 = {alpha:g}"
+def _level_words(alpha: float, alt: str) -> str:
+    """The level each exact critical value is drawn at: alpha, or alpha/2 in each tail when two-sided."""
+    return f"\u03b1/2 = {alpha / 2:g} in each tail" if alt == "two-sided" else f"\u03b1 = {alpha:g}"
 
 
 def _zoom_box(ax, window) -> None:
@@ -332,15 +329,13 @@ def _draw_axis(ax, placer, *, b, grid, crit, d, obs_texts, x0, x1, edge_labels, 
         gap = 0.012 * (x1 - x0)
         for q in crit:
             if x0 <= q <= x1:
-                side = -1 if q < 2 else 1
-                ha = "left" if side > 0 else "right"
+                side = -1 if q < 2 else 1  # outward first
                 cands = [
                     (q + s * gap, y, text, "left" if s > 0 else "right", "bottom")
                     for text in (f"critical {q:.3f}", f"{q:.3f}")
                     for y in (0.3, 0.56, 0.04)
                     for s in (side, -side)
                 ]
-                del ha
                 placer.place(ax, cands, fontsize=MIN_FONT_PT, color=PALETTE["ink"], zorder=6, bbox=_LABEL_BOX)
 
 
@@ -413,7 +408,7 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None, 
         ax = fig.add_axes((left, (y - ax_h) / height, right - left, ax_h / height))
         obs = []
         if res is not None:
-            words = _p_text(res, alt, diag.verdict)
+            words = _p_text(res, diag.verdict)
             first, _, rest = words.partition("\n")
             obs = [f"d = {d:.3f}, {first}" + (f"\n{rest}" if rest else ""), f"d = {d:.3f}\n{first}", f"d = {d:.3f}"]
         _draw_axis(
@@ -469,7 +464,8 @@ def scale_figure(diag, *, alpha: float | None = None, zoom: bool | None = None, 
     return fig
 
 
-_ALT_WORDS = {"positive": "against positive correlation", "negative": "against negative correlation"}
+#: how a figure names the alternative (two-sided otherwise)
+ALTERNATIVE_WORDS = {"positive": "against positive correlation", "negative": "against negative correlation"}
 
 
 def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
@@ -478,7 +474,7 @@ def _subtitle(diag, res, b, alpha: float, alt: str) -> str:
         assumed = bool(getattr(res, "k_prime_assumed", False))
         parts.append(f"k\u2032 = {b.k_prime}" + (" (assumed)" if assumed else ""))
     parts.append(f"\u03b1 = {alpha:g}")
-    parts.append(_ALT_WORDS.get(alt, "two-sided"))
+    parts.append(ALTERNATIVE_WORDS.get(alt, "two-sided"))
     return "  \u00b7  ".join(parts)
 
 
@@ -488,7 +484,14 @@ def _legend(dist, alpha: float, alt: str, count: int) -> list:
         return []
     return [
         Line2D([], [], color=PALETTE["ink"], lw=1.5, label="exact null density of d"),
-        Line2D([], [], color=PALETTE["ink"], lw=1.0, ls=(0, (4, 2)), label=_critical_words(alpha, alt, count)),
+        Line2D(
+            [],
+            [],
+            color=PALETTE["ink"],
+            lw=1.0,
+            ls=(0, (4, 2)),
+            label=f"exact critical value{'s' * (count > 1)}, {_level_words(alpha, alt)}",
+        ),
     ]
 
 
@@ -533,13 +536,12 @@ def _caption(res, b, crit, alpha, window, alt, d) -> str:
     if crit:
         values = " and ".join(f"{q:.3f}" for q in crit)
         parts.append("The curve is the exact null density of d for this model's design.")
+        level = _level_words(alpha, alt)
         if len(crit) == 2:
-            parts.append(
-                f"The two dashed lines are its exact critical values, {values}, at \u03b1/2 = {alpha / 2:g} in each tail."
-            )
+            parts.append(f"The two dashed lines are its exact critical values, {values}, at {level}.")
         else:
             parts.append(
-                f"The dashed line is its exact critical value, {values}, at \u03b1 = {alpha:g}; it settles what "
+                f"The dashed line is its exact critical value, {values}, at {level}; it settles what "
                 "the inconclusive band leaves open."
             )
     if not math.isnan(d):
@@ -587,7 +589,8 @@ def bounds_figure(bounds, *, width: float = FIG_WIDTH) -> Figure:
             left,
             height,
             "Durbin-Watson bounds",
-            f"n = {bounds.n:,}  \u00b7  k\u2032 = {bounds.k_prime} ({const} constant)  \u00b7  \u03b1 = {bounds.alpha:g}",
+            f"n = {bounds.n:,}  \u00b7  k\u2032 = {bounds.k_prime} ({const} constant)  "
+            f"\u00b7  \u03b1 = {bounds.alpha:g}",
         )
         fig.legend(
             handles=_region_legend(),

@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 import statsmodels.api as sm
 import statsmodels.formula.api as smf
+from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.text import Text
 
@@ -22,6 +23,8 @@ from lagsight.scenarios import water_demand
 
 #: the narrowest column the panel gives a figure (CSS px)
 COLUMN_PX = 480
+#: a caveat as long as the one drawn when the rows are not in time order
+CAVEAT = "Not meaningful: the rows are not in time order, so this does not show serial correlation."
 #: the smallest text allowed at that width (CSS px)
 MIN_TEXT_PX = 10.0
 
@@ -67,6 +70,9 @@ def figure_kinds() -> dict[str, Figure]:
     many_groups = lagsight.diagnose(many, response="y", predictors=["x"], groups="g")
     from lagsight.stats.power import dw_power
 
+    shuffled_frame = water_demand(200).sample(frac=1.0, random_state=1)
+    shuffled = lagsight.diagnose(smf.ols("demand_ml ~ temp_c + rain_mm + weekend", data=shuffled_frame).fit())
+
     curve = dw_power(design_case(60, 2, seed=11).data.exog, n_sim=200)
     return {
         "scale close-up": F.scale_figure(water),
@@ -86,12 +92,17 @@ def figure_kinds() -> dict[str, Figure]:
         "groups": F.groups_figure(grouped.groups),
         "groups histogram": F.groups_figure(many_groups.groups),
         "power": F.power_figure(curve),
+        "correlogram with caveat": F.correlogram_figure(seasonal.correlogram, max_lag=48, period=24, caveat=CAVEAT),
+        "lag scatter with caveat": F.lag_scatter_figure(bare, lag=2, caveat=CAVEAT),
+        "residuals out of order": F.residuals_figure(shuffled),
     }
 
 
 def drawn_texts(fig: Figure) -> list[Text]:
     """Every visible, non-empty Text the figure draws: figure texts, legends, titles, axis labels,
     annotations and the tick labels of ticks inside the view limits."""
+    if not isinstance(fig.canvas, FigureCanvasAgg):
+        FigureCanvasAgg(fig)
     fig.canvas.draw()
     tick_in_view = {}
     for ax in fig.axes:
@@ -117,8 +128,8 @@ def svg_font_sizes(fig: Figure) -> tuple[float, list[float]]:
 
 def overlaps(fig: Figure, slack: float = 1.0) -> list[tuple[str, str]]:
     """Pairs of drawn texts whose boxes overlap by more than ``slack`` px (touching is allowed)."""
-    renderer = fig.canvas.get_renderer()
     texts = drawn_texts(fig)
+    renderer = fig.canvas.get_renderer()
     boxes = [(t, t.get_window_extent(renderer)) for t in texts]
     hits = []
     for i, (a, ba) in enumerate(boxes):
@@ -132,10 +143,11 @@ def overlaps(fig: Figure, slack: float = 1.0) -> list[tuple[str, str]]:
 
 def outside_figure(fig: Figure, slack: float = 1.0) -> list[str]:
     """Drawn texts that stick out of the figure (they would be cut off)."""
+    texts = drawn_texts(fig)
     renderer = fig.canvas.get_renderer()
     W, H = fig.bbox.width, fig.bbox.height
     out = []
-    for t in drawn_texts(fig):
+    for t in texts:
         b = t.get_window_extent(renderer)
         if b.x0 < -slack or b.y0 < -slack or b.x1 > W + slack or b.y1 > H + slack:
             out.append(t.get_text())

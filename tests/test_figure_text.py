@@ -57,6 +57,9 @@ KIND_NAMES = [
     "groups",
     "groups histogram",
     "power",
+    "correlogram with caveat",
+    "lag scatter with caveat",
+    "residuals out of order",
 ]
 
 
@@ -88,8 +91,8 @@ def test_no_two_texts_overlap_and_none_is_cut_off(kinds, name):
         ("scale close-up", 2.8),
         ("scale two-sided close-up", 2.8),
         ("scale forced close-up", 2.8),
-        ("correlogram seasonal", 3.25),
-        ("correlogram bartlett", 3.25),
+        ("correlogram seasonal", 3.2),
+        ("correlogram bartlett", 3.2),
         ("lag scatter", 3.4),
         ("residuals time gaps", 2.45),
     ],

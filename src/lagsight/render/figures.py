@@ -9,6 +9,7 @@ display only: the statistics always use every observation.
 from __future__ import annotations
 
 import math
+import textwrap
 
 import matplotlib.dates as mdates
 import numpy as np
@@ -55,19 +56,41 @@ def _plain(text) -> str:
     return str(text).replace("$", r"\$")
 
 
+def _grow_top(fig: Figure, extra: float) -> None:
+    """Add ``extra`` inches at the top of the figure; everything drawn keeps its place from the bottom."""
+    w, h = fig.get_size_inches()
+    k = h / (h + extra)
+    anchors = []
+    for leg in fig.legends:
+        bb = leg.get_bbox_to_anchor()
+        anchors.append((leg, (bb.x0 / fig.dpi / w, bb.y0 / fig.dpi / (h + extra))))
+    fig.set_size_inches(w, h + extra)
+    for ax in fig.axes:
+        x0, y0, aw, ah = ax.get_position().bounds
+        ax.set_position((x0, y0 * k, aw, ah * k))
+    for t in fig.texts:
+        t.set_y(t.get_position()[1] * k)
+    for leg, xy in anchors:
+        leg.set_bbox_to_anchor(xy, transform=fig.transFigure)
+
+
 def _finish(fig: Figure, caption: str, caveat: str = "") -> Figure:
-    """Attach the caption; a caveat (rows not in time order) is drawn on the figure and leads the caption."""
+    """Attach the caption; a caveat (rows not in time order) leads the caption and is drawn in a
+    band of its own above the figure, wrapped to the figure's width."""
     if caveat:
+        w = float(fig.get_size_inches()[0])
+        lines = textwrap.wrap(_plain(caveat), max(30, int((w - 0.28) * 72 / 4.9)))
+        _grow_top(fig, 0.18 * len(lines) + 0.06)
+        h = float(fig.get_size_inches()[1])
         fig.text(
-            0.99,
-            0.99,
-            _plain(caveat),
-            ha="right",
+            0.14 / w,
+            1 - 0.08 / h,
+            "\n".join(lines),
+            ha="left",
             va="top",
             fontsize=MIN_FONT_PT,
             style="italic",
             color=PALETTE["orange"],
-            wrap=True,
         ).set_gid("lgs-caveat")
         caption = f"{caveat} {caption}"
     fig.lagsight_caption = caption  # type: ignore[attr-defined]
@@ -118,7 +141,7 @@ def correlogram_figure(
     every = int(period) if period is not None and 1 < period <= shown else 0  # seasonal guides
     seasonal = every > 0
     # layout in inches, from the top: header, then ACF and PACF stacked on one lag axis
-    head_h, title_h, ax_h, foot_h, legend_h = 0.3, 0.2, 0.92, 0.42, 0.26
+    head_h, title_h, ax_h, foot_h, legend_h = 0.3, 0.2, 0.9, 0.42, 0.26
     height = head_h + 2 * (title_h + ax_h) + foot_h + legend_h
     left, right = 0.64 / width, 1 - 0.14 / width
     with figure_rc():

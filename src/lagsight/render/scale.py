@@ -100,8 +100,11 @@ class LabelPlacer:
     A label with no free candidate is left out (the caption carries its content).
     """
 
-    #: clearance around a label, display px
-    PAD = 2.0
+    #: clearance around a label's text, display px: more than the rounded box drawn behind it,
+    #: so neighbouring labels never touch
+    PAD = 6.0
+    #: clearance between a label's text and a guarded line, display px
+    LINE_PAD = 3.0
 
     def __init__(self, fig: Figure):
         canvas = fig.canvas if isinstance(fig.canvas, FigureCanvasAgg) else FigureCanvasAgg(fig)
@@ -114,6 +117,11 @@ class LabelPlacer:
         px = float(ax.transData.transform((x, 0.0))[0])
         self.lines.append((px, ax.bbox.y0, ax.bbox.y1))
 
+    def gap(self, ax) -> float:
+        """Data-x distance that keeps a label beside a guarded line clear of it (LINE_PAD + 2 px)."""
+        x0, x1 = ax.get_xlim()
+        return (self.LINE_PAD + 2.0) * (x1 - x0) / ax.bbox.width
+
     def claim(self, artist) -> None:
         self.boxes.append(artist.get_window_extent(self.renderer))
 
@@ -123,7 +131,10 @@ class LabelPlacer:
         frame = ax.bbox if inside else ax.figure.bbox
         if bb.x0 < frame.x0 or bb.x1 > frame.x1 or bb.y0 < frame.y0 or bb.y1 > frame.y1:
             return False
-        if not cross and any(x0 < lx < x1 and y0 < ly1 and ly0 < y1 for lx, ly0, ly1 in self.lines):
+        q = self.LINE_PAD
+        if not cross and any(
+            bb.x0 - q < lx < bb.x1 + q and bb.y0 - q < ly1 and ly0 < bb.y1 + q for lx, ly0, ly1 in self.lines
+        ):
             return False
         return not any(x0 < b.x1 and b.x0 < x1 and y0 < b.y1 and b.y0 < y1 for b in self.boxes)
 
@@ -184,7 +195,7 @@ def _region_words(ax, placer: LabelPlacer, b, x0: float, x1: float, cuts: list[f
 def _edge_labels(ax, placer: LabelPlacer, b, x0: float, x1: float) -> None:
     """dL, dU, 4-dU and 4-dL written beside their lines, each on the outer side of the band it bounds."""
     up = min(b.upper, 2.0)
-    gap = 0.012 * (x1 - x0)
+    gap = placer.gap(ax)
     for x, text, side in (
         (b.lower, f"dL {b.lower:.3f}", -1),
         (up, f"dU {b.upper:.3f}", 1),
@@ -235,7 +246,7 @@ def _observed(ax, placer: LabelPlacer, d: float, texts: list[str], x0: float, x1
         transform=ax.get_xaxis_transform(),
     )
     mark.set_gid("lgs-observed-marker")
-    gap = 0.012 * (x1 - x0)
+    gap = placer.gap(ax)
     sides = (1, -1) if d < x0 + 0.6 * (x1 - x0) else (-1, 1)
     candidates = [
         (d + side * gap, y, text, "left" if side > 0 else "right", "bottom")
@@ -243,7 +254,7 @@ def _observed(ax, placer: LabelPlacer, d: float, texts: list[str], x0: float, x1
         for y in (0.06, 0.34)
         for side in sides
     ]
-    box = dict(boxstyle="round,pad=0.3", facecolor=PALETTE["paper"], edgecolor=PALETTE["mark"], linewidth=0.6)
+    box = dict(boxstyle="round,pad=0.2", facecolor=PALETTE["paper"], edgecolor=PALETTE["mark"], linewidth=0.6)
     placer.place(ax, candidates, cross=True, fontsize=MIN_FONT_PT, color=PALETTE["mark"], zorder=8, bbox=box)
 
 
@@ -326,7 +337,7 @@ def _draw_axis(ax, placer, *, b, grid, crit, d, obs_texts, x0, x1, edge_labels, 
         if edge_labels:
             _edge_labels(ax, placer, b, x0, x1)
     if crit_labels:
-        gap = 0.012 * (x1 - x0)
+        gap = placer.gap(ax)
         for q in crit:
             if x0 <= q <= x1:
                 side = -1 if q < 2 else 1  # outward first

@@ -256,6 +256,15 @@ def test_thousands_separators_on_a_long_series():
     for fig in (F.scale_figure(d), F.residuals_figure(d), F.correlogram_figure(d.correlogram)):
         text = " ".join(t.get_text() for t in drawn_texts(fig)) + " " + fig.lagsight_caption
         assert "2,016" in text and "2016" not in text
+        assert _words_problems(text) == []
+    # tick labels too: positions up to 50,000 and residuals in the thousands
+    big = lagsight.diagnose(np.random.default_rng(4).normal(size=50_000) * 3000)
+    for fig in (F.residuals_figure(big), F.lag_scatter_figure(big, lag=1)):
+        ticks = [
+            t.get_text() for t in drawn_texts(fig) if t in fig.axes[0].get_xticklabels() + fig.axes[0].get_yticklabels()
+        ]
+        assert any("," in t for t in ticks)
+        assert _words_problems(" ".join(ticks)) == []
 
 
 def test_scale_figure_draws_from_bare_residuals():

@@ -161,7 +161,7 @@ def test_scale_without_bounds_says_why():
     fig = F.scale_figure(d)
     assert not _regions(fig)
     assert _by_gid(fig, "lgs-density")
-    assert any("k' = 0" in note for note in fig.lagsight_notes)
+    assert any("k\u2032 = 0" in note for note in fig.lagsight_notes)
     # n beyond the bounds limit: a message, no regions (a stand-in diagnosis carrying a long series)
     w = _design_case(60, 2, seed=7)
     big = dataclasses.replace(

@@ -9,6 +9,7 @@ display only: the statistics always use every observation.
 from __future__ import annotations
 
 import math
+import re
 import textwrap
 
 import matplotlib.dates as mdates
@@ -17,6 +18,7 @@ import pandas as pd
 from matplotlib.artist import Artist
 from matplotlib.figure import Figure
 from matplotlib.lines import Line2D
+from matplotlib.ticker import ScalarFormatter
 from scipy import stats
 
 from ..order import _time_axis
@@ -54,6 +56,26 @@ BANDS = ("white", "bartlett")
 def _plain(text) -> str:
     """A user string for a matplotlib Text: dollar signs stay literal (no mathtext)."""
     return str(text).replace("$", r"\$")
+
+
+_DIGITS = re.compile(r"(?<![\d.])\d{4,}")
+
+
+class _GroupedFormatter(ScalarFormatter):
+    """matplotlib's plain tick labels with thousands separators (2,016, never 2016)."""
+
+    def __call__(self, x, pos=None):
+        return _DIGITS.sub(lambda m: f"{int(m.group()):,}", super().__call__(x, pos))
+
+
+def _group_digits(*axes) -> None:
+    """Tick labels with thousands separators on these axes (x and y)."""
+    for ax in axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            if isinstance(axis.get_major_formatter(), ScalarFormatter):
+                fmt = _GroupedFormatter(useOffset=False)
+                fmt.set_scientific(False)
+                axis.set_major_formatter(fmt)
 
 
 def _grow_top(fig: Figure, extra: float) -> None:
@@ -206,6 +228,7 @@ def correlogram_figure(
         axes[0].tick_params(labelbottom=False)
         axes[1].set_xlim(0.5, shown + 0.5)
         axes[1].set_xlabel("lag")
+        _group_digits(*axes)
         if seasonal:
             step = every * max(1, math.ceil(shown / every / 8))
             axes[1].set_xticks([1, *range(step, shown + 1, step)] if step > 3 else range(step, shown + 1, step))
@@ -307,6 +330,7 @@ def lag_scatter_figure(
         ax.set_title(f"Lag {h:,}: correlation r = {r_text}", fontsize=9.5)
         ax.set_xlabel(f"residual at t \u2212 {h:,}")
         ax.set_ylabel("residual at t")
+        _group_digits(ax)
     cap = f"Each point pairs a residual with the one {h:,} step{'s' * (h != 1)} earlier; {m:,} pairs."
     if keep.size < m:
         cap += f" {keep.size:,} evenly spaced pairs are drawn for display; the correlation uses all {m:,}."
@@ -434,6 +458,7 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         else:
             ax.set_xlabel("position in test order")
         ax.set_ylabel("residual")
+        _group_digits(ax)
         first, last = x_at([0, n - 1])
         ax.set_xlim(first, last if n > 1 else first + 1)
         fig.text(
@@ -575,6 +600,7 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
             )
         ax.axvline(2.0, color=PALETTE["rule"], lw=0.8)
         ax.set_xlabel("Durbin-Watson d within the group")
+        _group_digits(ax)
         handles, _ = ax.get_legend_handles_labels()
         if few:
             handles += [

@@ -65,7 +65,7 @@ def _missing_notes(diag, res, b, dist) -> list[str]:
         kp = None if dist is None else dist.k_prime
         if kp == 0:
             notes.append(
-                "No bounds dL/dU: the model has no regressor besides the constant (k' = 0); "
+                "No bounds dL/dU: the model has no regressor besides the constant (k\u2032 = 0); "
                 "the exact p-value does not need them."
             )
         elif diag.n > BOUNDS_MAX_N:

@@ -281,8 +281,10 @@ def test_headline_follows_the_alternative():
     assert neg.verdict.headline == again.verdict.headline
     from lagsight.render.scale import scale_figure
 
-    words = " ".join(t.get_text() for ax in scale_figure(neg).axes for t in ax.texts)
-    assert "negative alternative" in words and "no evidence at \u03b1 = 0.05" in words
+    fig = scale_figure(neg)
+    words = " ".join(t.get_text() for ax in fig.axes for t in ax.texts)
+    subtitle = " ".join(t.get_text() for t in fig.texts)
+    assert "against negative correlation" in subtitle and "no evidence at \u03b1 = 0.05" in words
 
 
 def test_headline_follows_alpha():

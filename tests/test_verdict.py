@@ -333,7 +333,7 @@ def test_cli_checks_the_order_of_a_date_column(tmp_path, capsys):
     in_order, shuffled = tmp_path / "in_order.csv", tmp_path / "shuffled.csv"
     frame.to_csv(in_order, index=False)
     frame.sample(frac=1.0, random_state=5).to_csv(shuffled, index=False)
-    args = ["--y", "demand_ml", "--x", "temp_c,rain_mm,weekend", "-o", str(tmp_path / "r.html")]
+    args = ["--y", "demand_ml", "--x", "temp_c,rain_mm,weekend", "-o", str(tmp_path / "r.html"), "--overwrite"]
     assert main(["report", str(shuffled), *args]) == 3
     out = capsys.readouterr().out
     assert out.startswith("Not meaningful") and "checked on the date column 'date'" in out

@@ -29,14 +29,15 @@ import pytest
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from labkit import (  # noqa: E402, I001  (importing labkit puts tests/notebooks on the path)
     CHROMIUM,
-    CHROMIUM_ARGS,
     LabServer,
     blank_areas,
+    cell_at,
     choose_no_kernel,
-    kernel_name,
+    live_notebook,
     open_notebook,
-    run_all,
+    run_live_notebook,
     save,
+    shot,
     visible_box,
     wait_kernel_idle,
 )
@@ -48,7 +49,6 @@ if not CHROMIUM.exists():
 
 import nbformat  # noqa: E402
 from bs4 import BeautifulSoup  # noqa: E402
-from playwright.sync_api import sync_playwright  # noqa: E402
 
 VIEWPORT = {"width": 1400, "height": 1000}
 LAB_VIEWPORT = {"width": 1400, "height": 3200}  # tall: Lab scrolls inside the page, so a tall panel fits whole
@@ -57,37 +57,10 @@ PANEL_OUTPUT_BUDGET = 300_000  # bytes of saved output for one panel (issue 4, "
 CELL_OUTPUTS = ".jp-Cell-outputArea > .jp-OutputArea-child > .jp-OutputArea-output"
 
 
-def _live_notebook() -> tuple[Path, list[int]]:
-    """The quickstart, else the first notebook (examples first) with a cell that shows the live panel."""
-    paths = nbtools.notebooks_under_test()
-    paths = sorted(paths, key=lambda p: p.name != "quickstart.ipynb")
-    for path in paths:
-        nb = nbformat.read(path, as_version=4)
-        cells = [i for i in nbtools.shown_panels(nb) if not nbtools.static_only(nb.cells[i])]
-        if cells:
-            return path, cells
-    pytest.skip("no notebook shows a live %lagsight panel")
-
-
-def _shot(target, name: str, **options) -> Path:
-    """Screenshot of a page or an element into benchmarks/out/screenshots/ (gitignored)."""
-    nbtools.SCREENSHOTS.mkdir(parents=True, exist_ok=True)
-    path = nbtools.SCREENSHOTS / f"{name}.png"
-    target.screenshot(path=str(path), **options)
-    return path
+_live_notebook, _shot = live_notebook, shot
 
 
 # -- fixtures ----------------------------------------------------------------------------------------------
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=str(CHROMIUM), args=CHROMIUM_ARGS)
-        try:
-            yield b
-        finally:
-            b.close()
 
 
 @pytest.fixture(scope="module")
@@ -103,29 +76,12 @@ def lab(tmp_path_factory):
 @pytest.fixture(scope="module")
 def live(lab, browser):
     """The live notebook open in Lab, every cell run, the kernel idle."""
-    source, cells = _live_notebook()
-    shutil.copy(source, lab.work / source.name)
-    nb = nbformat.read(source, as_version=4)
     page = browser.new_page(viewport=LAB_VIEWPORT)
     errors = []
     page.on("pageerror", lambda e: errors.append(str(e)))
     try:
-        open_notebook(page, lab, source.name, len(nb.cells))
-        wait_kernel_idle(page)
-        assert kernel_name(page) == "python3"
-        run_all(page)
-        panels = [_cell(page, i).locator(".lgs-panel") for i in cells]
-        for p in panels:
-            p.wait_for(state="visible", timeout=CHANGE_TIMEOUT)
-        yield {
-            "page": page,
-            "source": source,
-            "cells": cells,
-            "nb": nb,
-            "panel": panels[0],
-            "cell": _cell(page, cells[0]),
-            "errors": errors,
-        }
+        run = run_live_notebook(page, lab)
+        yield {"page": page, "errors": errors, **run}
     finally:
         page.close()
 
@@ -139,8 +95,7 @@ def lab_saved(live, lab):
     return path
 
 
-def _cell(page, index: int):
-    return page.locator(".jp-NotebookPanel:visible .jp-Notebook .jp-Cell").nth(index)
+_cell = cell_at
 
 
 _VIEWS_JS = "el => [...el.querySelectorAll('.lgs-view')].map(v => v.innerHTML).join('\\n')"

@@ -18,6 +18,7 @@ panel caches drawn states and draws some ahead in idle time). Also timed: a drag
 mutation), and the save control.
 
 Usage: python benchmarks/bench_browser.py [--n 2000] [--repeats 15] [--settle 5] [--json PATH]
+       [--quiet 0.6] [--timeout 60] [--only alpha test ...] [--verbose]
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ import argparse
 import json
 import math
 import os
+import re
 import statistics
 import sys
 import tempfile
@@ -81,13 +83,22 @@ PROBE_JS = """panel => {
         }
     });
     probe.observer.observe(panel, {subtree: true, childList: true, attributes: true, characterData: true});
+    // a save control may hand the file to the browser instead of writing it (a download link, clicked by code)
+    probe.downloads = [];
+    const click = HTMLAnchorElement.prototype.click;
+    HTMLAnchorElement.prototype.click = function () {
+        if (this.hasAttribute('download')) probe.downloads.push(performance.now());
+        return click.call(this); };
+    document.addEventListener('click', e => { const a = e.target.closest && e.target.closest('a[download]');
+        if (a) probe.downloads.push(performance.now()); }, true);
     window.__lgsProbe = probe;
 }"""
 
 RESET_JS = """([expect, unless]) => { const p = window.__lgsProbe;
-    p.events = []; p.mutations = []; p.hits = 0; p.expect = expect; p.unless = unless; }"""
+    p.events = []; p.mutations = []; p.downloads = []; p.hits = 0; p.expect = expect; p.unless = unless; }"""
 
-# Resolves once the kernel is idle, the expected part of the panel changed and the panel has been quiet.
+# Resolves once the kernel is idle, the expected part of the panel changed (or a download started) and the
+# panel has been quiet; `last` is the last mutation (or download).
 WAIT_JS = f"""async ([quiet, timeout]) => {{
     const p = window.__lgsProbe, t0 = performance.now();
     const idle = () => {{ const w = {labkit._CURRENT};
@@ -95,10 +106,11 @@ WAIT_JS = f"""async ([quiet, timeout]) => {{
         return !!k && k.status === 'idle'; }};
     while (true) {{
         await new Promise(r => setTimeout(r, 25));
-        const now = performance.now(), last = p.mutations.length ? p.mutations[p.mutations.length - 1] : null;
-        const done = p.hits > 0 && idle() && last !== null && now - last >= quiet;
+        const stamps = p.mutations.concat(p.downloads), now = performance.now();
+        const last = stamps.length ? Math.max(...stamps) : null;
+        const done = (p.hits > 0 || p.downloads.length > 0) && idle() && last !== null && now - last >= quiet;
         if (done || now - t0 > timeout)
-            return {{done, events: p.events, last, mutations: p.mutations.length, downloads: window.__lgsDownloads}};
+            return {{done, events: p.events, last, mutations: p.mutations.length, downloads: p.downloads.length}};
     }}
 }}"""
 
@@ -142,6 +154,7 @@ class Bench:
         self.panel = cell.locator(PANEL).first
         self.seen: set[str] = set()
         self.results: dict[str, dict] = {}
+        self.absent: list[str] = []
 
     def state(self) -> str:
         return self.panel.evaluate(STATE_JS)
@@ -174,21 +187,29 @@ class Bench:
             print(f"  {name}: {ms:.0f} ms -> {state}")
 
     # -- the actions -----------------------------------------------------------------------------------------
-    def reveal(self, selector: str):
-        """The control ``selector`` in the panel, made visible (its on-demand section opened when it has one)."""
-        loc = self.panel.locator(selector).first
-        labkit.reveal(loc)
-        return loc
+    def reveal(self, selector: str, name: str):
+        """The control ``selector`` in the panel, made visible (its on-demand section opened when it has one);
+        None (and the control noted as absent) when the panel has no such control."""
+        loc = self.panel.locator(selector)
+        if loc.count() == 0:
+            self.absent.append(name)
+            return None
+        labkit.reveal(loc.first)
+        return loc.first
 
     def alpha(self) -> None:
-        sel = self.reveal(".lgs-alpha select")
+        sel = self.reveal(".lgs-alpha select", "alpha")
+        if sel is None:
+            return
         values = sel.evaluate("s => [...s.options].map(o => o.value)")
         for _ in range(self.args.repeats):
             nxt = values[(values.index(sel.input_value()) + 1) % len(values)]
             self.measure("alpha", lambda v=nxt: sel.select_option(value=v), start="change")
 
     def buttons(self, name: str, selector: str) -> None:
-        group = self.reveal(selector)
+        group = self.reveal(selector, name)
+        if group is None:
+            return
         labels = [b.strip() for b in group.locator("button").all_inner_texts()]
         if len(labels) < 2:
             return
@@ -200,7 +221,9 @@ class Bench:
 
     def keys(self, name: str, selector: str) -> None:
         """One step left, one right, ... with the arrow keys on the focused handle (right first from the minimum)."""
-        handle = self.reveal(f"{selector} .noUi-handle")
+        handle = self.reveal(f"{selector} .noUi-handle", name)
+        if handle is None:
+            return
         lo, hi = (float(handle.get_attribute(a)) for a in ("aria-valuemin", "aria-valuemax"))
         if hi <= lo:
             return
@@ -211,7 +234,9 @@ class Bench:
             self.measure(name, lambda k=key: self.page.keyboard.press(k), start="keydown")
 
     def drag(self) -> None:
-        handle = self.reveal(".lgs-lag-slider .noUi-handle")
+        handle = self.reveal(".lgs-lag-slider .noUi-handle", "max-lag drag")
+        if handle is None:
+            return
         track = self.panel.locator(".lgs-lag-slider .noUi-base").first
         lo, hi = (float(handle.get_attribute(a)) for a in ("aria-valuemin", "aria-valuemax"))
         if hi <= lo:
@@ -231,7 +256,9 @@ class Bench:
             self.measure("max-lag drag", act, start="pointerup")
 
     def save(self) -> None:
-        button = self.reveal(".lgs-save")
+        button = self.reveal(".lgs-save", "save")
+        if button is None:
+            return
         path = self.panel.locator(".lgs-save-path input")
         for i in range(self.args.repeats):
 
@@ -277,9 +304,6 @@ def run(args) -> dict:
             page = browser.new_page(viewport=VIEWPORT)
             errors: list[str] = []
             page.on("pageerror", lambda e: errors.append(str(e)))
-            page.on(
-                "download", lambda d: page.evaluate("() => { window.__lgsDownloads = (window.__lgsDownloads||0)+1 }")
-            )
             labkit.open_notebook(page, server, "bench.ipynb", len(nb.cells))
             labkit.wait_kernel_idle(page)
             for i in (0, 1):
@@ -298,6 +322,9 @@ def run(args) -> dict:
             out["first_render"] = renders
             panel = cell.locator(PANEL).first
             panel.wait_for(state="visible", timeout=labkit.KERNEL_TIMEOUT)
+            # the rows the panel reports (a check that the scenario ran at the size asked for)
+            found = re.search(r"\bn:\s*([\d,]+)", panel.inner_text())
+            out["panel_n"] = int(found.group(1).replace(",", "")) if found else None
             time.sleep(args.settle)
             bench = Bench(page, cell, args)
             bench.install()
@@ -314,10 +341,10 @@ def run(args) -> dict:
             for key in args.only or actions:
                 actions[key]()
             out["controls"] = bench.results
+            out["absent"] = bench.absent
             out["page_errors"] = errors
-            nbtools_shot = Path(__file__).resolve().parent / "out" / "screenshots"
-            nbtools_shot.mkdir(parents=True, exist_ok=True)
-            cell.screenshot(path=str(nbtools_shot / f"bench-browser-n{args.n}.png"))
+            labkit.scroll_to_top(panel)
+            labkit.shot_whole(panel, f"bench-browser-n{args.n}")
             browser.close()
     finally:
         server.stop()
@@ -326,7 +353,8 @@ def run(args) -> dict:
 
 
 def report(out: dict) -> None:
-    print(f"n = {out['n']:,}; {out['repeats']} repeats; settle {out['settle_s']} s; quiet {out['quiet_s']} s")
+    print(f"n = {out['n']:,} (the panel says n: {out.get('panel_n')}); {out['repeats']} repeats; ", end="")
+    print(f"settle {out['settle_s']} s; quiet {out['quiet_s']} s")
     print(
         f"Chromium {out.get('chromium')}; load average (1 min) before {out['load_before'][0]:.2f}, "
         f"after {out['load_after'][0]:.2f}"
@@ -348,6 +376,8 @@ def report(out: dict) -> None:
             f"{len(row['first_visit_ms']):>6} {fmt(row['revisit_ms'])} {len(row['revisit_ms']):>6} {row['timeouts']:>4}"
         )
     print("(ms; latency = last mutation of the panel - the event; first = a state not seen before, revisit = seen)")
+    if out.get("absent"):
+        print("controls not in the panel:", ", ".join(out["absent"]))
     if out["page_errors"]:
         print("page errors:", out["page_errors"])
 

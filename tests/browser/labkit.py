@@ -365,7 +365,9 @@ const lgsLayout = (() => {
             : {left: 0, top: 0, right: innerWidth, bottom: innerHeight};
         const stop = top ? top.parentElement : null;
         for (let e = el.parentElement; e && e !== stop; e = e.parentElement) { const s = getComputedStyle(e);
-            if (s.overflowX !== 'visible' || s.overflowY !== 'visible') { const b = e.getBoundingClientRect();
+            const b = e.getBoundingClientRect();
+            // a zero-size box cannot be what clips a shown child (its children are positioned out of it)
+            if ((s.overflowX !== 'visible' || s.overflowY !== 'visible') && b.width > 0 && b.height > 0) {
                 r = {left: Math.max(r.left, b.left), top: Math.max(r.top, b.top),
                      right: Math.min(r.right, b.right), bottom: Math.min(r.bottom, b.bottom)}; } }
         return r; };

@@ -48,6 +48,8 @@ bench: $(STAMP)
 	$(BIN)/python benchmarks/bench_screen.py
 	$(BIN)/python benchmarks/bench_verdict.py
 	$(BIN)/python benchmarks/bench_scale.py
+	if [ -x /usr/bin/chromium ]; then $(BIN)/python benchmarks/bench_browser.py; \
+	else echo "bench_browser.py skipped: no /usr/bin/chromium"; fi
 
 notebooks: $(STAMP)
 	$(BIN)/python scripts/make_notebooks.py

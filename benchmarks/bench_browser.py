@@ -255,20 +255,34 @@ class Bench:
 
             self.measure("max-lag drag", act, start="pointerup")
 
+    def settle(self, act) -> None:
+        """Run ``act()`` and wait as :meth:`measure` does, recording nothing (a step between two measurements)."""
+        self.page.evaluate(RESET_JS, [PANEL, None])
+        act()
+        self.page.evaluate(WAIT_JS, [self.args.quiet * 1000, self.args.timeout * 1000])
+
     def save(self) -> None:
-        button = self.reveal(".lgs-save", "save")
+        """The report control: the old layout's save button (a new file name each time, so the status line
+        changes), or the new layout's "prepare" button (after a band flip, which sets the prepared report
+        aside, so each click builds a report); latency = click to the status line's last change."""
+        new = self.panel.locator(".lgs-prepare").count() > 0
+        button = self.reveal(".lgs-prepare" if new else ".lgs-save", "save")
         if button is None:
             return
         path = self.panel.locator(".lgs-save-path input")
+        band = self.panel.locator(".lgs-band").first
         for i in range(self.args.repeats):
+            if new and i > 0 and band.count():
+                self.settle(band.locator("button:not(.mod-active)").first.click)
+                labkit.reveal(button)
 
             def act(i=i):
-                if path.count():  # a new file name each time, so the status line changes
+                if path.count():
                     path.first.fill(f"bench-report-{i % 2}.html")
                     path.first.dispatch_event("change")
                 button.click()
 
-            self.measure("save", act, start="click", expect=PANEL, unless=".lgs-save, .lgs-save-path")
+            self.measure("save", act, start="click", expect=".lgs-save-status")
 
 
 def percentile(values: list[float], q: float) -> float:
@@ -323,7 +337,7 @@ def run(args) -> dict:
             panel = cell.locator(PANEL).first
             panel.wait_for(state="visible", timeout=labkit.KERNEL_TIMEOUT)
             # the rows the panel reports (a check that the scenario ran at the size asked for)
-            found = re.search(r"\bn:\s*([\d,]+)", panel.inner_text())
+            found = re.search(r"\bn\s*[:=]\s*([\d,]+)", panel.inner_text())
             out["panel_n"] = int(found.group(1).replace(",", "")) if found else None
             time.sleep(args.settle)
             bench = Bench(page, cell, args)

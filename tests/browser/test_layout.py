@@ -20,6 +20,7 @@ published rules. One Lab server and one run of the notebook serve the whole modu
 
 from __future__ import annotations
 
+import json
 import sys
 from pathlib import Path
 
@@ -84,13 +85,15 @@ def _each_open_state(panel):
 
 
 def _findings(live, size: str, check) -> list:
+    """What ``check`` finds in each open state; a finding seen in several states is listed once, with them."""
     page, panel = _at_size(live, size)
-    found = []
+    found: dict[str, dict] = {}
     for state in _each_open_state(panel):
         for item in check(panel):
-            found.append({"state": state, **item} if isinstance(item, dict) else {"state": state, "item": item})
+            key = json.dumps(item, sort_keys=True)
+            found.setdefault(key, {**item, "states": []})["states"].append(state)
     labkit.scroll_to_top(panel)
-    return found
+    return list(found.values())
 
 
 @pytest.mark.parametrize("size", list(SIZES))

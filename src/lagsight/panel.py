@@ -89,7 +89,11 @@ _PANEL_CSS = """
 .lgs-panel .lgs-section{font-weight:600;font-size:13px;margin:6px 0 2px 0;color:var(--lgs-fg)}
 .lgs-panel .lgs-view{overflow:visible;min-width:0;max-width:100%}
 .lgs-panel .lgs-view figure{margin:2px 0}
-.lgs-panel .lgs-view figure svg,.lgs-panel .lgs-view figure img{width:100%;max-width:640px;height:auto}
+.lgs-panel .lgs-view figure svg,.lgs-panel .lgs-view figure img{width:100%;max-width:500px;height:auto}
+.lgs-panel .jupyter-widget-Collapse-header{color:var(--lgs-fg);opacity:1}
+.lgs-panel .jupyter-widget-Collapse-contents{padding:6px 4px}
+.lgs-panel .jupyter-widget-Collapse-header *{color:var(--lgs-fg)}
+@media (max-width: 1000px){.lgs-panel.lgs-root{padding:4px 4px}}
 .lgs-panel .lgs-controls{align-items:center;flex-wrap:wrap;gap:2px 6px;min-width:0}
 .lgs-panel .lgs-controls .widget-toggle-buttons{flex-wrap:wrap}
 .lgs-panel .lgs-control-label{color:var(--lgs-muted);font-size:13px}
@@ -404,7 +408,7 @@ class DiagnosisPanel:
             box([self.headline, level], "lgs-row", "lgs-top"),
             box(
                 [
-                    box([section("Durbin-Watson d on its 0\u20134 scale"), self.scale_view], "lgs-cell"),
+                    box([self.scale_view], "lgs-cell"),  # the figure carries its own title
                     box([section("Tests"), self.test_toggle, self.test_stack], "lgs-cell", "lgs-tests-box"),
                 ],
                 "lgs-row",

@@ -311,7 +311,8 @@ def table_html(t: Table, cls: str) -> str:
         out.append('<tr class="lgs-focus">' if i == t.focus else "<tr>")
         for j, cell in enumerate(row):
             num = j < len(t.numeric) and t.numeric[j]
-            out.append(f'<td class="lgs-num">{_e(cell)}</td>' if num else f"<td>{_e(cell)}</td>")
+            label = f' data-label="{_e(t.columns[j])}"' if j < len(t.columns) else ""  # narrow layout: cell names
+            out.append(f'<td class="lgs-num"{label}>{_e(cell)}</td>' if num else f"<td{label}>{_e(cell)}</td>")
         out.append("</tr>")
     out.append("</tbody></table>")
     if t.caption:

@@ -287,7 +287,7 @@ def _critical(dist, alpha: float, alt: str) -> list[float]:
 
 def _level_words(alpha: float, alt: str) -> str:
     """The level each exact critical value is drawn at: alpha, or alpha/2 in each tail when two-sided."""
-    return f"\u03b1/2 = {alpha / 2:g} in each tail" if alt == "two-sided" else f"\u03b1 = {alpha:g}"
+    return f"\u03b1/2 = {alpha / 2:g} per tail" if alt == "two-sided" else f"\u03b1 = {alpha:g}"
 
 
 def _zoom_box(ax, window) -> None:
@@ -501,7 +501,7 @@ def _legend(dist, alpha: float, alt: str, count: int) -> list:
             color=PALETTE["ink"],
             lw=1.0,
             ls=(0, (4, 2)),
-            label=f"exact critical value{'s' * (count > 1)}, {_level_words(alpha, alt)}",
+            label=f"critical value{'s' * (count > 1)}, {_level_words(alpha, alt)}",
         ),
     ]
 

@@ -39,11 +39,11 @@ REGION_STYLE = {
     "negative": ("evidence of negative correlation", PALETTE["orange_light"], "\\\\\\", PALETTE["orange"]),
 }
 
-#: default figure width in inches: 360 pt, which a browser draws 480 CSS px wide (the narrowest
-#: panel column), so 8 pt text, the smallest any figure uses, shows at 10.7 px or more
+#: default figure width in inches: 360 pt, which a browser draws 480 CSS px wide
 FIG_WIDTH = 5.0
-#: smallest font size on any figure, pt (10.7 CSS px at FIG_WIDTH)
-MIN_FONT_PT = 8.0
+#: smallest font size on any figure, pt: 11.1 CSS px at FIG_WIDTH, so still 10 px when the figure is drawn
+#: 432 px wide (the narrowest panel column seen: JupyterLab at 900 px with its file browser open)
+MIN_FONT_PT = 8.3
 
 #: matplotlib settings applied through a local rc_context only (never globally)
 FIGURE_RC = {
@@ -69,9 +69,9 @@ FIGURE_RC = {
     "ytick.color": PALETTE["muted"],
     "xtick.labelcolor": PALETTE["ink"],
     "ytick.labelcolor": PALETTE["ink"],
-    "xtick.labelsize": 8.0,
-    "ytick.labelsize": 8.0,
-    "legend.fontsize": 8.0,
+    "xtick.labelsize": MIN_FONT_PT,
+    "ytick.labelsize": MIN_FONT_PT,
+    "legend.fontsize": MIN_FONT_PT,
     "legend.frameon": False,
     "figure.facecolor": PALETTE["paper"],
     "savefig.facecolor": PALETTE["paper"],
@@ -151,6 +151,16 @@ CSS = (
 .lgs-root .lgs-sentence{font-family:var(--jp-code-font-family,monospace);font-size:12px;background:var(--lgs-card);
   border:1px solid var(--lgs-border);border-radius:6px;padding:6px 8px}
 .lgs-root ul.lgs-list{margin:2px 0 2px 18px;padding:0}
+.lgs-root{container-type:inline-size}
+@container (max-width: 700px){
+  .lgs-root table.lgs-table thead{display:none}
+  .lgs-root table.lgs-table,.lgs-root table.lgs-table tbody,.lgs-root table.lgs-table tr{display:block;width:100%}
+  .lgs-root table.lgs-table tr{border-bottom:1px solid var(--lgs-border);padding:3px 0}
+  .lgs-root table.lgs-table td,.lgs-root table.lgs-table td.lgs-num{display:inline-block;border:0;
+    padding:1px 10px 1px 0;text-align:left}
+  .lgs-root table.lgs-table td[data-label]::before{content:attr(data-label) " ";color:var(--lgs-muted);
+    font-weight:600}
+}
 .lgs-root details{margin:6px 0}
 .lgs-root details summary{cursor:pointer;color:var(--lgs-muted)}
 """

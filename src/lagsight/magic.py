@@ -167,9 +167,11 @@ class LagsightMagics(Magics):
         self._design(model, args, options)
         from .diagnosis import diagnose
         from .display import set_preferences, silence_in_cell
+        from .hints import hint_syntax
 
         try:  # library warnings never escape diagnose: they become notes on the Diagnosis
-            diag = diagnose(model, **options)
+            with hint_syntax("magic"):  # advice names the magic's options (--order index, --X)
+                diag = diagnose(model, **options)
         except (TypeError, ValueError) as err:
             raise _usage(err) from None
         if took is not None:

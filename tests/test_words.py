@@ -22,8 +22,8 @@ from lagsight.cli import main
 from lagsight.display import BoundsView, static_html
 from lagsight.formats import format_count, format_p, format_pvalue, format_statistic
 from lagsight.hints import HINT_SYNTAXES, hint_syntax, option_hint, sort_hint
-from lagsight.render.html import build_view, groups_table, save_html
 from lagsight.render import text as T
+from lagsight.render.html import build_view, groups_table, save_html
 from lagsight.render.text import TEST_COLUMNS, diagnosis_text, report_sentence
 from lagsight.stats.bounds import dw_bounds
 
@@ -137,7 +137,14 @@ _API = [(re.compile(r"(?<![\w-])--[a-z]"), "a '--' flag")]
 # dates and times (span, stamps), row labels (the span of an integer index), years in citations
 # ('Newey-West (1994)', 'Holm 1979'), exponents
 _NOT_COUNTS = re.compile(
-    r"span: [^\n]*?\u2026 \S+|\d{4}-\d\d-\d\d(?:[ T]\d\d:\d\d(?::\d\d)?)?|\((?:1[89]|20)\d\d\)|\b[A-Z][a-z]+ (?:1[89]|20)\d\d\b|e[-+]\d+"
+    "|".join(
+        (
+            r"span: [^\n]*?\u2026 \S+",  # the span of the index: labels, not counts
+            r"\d{4}-\d\d-\d\d(?:[ T]\d\d:\d\d(?::\d\d)?)?",  # dates and times
+            r"\((?:1[89]|20)\d\d\)|\b[A-Z][a-z]+ (?:1[89]|20)\d\d\b",  # years in citations
+            r"e[-+]\d+",  # exponents
+        )
+    )
 )
 _BARE_COUNT = re.compile(r"(?<![\d.,])\d{4,}(?![\d,]|\.\d)")
 

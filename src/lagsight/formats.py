@@ -72,15 +72,15 @@ def tiny_p_text(log10) -> str:
 
 
 def format_pvalue(p, log10=None) -> str:
-    """A p-value: 3 decimals, or 2 significant digits below 0.001; below the smallest double from
+    """A p-value: 3 decimals, or 2 significant digits below 0.001 ('3.1e-05'); below the smallest double from
     its ``log10`` when known ('3.2e-570'); 'n/a' when missing."""
     if _missing(p):
         return "n/a"
     p = float(p)
     if p <= 0.0:
         return tiny_p_text(log10)
-    if p < 0.001:
-        return f"{p:.2g}"
+    if p < 0.001:  # always two significant digits, so '2.0e-156' sits beside '1.6e-246'
+        return f"{p:.1e}"
     return f"{p:.3f}"
 
 

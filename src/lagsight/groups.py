@@ -142,10 +142,10 @@ def _group_level_note(e: np.ndarray, blocks) -> str | None:
     p = f_oneway(*[e[b] for b in blocks]).pvalue
     if p < 1e-3:
         return (
-            "Residual means differ between groups (one-way ANOVA p = "
-            f"{p:.2g}): the pooled model leaves group levels in the residuals, which shows up as "
-            "autocorrelation within groups. Add group effects to the model, or screen one model per group "
-            "with lagsight.screen."
+            f"Residual means differ between groups (one-way ANOVA {format_p(p)}): the pooled model leaves "
+            "group levels in the residuals, which shows up as "
+            "autocorrelation within groups. Add group effects to the model, or fit one model per group and "
+            "screen them together."
         )
     return None
 

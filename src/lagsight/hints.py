@@ -19,6 +19,7 @@ __all__ = [
     "current_hint_syntax",
     "option_hint",
     "sort_hint",
+    "option_flags",
     "check_hint_syntax",
 ]
 
@@ -95,6 +96,15 @@ def option_hint(option: str, value=None, *, syntax: str | None = None) -> str:
     if " " in text and not text.startswith("<"):
         text = f'"{text}"'
     return f"{flag} {text}"
+
+
+def option_flags(syntax: str) -> dict:
+    """Option -> the flag that sets it in ``syntax`` ('magic' or 'cli'), for the options that entry point has
+    (the magic uses it to name its own flags in the library's error messages)."""
+    if check_hint_syntax(syntax) == "api":
+        return {name: f"{name}=" for name in _FLAGS}
+    column = 0 if syntax == "magic" else 1
+    return {name: flags[column] for name, flags in _FLAGS.items() if flags[column] is not None}
 
 
 def sort_hint(*, syntax: str | None = None) -> str:

@@ -617,8 +617,8 @@ class InferenceComparison:
 
     def __str__(self) -> str:
         return (
-            f"OLS vs HAC ({self.hac_lag} lags) vs {self.fgls_method} (rho={self.rho:.4f}), "
-            f"alpha={self.alpha:g}\n{self.table.to_string()}"
+            f"OLS vs HAC ({self.hac_lag} lags, {HAC_RULE_WORDS.get(self.lag_rule, self.lag_rule)}) vs "
+            f"{self.fgls_method} (\u03c1 = {self.rho:.3f}), \u03b1 = {self.alpha:g}\n{self.table.to_string()}"
         )
 
 

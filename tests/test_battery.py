@@ -167,7 +167,7 @@ def test_durbin_h_agrees_with_hand_computation(macro_consumption):
     assert two.pvalue == pytest.approx(2 * stats.norm.sf(abs(h)), rel=1e-8)
     neg = durbin_h(e, X, y, lag_column=2, alternative="negative")
     assert neg.pvalue == pytest.approx(stats.norm.cdf(h), rel=1e-10)
-    assert "1 - d/2" in out.method
+    assert "1 − d/2" in out.method
 
 
 def test_durbin_h_undefined_when_variance_too_large():
@@ -181,7 +181,7 @@ def test_durbin_h_undefined_when_variance_too_large():
     assert n * res.bse[1] ** 2 >= 1  # precondition of the scenario
     out = durbin_h(res.resid, X, y[1:], lag_column=1)
     assert np.isnan(out.statistic) and np.isnan(out.pvalue)
-    assert any("undefined" in s and "durbin_alternative" in s for s in out.notes)
+    assert any("undefined" in s and "Durbin's alternative" in s for s in out.notes)
 
 
 def test_durbin_h_rejects_wrong_residuals(macro_consumption):

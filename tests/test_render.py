@@ -500,7 +500,7 @@ def test_report_sentence_against_statsmodels_reference_values():
     assert "against positive autocorrelation (Imhof inversion);" in text
     # quarterly index: the verdict's family is Durbin-Watson and its order-4 twin, weighted Holm
     assert text.endswith(
-        f"; Durbin-Watson and the order-4 test, weighted Holm (0.8 : 0.2) at alpha 0.05: "
+        f"; Durbin-Watson and the order-4 test, weighted Holm (0.8 : 0.2) at α = 0.05: "
         f"adjusted p = "
         f"{T.format_pvalue(d.verdict.adjusted_pvalue(DW))}."
     )

@@ -51,7 +51,7 @@ def test_one_leading_test_is_the_verdict(start):
     # with one leading test the verdict finds correlation exactly when that test rejects at alpha,
     # so its power against AR(1) errors equals the leading test's
     r = simulate(_design(start), 0.4, 60, 21, alpha=ALPHA)
-    assert r.verdict == r.leading and r.rule == f"leading test {r.leading_name} at alpha 0.05"
+    assert r.verdict == r.leading and r.rule == f"leading test {r.leading_name} at α = 0.05"
 
 
 def test_holm_matches_statsmodels():
@@ -76,7 +76,7 @@ def test_seasonal_family_follows_holm_and_its_advice_needs_the_adjusted_p():
             d = lagsight.diagnose(**design.draw(rho, rng), remedies=False)
             v = d.verdict
             assert v.family == (DW, SEASONAL)
-            assert v.rule == "Durbin-Watson and the order-12 test, weighted Holm (0.8 : 0.2) at alpha 0.05"
+            assert v.rule == "Durbin-Watson and the order-12 test, weighted Holm (0.8 : 0.2) at α = 0.05"
             p_dw, p_s = d.tests[DW].pvalue, d.tests[SEASONAL].pvalue
             assert (v.finding == "evidence") == (p_dw < w_dw * ALPHA or p_s < w_s * ALPHA)
             if p_s / w_s <= p_dw / w_dw:
@@ -109,7 +109,7 @@ def test_seasonal_test_runs_only_when_the_period_is_known():
     assert SEASONAL in lagsight.diagnose(**kw, remedies=False).tests
     d = lagsight.diagnose(**plain, remedies=False)
     assert SEASONAL not in d.tests and SEASONAL not in d.errors
-    assert d.verdict.family == (DW,) and d.verdict.rule == "leading test Durbin-Watson at alpha 0.05"
+    assert d.verdict.family == (DW,) and d.verdict.rule == "leading test Durbin-Watson at α = 0.05"
     given = lagsight.diagnose(**plain, period=12, remedies=False)
     assert given.verdict.family == (DW, SEASONAL)
 
@@ -140,10 +140,10 @@ def test_lagged_response_is_led_by_durbins_alternative_test():
     assert d.tests[DALT].statistic == pytest.approx(t, rel=1e-9)
     assert d.tests[DALT].pvalue == pytest.approx(stats.t.sf(t, aux.df_resid), rel=1e-9)  # positive
     assert v.finding == ("evidence" if stats.t.sf(t, aux.df_resid) < ALPHA else "no evidence")
-    # h shown beside it, saying which rho-hat it used (1 - d/2, d from statsmodels)
+    # h shown beside it, saying which ρ̂ it used (1 − d/2, d from statsmodels)
     rho = 1 - sm_durbin_watson(e) / 2
     assert d.tests[DH].rho == pytest.approx(rho, rel=1e-12)
-    assert any("rho-hat = 1 - d/2 = " + f"{rho:.3f}" in line for line in v.details)
+    assert any("ρ̂ = 1 − d/2 = " + T.format_statistic(rho) in line for line in v.details)
     assert "Durbin's h" not in v.headline
     two = d.reassess(alternative="two-sided")
     assert two.tests[DALT].pvalue == pytest.approx(2 * stats.t.sf(abs(t), aux.df_resid), rel=1e-9)
@@ -272,7 +272,7 @@ def test_headline_follows_the_alternative():
     for view in (neg, again):
         v, p = view.verdict, view.tests[DW].pvalue
         assert p > 0.5 and v.finding == "no evidence" and v.pvalue == p
-        assert v.headline.startswith("No evidence of negative lag-1 autocorrelation at alpha 0.05 ")
+        assert v.headline.startswith("No evidence of negative lag-1 autocorrelation at α = 0.05 ")
         row = next(r for r in T.test_rows(view) if r[0] == DW)
         assert row[4] == "no evidence (leading test)"
         figures = dict(T.key_figures(view))
@@ -294,7 +294,7 @@ def test_headline_follows_alpha():
     for alpha in (p / 2, min(0.5, 2 * p)):
         moved = d.reassess(alpha=alpha)
         assert moved.verdict.finding == ("evidence" if p < alpha else "no evidence")
-        assert dict(T.key_figures(moved))["alpha"] == f"{alpha:g}"
+        assert dict(T.key_figures(moved))["α"] == f"{alpha:g}"
         assert moved.verdict.headline == lagsight.diagnose(_ar1_fit(rho=0.2, seed=9), alpha=alpha).verdict.headline
 
 

@@ -14,6 +14,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .formats import format_count
+from .hints import option_hint
 from .inputs import ResidualData
 from .order import infer_bg_order
 from .stats import battery, runs
@@ -183,12 +185,12 @@ def lead_plan(data: ResidualData, *, lagged_response: str | None, period: int | 
     problem = input_problem(data)
     if problem is None and n <= k + 1:
         problem = (
-            f"n = {n} observations for k = {k} coefficients: the residuals have at most one degree of "
+            f"n = {format_count(n)} observations for k = {k} coefficients: the residuals have at most one degree of "
             f"freedom, and the tests need n > k + 1"
         )
     if problem is None and plan.leading == LB and n < MIN_PORTMANTEAU_N:
         problem = (
-            f"n = {n} observations are too few for the large-sample Ljung-Box test that leads without "
+            f"n = {format_count(n)} observations are too few for the large-sample Ljung-Box test that leads without "
             f"a design (at least {MIN_PORTMANTEAU_N})"
         )
     return dataclasses.replace(plan, problem=problem) if problem else plan
@@ -283,7 +285,7 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
                 notes.append(
                     f"No design was given, so the Durbin-Watson bounds dL/dU assume k' = "
                     f"{assumed} (one regressor besides a constant); pass the fitted model "
-                    "or exog= for the exact p-value of the real design."
+                    f"or {option_hint('exog')} for the exact p-value of the real design."
                 )
     else:
         errors[DW] = (
@@ -310,9 +312,9 @@ def run_battery(data: ResidualData, settings: BatterySettings) -> BatteryRun:
     # seasonal order-s Durbin-Watson: only when the period is known (index frequency or given)
     if period:
         if exog is None or not data.dw_applicable:
-            errors[SEASONAL] = "needs the model's design matrix (pass exog) for an exact p-value"
+            errors[SEASONAL] = f"needs the model's design matrix ({option_hint('exog')}) for an exact p-value"
         elif not _seasonal_fits(n, period, exog.shape[1]):
-            errors[SEASONAL] = f"too few observations ({n}) for the order-{period} statistic"
+            errors[SEASONAL] = f"too few observations ({format_count(n)}) for the order-{period} statistic"
         else:
             tests.update(seasonal_tests)
             errors.update(seasonal_errors)

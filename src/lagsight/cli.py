@@ -239,6 +239,8 @@ def _as_dates(column: pd.Series):
 
 def _report(args) -> int:
     from .diagnosis import diagnose
+    from .formats import format_count
+    from .hints import hint_syntax
     from .render.html import save_html
     from .stats._caught import caught_warnings
 
@@ -248,15 +250,16 @@ def _report(args) -> int:
     with caught_warnings() as caught:  # e.g. pandas on a CSV's mixed column types: printed as notes
         frame = _load(args)
     try:
-        diag = diagnose(
-            frame,
-            response=args.y,
-            predictors=args.predictors,
-            groups=args.groups,
-            order="index" if args.time else "auto",
-            alpha=args.alpha,
-            alternative=args.alternative,
-        )
+        with hint_syntax("cli"):  # advice names this command's flags (--time, --x)
+            diag = diagnose(
+                frame,
+                response=args.y,
+                predictors=args.predictors,
+                groups=args.groups,
+                order="index" if args.time else "auto",
+                alpha=args.alpha,
+                alternative=args.alternative,
+            )
     except (ValueError, TypeError, ArithmeticError, np.linalg.LinAlgError) as err:
         raise _InputError(str(err).splitlines()[0] or type(err).__name__) from None
     try:
@@ -274,7 +277,7 @@ def _report(args) -> int:
         print(f"order: checked on the date column {args.checked_on!r} (pass --time {args.checked_on} to sort by it)")
     else:
         print("order: rows as given (no date column found; pass --time to name one)")
-    print(f"rows: {diag.n} of {len(frame)} tested")
+    print(f"rows: {format_count(diag.n)} of {format_count(len(frame))} tested")
     for note in (*caught.notes("reading the CSV"), *diag.notes):
         print(f"note: {note}")
     for note in diag.test_notes:

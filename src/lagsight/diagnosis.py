@@ -14,7 +14,9 @@ from dataclasses import dataclass, field
 import pandas as pd
 
 from .battery_run import DW, BatterySettings, LeadPlan, failure_reason, run_battery
+from .formats import format_count, format_pvalue, format_statistic
 from .groups import GroupSummary, run_groups
+from .hints import current_hint_syntax, hint_syntax
 from .inputs import ResidualData, as_residual_data
 from .order import OrderReport, check_order, infer_seasonal_period
 from .stats._arrays import check_alpha, check_choice, check_flag, check_optional_int, check_period
@@ -63,6 +65,8 @@ class Diagnosis:
     notes: tuple = ()
     #: which test leads the verdict, fixed from the model's kind (see lagsight.battery_run.lead_plan)
     plan: LeadPlan | None = None
+    #: the syntax hints are written in: 'api', 'magic' or 'cli' (see lagsight.hints), set by the entry point
+    hint_syntax: str = "api"
 
     # -- views ---------------------------------------------------------------
     @property
@@ -148,11 +152,19 @@ class Diagnosis:
         return dataclasses.replace(new, verdict=verdict, remedies=remedies)
 
     def __str__(self) -> str:
-        lines = [f"lagsight diagnosis: {self.data.source}", f"tested in {self.order.order_used}, n = {self.n}", ""]
+        lines = [
+            f"lagsight diagnosis: {self.data.source}",
+            f"tested in {self.order.order_used}, n = {format_count(self.n)}",
+            "",
+        ]
         lines.append(str(self.verdict))
         lines.append("")
-        table = self.to_frame()[["test", "statistic", "pvalue", "reading"]]
-        lines.append(table.to_string(index=False, float_format=lambda v: f"{v:.4g}"))
+        rows = [
+            (row["test"], format_statistic(row["statistic"]), format_pvalue(row["pvalue"]), row["reading"])
+            for row in self.to_frame().to_dict("records")
+        ]
+        table = pd.DataFrame(rows, columns=["test", "statistic", "p-value", "reading"])
+        lines.append(table.to_string(index=False))
         if self.notes:
             lines.append("")
             lines += [f"note: {n}" for n in self.notes]
@@ -209,6 +221,11 @@ def _remedies(data: ResidualData, alpha: float, notes: list | None = None):
 
 
 def _verdict(d: Diagnosis, remedies) -> Verdict:
+    with hint_syntax(d.hint_syntax):
+        return _write(d, remedies)
+
+
+def _write(d: Diagnosis, remedies) -> Verdict:
     return write_verdict(
         d.tests,
         d.plan,
@@ -360,6 +377,7 @@ def _diagnose(
         lagged_response=run.lagged_response,
         notes=tuple(notes),
         plan=run.plan,
+        hint_syntax=current_hint_syntax(),
     )
     verdict = _verdict(d, None)
     fixes = None

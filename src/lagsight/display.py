@@ -366,6 +366,7 @@ def cautions_html(diag, shown=()) -> str:
 
 def test_html(diag, name: str | None) -> str:
     """One test: statistic, p-value, what it looks for, the reading, how to read it; or why it did not run."""
+    from .formats import format_level
     from .render.html import keys_html
     from .render.text import TEST_COLUMNS, TEST_GUIDE, test_rows
 
@@ -374,7 +375,7 @@ def test_html(diag, name: str | None) -> str:
     if name in diag.errors:
         return error_box(f"{name} could not be run:", diag.errors[name])
     row = next(r for r in test_rows(diag) if r[0] == name)
-    pairs = [(k, v) for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v] + [("alpha", f"{diag.alpha:g}")]
+    pairs = [(k, v) for k, v in zip(TEST_COLUMNS[1:], row[1:]) if v] + [("\u03b1", format_level(diag.alpha))]
     if name in diag.verdict.family and diag.verdict.rule:
         pairs.append(("rule", diag.verdict.rule))
     parts = [f"<h4>{_esc(name)}</h4>", keys_html(pairs)]
@@ -392,7 +393,7 @@ def remedies_html(diag) -> str:
     if diag.remedies is None:
         why = {
             "evidence": "it needs the response and the design of a fitted regression",
-            "no evidence": "no correlation was found at this alpha",
+            "no evidence": "no correlation was found at this \u03b1",
             "not meaningful": "not meaningful, because the rows are not in time order",
         }.get(finding, f"cannot judge ({diag.verdict.reason})")
         return f'<p class="lgs-caption">No corrected inference: {_esc(why)}.</p>'
@@ -430,16 +431,18 @@ class BoundsView:
         return self.bounds.upper
 
     def rows(self) -> list[tuple[str, str]]:
+        from .formats import format_count, format_level, format_statistic
+
         b = self.bounds
         return [
-            ("n", f"{b.n:,}"),
+            ("n", format_count(b.n)),
             ("k' (regressors without the constant)", str(b.k_prime)),
-            ("alpha", f"{b.alpha:g}"),
+            ("\u03b1", format_level(b.alpha)),
             ("model has a constant", "yes" if b.has_constant else "no"),
-            ("dL", f"{b.lower:.3f}"),
-            ("dU", f"{b.upper:.3f}"),
-            ("4 - dU", f"{4 - b.upper:.3f}"),
-            ("4 - dL", f"{4 - b.lower:.3f}"),
+            ("dL", format_statistic(b.lower)),
+            ("dU", format_statistic(b.upper)),
+            ("4 \u2212 dU", format_statistic(4 - b.upper)),
+            ("4 \u2212 dL", format_statistic(4 - b.lower)),
             ("method", str(b.method)),
         ]
 

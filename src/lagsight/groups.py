@@ -16,6 +16,7 @@ from scipy.stats import f_oneway
 from statsmodels.stats.multitest import multipletests
 
 from .battery_run import BG, DW, LB, RUNS, BatterySettings, failure_reason, run_battery, strength
+from .formats import format_count, format_p, format_statistic
 from .inputs import ResidualData
 from .stats._arrays import unit_columns, unit_scale
 from .stats._caught import caught_warnings
@@ -72,9 +73,9 @@ class GroupSummary:
 
     def __str__(self) -> str:
         head = (
-            f"{self.n_groups} groups ({self.n_tested} tested, {len(self.skipped)} skipped); "
-            f"pooled within-group d = {self.pooled_dw:.4f} "
-            f"(p {self.pooled_pvalue:.4g}); stacked d across boundaries = {self.naive_dw:.4f}"
+            f"{format_count(self.n_groups)} groups ({format_count(self.n_tested)} tested, "
+            f"{format_count(len(self.skipped))} skipped); pooled within-group d = {format_statistic(self.pooled_dw)} "
+            f"({format_p(self.pooled_pvalue)}); stacked d across boundaries = {format_statistic(self.naive_dw)}"
         )
         lines = [head, self.table.to_string(max_rows=20)]
         if self.skipped:
@@ -126,7 +127,7 @@ def _warning_notes(warned: dict) -> list[str]:
     out = []
     for note, labels in warned.items():
         shown = ", ".join(map(str, labels[:5])) + (", \u2026" if len(labels) > 5 else "")
-        out.append(f"In {len(labels)} group(s) ({shown}), {note}")
+        out.append(f"In {format_count(len(labels))} group(s) ({shown}), {note}")
     return out
 
 
@@ -141,10 +142,10 @@ def _group_level_note(e: np.ndarray, blocks) -> str | None:
     p = f_oneway(*[e[b] for b in blocks]).pvalue
     if p < 1e-3:
         return (
-            "Residual means differ between groups (one-way ANOVA p = "
-            f"{p:.2g}): the pooled model leaves group levels in the residuals, which shows up as "
-            "autocorrelation within groups. Add group effects to the model, or screen one model per group "
-            "with lagsight.screen."
+            f"Residual means differ between groups (one-way ANOVA {format_p(p)}): the pooled model leaves "
+            "group levels in the residuals, which shows up as "
+            "autocorrelation within groups. Add group effects to the model, or fit one model per group and "
+            "screen them together."
         )
     return None
 
@@ -226,7 +227,7 @@ def run_groups(data: ResidualData, settings: BatterySettings) -> GroupSummary:
     if level_note:
         notes.append(level_note)
     if skipped:
-        notes.append(f"{len(skipped)} group(s) skipped: see 'skipped'.")
+        notes.append(f"{format_count(len(skipped))} group(s) skipped (listed under the group table).")
     return GroupSummary(
         table=table,
         pooled_dw=pooled_dw,

@@ -39,7 +39,7 @@ _ROW_FIELDS = ("resid", "exog", "endog", "groups", "order_values")
 
 
 def _rows(k: int) -> str:
-    return f"{k} row" if k == 1 else f"{k} rows"
+    return f"{k} row" if k == 1 else f"{k:,} rows"
 
 
 def frame_column(frame: pd.DataFrame, column, arg: str) -> pd.Series:
@@ -666,7 +666,7 @@ def _finish(raw: ResidualData, keep, groups, time) -> ResidualData:
         groups=group_arr,
         order_values=order_arr,
         order_name=order_name,
-        source=f"{raw.source}, {n} rows",
+        source=f"{raw.source}, {n:,} rows",
         notes=tuple(notes),
     )
     if n < n0:  # no copy of the rows when every row is kept

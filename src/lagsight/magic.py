@@ -12,6 +12,8 @@ from IPython.core.error import UsageError
 from IPython.core.magic import Magics, line_magic, magics_class
 from IPython.core.magic_arguments import argument, magic_arguments, parse_argstring
 
+from .hints import option_flags
+
 __all__ = ["LagsightMagics", "load_ipython_extension", "unload_ipython_extension"]
 
 _ALTERNATIVES = ("positive", "negative", "two-sided")
@@ -29,21 +31,8 @@ def _unquote(text: str | None) -> str | None:
 
 
 #: API argument -> the magic option that sets it, so an error raised by the library's checks
-#: (the one place for input rules) names what the user typed
-_OPTION_OF = {
-    "alpha": "--alpha",
-    "alternative": "--alternative",
-    "max_lag": "--max-lag",
-    "bg_max_lag": "--bg-max-lag",
-    "period": "--period",
-    "order": "--order",
-    "groups": "--groups",
-    "exog": "--X",
-    "endog": "--y",
-    "response": "--y",
-    "predictors": "--X",
-    "time": "--order",
-}
+#: (the one place for input rules) names what the user typed; the flags are lagsight.hints' (one table)
+_OPTION_OF = option_flags("magic")
 
 
 def _usage(err: BaseException, names: dict = _OPTION_OF) -> UsageError:
@@ -167,9 +156,11 @@ class LagsightMagics(Magics):
         self._design(model, args, options)
         from .diagnosis import diagnose
         from .display import set_preferences, silence_in_cell
+        from .hints import hint_syntax
 
         try:  # library warnings never escape diagnose: they become notes on the Diagnosis
-            diag = diagnose(model, **options)
+            with hint_syntax("magic"):  # advice names the magic's options (--order index, --X)
+                diag = diagnose(model, **options)
         except (TypeError, ValueError) as err:
             raise _usage(err) from None
         if took is not None:

@@ -15,6 +15,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from .formats import format_count
+from .hints import option_hint
 from .inputs import ResidualData, _rows, frame_column
 from .stats._arrays import check_order_arg
 
@@ -249,29 +251,33 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
             perm = np.arange(n)
         if n_desc and do_sort:
             warnings.append(
-                f"The rows were not in order of {key_name}{within} ({n_desc} of {n_steps} steps "
-                f"went backwards); they were sorted by it for testing. If the sample is a random "
-                f"subset of a longer series, the sorted rows skip the times left out."
+                f"The rows were not in order of {key_name}{within} ({format_count(n_desc)} of "
+                f"{format_count(n_steps)} steps went backwards); they were sorted by it for testing. If the "
+                "sample is a random subset of a longer series, the sorted rows skip the times left out."
             )
         elif flags["reversed"]:
             warnings.append(
                 f"{key_name.capitalize()} decreases throughout{within}: the rows run backwards in "
                 "time. Serial-correlation statistics do not change under reversal, but plots read "
-                "backwards; order='index' sorts by the index."
+                f"backwards; {option_hint('order', 'index')} sorts by the index."
             )
         elif n_desc:
             looks = " This looks like a shuffled or randomly split sample." if frac >= _SHUFFLE_FRACTION else ""
             warnings.append(
-                f"{key_name.capitalize()} is not in increasing order{within}: {n_desc} of {n_steps} "
-                f"steps ({frac:.0%}) go backwards.{looks} Row order is not time order, so "
-                "serial-correlation tests on row order are not meaningful. order='index' sorts by "
-                "the index (stable); otherwise put the rows in time order first."
+                f"{key_name.capitalize()} is not in increasing order{within}: {format_count(n_desc)} of "
+                f"{format_count(n_steps)} steps ({frac:.0%}) go backwards.{looks} Row order is not time "
+                f"order, so serial-correlation tests on row order are not meaningful. "
+                f"{option_hint('order', 'index')} sorts by the index (stable); otherwise put the rows "
+                "in time order first."
             )
         if dup:
             advice = (
                 "check for repeated records"
                 if gcodes is not None
-                else ("if the data hold several series, pass groups= to test them separately")
+                else (
+                    f"if the data hold several series, pass {option_hint('groups', '<group column>')} "
+                    "to test them separately"
+                )
             )
             warnings.append(
                 f"{_rows(dup)} share{'s' * (dup == 1)} a time stamp with an earlier row"
@@ -286,7 +292,7 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
     flags.update(_gap_summary(key, gcodes))
     if flags["gaps"]:
         warnings.append(
-            f"The time stamps have {flags['gaps']} irregular gaps{within} (usual step "
+            f"The time stamps have {format_count(flags['gaps'])} irregular gaps{within} (usual step "
             f"{flags['usual_step']}; largest gap {flags['largest_gap']}). Across a gap, "
             "the next row is more than one time step later."
         )
@@ -297,9 +303,10 @@ def check_order(data: ResidualData, *, order: str = "auto", groups=None) -> Orde
         flags.update(interleaved_groups=runs > n_groups, n_groups=n_groups, group_runs=runs)
         if runs > n_groups:
             warnings.append(
-                f"The rows of {n_groups} groups are interleaved ({runs} runs instead of {n_groups} "
-                "blocks): neighbouring residuals often belong to different series. Test each group "
-                "separately, or sort with order='index' to put each group in one block."
+                f"The rows of {format_count(n_groups)} groups are interleaved ({format_count(runs)} runs instead "
+                f"of {format_count(n_groups)} blocks): neighbouring residuals often belong to different "
+                f"series. Test each group separately, or sort with {option_hint('order', 'index')} to put "
+                "each group in one block."
             )
     else:
         flags.update(interleaved_groups=False, n_groups=None, group_runs=None)

@@ -22,6 +22,8 @@ import pandas as pd
 from statsmodels.stats.multitest import multipletests
 
 from .battery_run import BG, DW, LB, BatterySettings, failure_reason, ljung_box_lag, run_battery, strength
+from .formats import format_count, format_level
+from .hints import sort_hint
 from .inputs import ResidualData, as_residual_data, frame_column, unlabelled, unlabelled_note
 from .order import check_order, infer_bg_order, infer_seasonal_period
 from .stats._arrays import (
@@ -96,8 +98,9 @@ class ScreenResult:
     def __str__(self) -> str:
         ok = len(self.table) - len(self.failed)
         head = (
-            f"lagsight screen: {len(self.table)} models, {ok} screened, {len(self.failed)} failed; "
-            f"{len(self.flagged)} with evidence at alpha {self.alpha:g} after adjustment "
+            f"lagsight screen: {format_count(len(self.table))} models, {format_count(ok)} screened, "
+            f"{format_count(len(self.failed))} failed; {format_count(len(self.flagged))} with evidence at "
+            f"\u03b1 = {format_level(self.alpha)} after adjustment "
             f"(alternative: {self.alternative})"
         )
         shown = self.table[_SHOWN].to_string(
@@ -478,16 +481,16 @@ def _assemble(names, rows, metas, failed_at, notes, alpha, alternative) -> Scree
     unordered = sum(bool(metas[pos].get("shuffled")) for pos in range(len(names)) if pos not in failed_at)
     if unordered:
         notes.append(
-            f"{unordered} model(s) have rows that are not in time order: their tests are not meaningful "
-            "until sorted (order='index' or a time column)."
+            f"{format_count(unordered)} model(s) have rows that are not in time order: their tests are not "
+            f"meaningful until sorted ({sort_hint()})."
         )
     if failed:
-        notes.append(f"{len(failed)} model(s) could not be screened: see 'failed' and the status column.")
+        notes.append(f"{format_count(len(failed))} model(s) could not be screened: see 'failed' and the status column.")
     methods = sorted({m for m in table["dw_method"] if m})
     method = (
         f"Durbin-Watson p-value for each model's own design ({'; '.join(methods) or 'none computed'}); "
         "Breusch-Godfrey LM and Ljung-Box Q against chi-square; Benjamini-Hochberg adjustment of the "
-        f"Durbin-Watson p-values across models; strength read from the adjusted p at alpha {alpha:g}; "
+        f"Durbin-Watson p-values across models; strength read from the adjusted p at \u03b1 = {format_level(alpha)}; "
         "finding reads each model on its own, from its smallest unadjusted p-value."
     )
     return ScreenResult(

@@ -4,7 +4,7 @@
 family of two, Durbin-Watson and its order-s twin) is fixed beforehand by
 :func:`lagsight.battery_run.lead_plan` from the model's kind; the finding reads only that
 family's p-values, adjusted by the weighted Holm step-down method when there are two, so that on
-white-noise errors "evidence" appears at most alpha of the time.  Every other test is shown as
+white-noise errors "evidence" appears at most α of the time.  Every other test is shown as
 support and never changes the finding.  Every view (key figures, the sentence to paste, the
 test table's readings, the figures' marks, the panel's default test) reads the Verdict.
 """
@@ -15,6 +15,8 @@ import math
 from dataclasses import dataclass
 
 from .battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN, LeadPlan, strength
+from .formats import format_count, format_level, format_p, format_statistic, tiny_p_text
+from .hints import option_hint, sort_hint
 
 __all__ = [
     "Verdict",
@@ -26,6 +28,7 @@ __all__ = [
     "format_p",
     "tiny_p_text",
     "log10_p",
+    "bounds_words",
 ]
 
 #: the four findings
@@ -76,32 +79,9 @@ _CONSEQUENCE = {
 }
 
 
-def tiny_p_text(log10) -> str:
-    """A p-value below the smallest double written from its log10 ('3.2e-570'), or '< 1e-300'
-    when the logarithm is not known."""
-    if log10 is None or not math.isfinite(log10):
-        return "< 1e-300"
-    exp = math.floor(log10)
-    mant = 10.0 ** (log10 - exp)
-    if mant >= 9.95:
-        mant, exp = 1.0, exp + 1
-    return f"{mant:.1f}e{exp}"
-
-
 def log10_p(res):
     """log10 of a result's p-value where the test keeps it (exact Durbin-Watson), else None."""
     return getattr(res, "log10_pvalue", None)
-
-
-def format_p(p: float, log10=None) -> str:
-    """'p = 0.012', 'p = 3.1e-05'; below the smallest double 'p = 3.2e-570' from ``log10``
-    (or 'p < 1e-300' without it)."""
-    if p is None or math.isnan(p):
-        return "p = n/a"
-    if p == 0.0:
-        text = tiny_p_text(log10)
-        return f"p {text}" if text.startswith("<") else f"p = {text}"
-    return f"p = {p:.2g}" if p < 0.001 else f"p = {p:.3f}"
 
 
 @dataclass(frozen=True)
@@ -112,7 +92,7 @@ class Verdict:
     time order) or 'cannot judge' (the leading test cannot run or its input is degenerate);
     ``strength`` is 'strong', 'clear', 'some', 'none' or 'unknown'.  ``leading`` names the leading
     test, ``family`` the tests the finding is decided over, ``rule`` says how (for example "Holm over
-    Durbin-Watson and the order-12 test at alpha 0.05"), ``pvalue`` is the family's adjusted p-value
+    Durbin-Watson and the order-12 test at α = 0.05"), ``pvalue`` is the family's adjusted p-value
     and ``adjusted`` pairs each family member with its adjusted p-value.  ``reason`` says why there is
     no finding ('not meaningful', 'cannot judge').
     """
@@ -193,12 +173,20 @@ def _p(res) -> float:
 
 def _rule(family: tuple, alpha: float, period, plan: LeadPlan | None = None) -> str:
     if len(family) == 1:
-        return f"leading test {family[0]} at alpha {alpha:g}"
+        return f"leading test {family[0]} at α = {format_level(alpha)}"
     names = [f"the order-{period} test" if n == SEASONAL else n for n in family]
     if plan is not None and plan.weights:
         shares = " : ".join(f"{plan.weight(n):g}" for n in family)
-        return f"{' and '.join(names)}, weighted Holm ({shares}) at alpha {alpha:g}"
-    return f"Holm over {' and '.join(names)} at alpha {alpha:g}"
+        return f"{' and '.join(names)}, weighted Holm ({shares}) at α = {format_level(alpha)}"
+    return f"Holm over {' and '.join(names)} at α = {format_level(alpha)}"
+
+
+def bounds_words(decision: str, alternative: str = "positive") -> str:
+    """The bounds test's decision ('reject', 'inconclusive', 'no evidence') in the words every other
+    reading uses: 'evidence of positive correlation', 'inconclusive', 'no evidence'."""
+    if decision == "reject":
+        return f"evidence of {_direction(alternative)}correlation"
+    return str(decision)
 
 
 def _direction(alternative: str) -> str:
@@ -224,11 +212,14 @@ def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
     dh = tests.get(DH)
     if dh is not None:
         if math.isnan(dh.pvalue):
-            out.append("Durbin's h is undefined here (n Var(b_lag) >= 1); Durbin's alternative test does not need it.")
+            out.append(
+                "Durbin's h is undefined here (n times the variance of the lagged response's coefficient is "
+                "1 or more); Durbin's alternative test does not need it."
+            )
         else:
             out.append(
-                f"Durbin's h = {dh.statistic:.3f} uses rho-hat = 1 - d/2 = {dh.rho:.3f} (from the "
-                f"Durbin-Watson d = {dh.dw:.3f}), {format_p(dh.pvalue)}; shown beside Durbin's "
+                f"Durbin's h = {format_statistic(dh.statistic)} uses ρ̂ = 1 − d/2 = {format_statistic(dh.rho)} (from "
+                f"the Durbin-Watson d = {format_statistic(dh.dw)}), {format_p(dh.pvalue)}; shown beside Durbin's "
                 "alternative test, it does not change the finding."
             )
     for name in (DW, SEASONAL, SEASONAL_GIVEN, BG, LB, RUNS):
@@ -238,8 +229,8 @@ def _support_details(tests: dict, family: tuple, alpha: float) -> list[str]:
         word = "evidence" if res.pvalue < alpha else "no evidence"
         extra = " on residual signs (assumption-free)" if name == RUNS else ""
         out.append(
-            f"Support: {name}{extra}, statistic {res.statistic:.4g}, {format_p(res.pvalue)} "
-            f"({word} at alpha {alpha:g}); it does not change the finding."
+            f"Support: {name}{extra}, statistic {format_statistic(res.statistic)}, {format_p(res.pvalue)} "
+            f"({word} at α = {format_level(alpha)}); it does not change the finding."
         )
     return out
 
@@ -258,6 +249,8 @@ def _cannot_judge(plan: LeadPlan, tests: dict, errors: dict, alpha: float, rule:
         _problem_key(why),
         "Check the input (finite values, enough rows, a model that leaves residual variation) and run again.",
     )
+    if callable(advice):  # advice naming an option, written in the syntax of the entry point
+        advice = advice()
     headline = f"Cannot judge: {why}. {advice}"
     steps = (advice,)
     return Verdict(
@@ -281,8 +274,10 @@ _ADVICE = {
     "residuals are all zero": "Check that the residuals were computed (they are all zero).",
     "not finite": "Rescale or clean the data so every value is a finite number, and run again.",
     "k + 1": "Collect more observations or fit fewer coefficients.",
-    "Ljung-Box": "Pass the design (exog=, or the fitted model) for the exact Durbin-Watson test, which works "
-    "at any n > k + 1.",
+    "Ljung-Box": lambda: (
+        f"Pass the design ({option_hint('exog')}, or the fitted model) for the exact "
+        "Durbin-Watson test, which works at any n > k + 1."
+    ),
 }
 
 
@@ -341,8 +336,7 @@ def write_verdict(
     if shuffled:
         why = "the rows are not in time order, so no serial-correlation test measures anything here"
         headline = (
-            f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time "
-            "(order='index' or a time column) and run again."
+            f"Not meaningful: {why}, and no p-value is reported. Sort the rows by time ({sort_hint()}) and run again."
         )
         return Verdict(
             "not meaningful",
@@ -352,7 +346,7 @@ def write_verdict(
                 "The tests were computed on the rows as given; their p-values do not measure serial correlation.",
                 *order_details,
             ),
-            ("Sort by time (order='index', or order='<time column>') and run the diagnosis again.",),
+            (f"Sort the rows by time ({sort_hint()}) and run the diagnosis again.",),
             leading=plan.leading,
             family=plan.family,
             rule=rule,
@@ -377,21 +371,23 @@ def write_verdict(
         res = tests[name]
         adj = f", adjusted {format_p(a)}" if len(family) > 1 else ""
         details.append(
-            f"{name}: statistic {res.statistic:.4g}, {format_p(p, log10_p(res))}{adj} "
-            f"({'evidence' if a < alpha else 'no evidence'} at alpha {alpha:g})."
+            f"{name}: statistic {format_statistic(res.statistic)}, {format_p(p, log10_p(res))}{adj} "
+            f"({'evidence' if a < alpha else 'no evidence'} at α = {format_level(alpha)})."
         )
     details += _support_details(tests, family, alpha)
     dw = tests.get(DW)
     if dw is not None and math.isnan(dw.pvalue) and getattr(dw, "bounds_decision", None):
         details.append(
-            f"Without the design only bounds are available: d = {dw.statistic:.3f} is '{dw.bounds_decision}' "
-            f"against dL = {dw.bounds.lower:.3f}, dU = {dw.bounds.upper:.3f}."
+            f"Without the design only bounds are available: d = {format_statistic(dw.statistic)} against "
+            f"dL = {format_statistic(dw.bounds.lower)}, dU = {format_statistic(dw.bounds.upper)}: "
+            f"{bounds_words(dw.bounds_decision, alternative)}."
         )
     if groups is not None and not math.isnan(groups.pooled_dw):
         details.append(
-            f"Across the {groups.n_tested} groups tested the pooled within-group d is {groups.pooled_dw:.3f}"
+            f"Across the {format_count(groups.n_tested)} groups tested the pooled within-group d is "
+            f"{format_statistic(groups.pooled_dw)}"
             + ("" if math.isnan(groups.pooled_pvalue) else f" ({format_p(groups.pooled_pvalue)})")
-            + f"; stacking the groups end to end would give {groups.naive_dw:.3f}."
+            + f"; stacking the groups end to end would give {format_statistic(groups.naive_dw)}."
         )
     lead_words = format_p(raw[0], log10_p(tests[family[0]])) if len(family) == 1 else f"adjusted {format_p(p_family)}"
     steps: list[str] = []
@@ -413,9 +409,9 @@ def write_verdict(
             if changed:
                 steps.append(f"Corrections change the conclusion for: {', '.join(map(str, changed))}.")
             else:
-                steps.append("With the corrections no coefficient changes significance at this alpha.")
+                steps.append("With the corrections no coefficient changes significance at this α.")
             if not math.isnan(remedies.rho):
-                steps.append(f"Estimated AR(1) coefficient of the errors: rho = {remedies.rho:.3f}.")
+                steps.append(f"Estimated AR(1) coefficient of the errors: ρ = {format_statistic(remedies.rho)}.")
         if SEASONAL in significant:
             # the order-s statistic assumes independent errors: with lag-1 correlation its null is
             # wrong, so the advice also needs the lag-s coefficient given lag 1 (regression form)
@@ -429,12 +425,15 @@ def write_verdict(
                     "can be the lag-1 correlation carried forward, so no seasonal terms are advised."
                 )
         if plan.kind == "residuals":
-            steps.append("Pass the fitted model (or exog=) for the exact Durbin-Watson test and corrected inference.")
+            steps.append(
+                f"Pass the fitted model (or {option_hint('exog')}) for the exact Durbin-Watson test and "
+                "corrected inference."
+            )
         steps.append("Consider modelling the dynamics directly: lagged variables or ARMA errors.")
     else:
         looked = " or ".join(_what(name, tests[name], alternative, period) for name in family)
         headline = (
-            f"No evidence of {looked} at alpha {alpha:g} ({lead_words}; {rule}). "
+            f"No evidence of {looked} at α = {format_level(alpha)} ({lead_words}; {rule}). "
             "This does not prove the errors are independent: the test may lack power for this n "
             "and design."
         )

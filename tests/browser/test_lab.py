@@ -197,9 +197,9 @@ def test_live_alpha_selector_updates_the_views_and_snapshot(live):
     views = panel.evaluate(_VIEWS_JS)
     picker.select_option(label=label)
     after = _wait_changed(panel, views, f"the panel's views after choosing alpha {label}", _VIEWS_JS)
-    assert f"alpha:</b> {label}" in after, f"the views do not say alpha {label}"
+    assert f"α:</b> {label}" in after, f"the views do not say alpha {label}"
     # the stored copy follows a moment later (panel.SNAPSHOT_DELAY); the notebook saved next must hold it
-    _wait_snapshot(cell, ".lgs-snapshot", f"alpha:</b> {label}", html=True)
+    _wait_snapshot(cell, ".lgs-snapshot", f"α:</b> {label}", html=True)
     live["chosen alpha"] = label
     wait_kernel_idle(page)
     _shot(cell, "lab-live-4-after-alpha")
@@ -221,7 +221,7 @@ def test_lab_saved_notebook_keeps_the_snapshot(lab_saved, live):
                 f"the saved snapshot does not lead with {live['chosen test']}, the test chosen in the panel"
             )
         if i == live["cells"][0] and "chosen alpha" in live:
-            assert f"alpha:</b> {live['chosen alpha']}" in _html(snaps[0]), (
+            assert f"α:</b> {live['chosen alpha']}" in _html(snaps[0]), (
                 f"the saved snapshot is not at alpha {live['chosen alpha']}, the level chosen in the panel"
             )
         size = len(json.dumps(outs))

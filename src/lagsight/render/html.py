@@ -18,8 +18,10 @@ from pathlib import Path
 
 from ..battery_run import DW
 from ..diagnosis import Diagnosis
+from ..formats import format_count, format_level, format_p, format_statistic
 from ..stats._arrays import check_flag, check_optional_int
 from ..stats._caught import caught_warnings
+from ..stats.remedies import HAC_RULE_WORDS
 from . import figures as F
 from .style import CSS
 from .text import (
@@ -153,10 +155,11 @@ def remedies_table(rem, caveat: str = "") -> Table:
                 str(r["changes"]) or "\u2013",
             )
         )
-    rho = "" if math.isnan(rem.rho) else f", estimated \u03c1 = {rem.rho:.3f}"
+    rho = "" if math.isnan(rem.rho) else f", estimated \u03c1 = {format_statistic(rem.rho)}"
+    rule = HAC_RULE_WORDS.get(str(rem.lag_rule), str(rem.lag_rule))
     cap = (
-        f"HAC: Newey-West with {rem.hac_lag} lags ({rem.lag_rule}). FGLS: {rem.fgls_method}{rho}. "
-        f"'changes' names the corrections that change significance at \u03b1 = {rem.alpha:g}."
+        f"HAC: Newey-West with {format_count(rem.hac_lag)} lags ({rule}). FGLS: {rem.fgls_method}{rho}. "
+        f"'changes' names the corrections that change significance at \u03b1 = {format_level(rem.alpha)}."
     )
     if caveat:
         cap = (
@@ -175,24 +178,24 @@ def groups_table(summary) -> Table:
             (
                 str(r["group"]),
                 f"{int(r['n']):,}",
-                format_number(r.get("dw"), 4),
-                format_number(r.get("rho_hat"), 3),
+                format_statistic(r.get("dw")),
+                format_statistic(r.get("rho_hat")),
                 format_pvalue(r.get("dw_pvalue")),
                 format_pvalue(r.get("dw_p_adjusted")),
                 str(r.get("finding", "")),
             )
         )
     parts = [
-        f"Pooled within-group d = {format_number(summary.pooled_dw)}"
-        + ("" if math.isnan(summary.pooled_pvalue) else f" (p = {format_pvalue(summary.pooled_pvalue)})")
-        + f"; the groups stacked end to end would give {format_number(summary.naive_dw)}."
+        f"Pooled within-group d = {format_statistic(summary.pooled_dw)}"
+        + ("" if math.isnan(summary.pooled_pvalue) else f" ({format_p(summary.pooled_pvalue)})")
+        + f"; the groups stacked end to end would give {format_statistic(summary.naive_dw)}."
     ]
     if len(t) > MAX_GROUP_ROWS:
-        parts.append(f"Showing the {MAX_GROUP_ROWS} groups with the strongest evidence of {len(t)}.")
+        parts.append(f"Showing the {MAX_GROUP_ROWS} groups with the strongest evidence of {format_count(len(t))}.")
     if summary.skipped:
         shown = list(summary.skipped.items())[:5]
         parts.append(
-            f"Skipped {len(summary.skipped)}: "
+            f"Skipped {format_count(len(summary.skipped))}: "
             + "; ".join(f"{k} ({v})" for k, v in shown)
             + (" \u2026" if len(summary.skipped) > 5 else "")
         )

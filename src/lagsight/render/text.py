@@ -11,13 +11,16 @@ import math
 import numpy as np
 
 from ..battery_run import BG, DALT, DH, DW, LB, RUNS, SEASONAL, SEASONAL_GIVEN
+from ..formats import format_count, format_level, format_number, format_pvalue, format_statistic
 from ..stats.power import TARGET_POWER
-from ..verdict import log10_p, tiny_p_text
+from ..verdict import bounds_words, log10_p
 
 __all__ = [
     "TEST_GUIDE",
     "format_pvalue",
     "format_number",
+    "format_statistic",
+    "format_count",
     "statistic_label",
     "test_rows",
     "TEST_COLUMNS",
@@ -46,8 +49,8 @@ TEST_GUIDE = {
     "there is no lag-1 correlation.",
     DALT: "Regresses the residuals on their lag and the regressors: works with a lagged response, and "
     "when Durbin's h cannot be computed.",
-    SEASONAL: "The Durbin-Watson statistic at the seasonal lag s: d_s well below 2 means this season's "
-    "residual follows last season's.",
+    SEASONAL: "The Durbin-Watson statistic at the seasonal lag s: d at lag s well below 2 means this "
+    "season's residual follows last season's.",
     RUNS: "Counts runs of same-signed residuals: too few runs means positive correlation. Uses signs only, "
     "so it needs no normality but has less power.",
 }
@@ -60,49 +63,20 @@ _LOOKS_FOR = {
     "negative": "negative correlation",
     "two-sided": "correlation of either sign",
 }
-_SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d_s", SEASONAL_GIVEN: "t", RUNS: "z"}
-
-
-def format_pvalue(p, log10=None) -> str:
-    """A p-value for display: 3 decimals, or 2 significant digits below 0.001; below the smallest
-    double from its ``log10`` when known ('3.2e-570')."""
-    if p is None or (isinstance(p, float) and math.isnan(p)):
-        return "n/a"
-    p = float(p)
-    if p <= 0.0:
-        return tiny_p_text(log10)
-    if p < 0.001:
-        return f"{p:.2g}"
-    return f"{p:.3f}"
-
-
-def format_number(x, digits: int = 4) -> str:
-    """A statistic for display (``digits`` significant digits; 'n/a' for NaN)."""
-    if x is None:
-        return "n/a"
-    x = float(x)
-    if math.isnan(x):
-        return "n/a"
-    text = f"{x:.{digits}g}"
-    return text.replace("-", "\u2212") if text.startswith("-") else text
-
-
-def _dw_value(x: float) -> str:
-    return "n/a" if math.isnan(x) else f"{x:.3f}"
+_SYMBOL = {DW: "d", BG: "LM", LB: "Q", DH: "h", DALT: "t", SEASONAL: "d", SEASONAL_GIVEN: "t", RUNS: "z"}
 
 
 def statistic_label(name: str, res) -> str:
-    """'d = 0.889', 'LM = 232.2 (df 7)', 'd_7 = 1.868', ..."""
-    stat = res.statistic
-    if name == DW:
-        return f"d = {_dw_value(stat)}"
+    """'d = 0.889', 'LM = 232.213 (df 7)', 'd at lag 7 = 1.868', ... (every statistic to
+    :data:`lagsight.formats.STAT_DECIMALS` decimals)."""
+    stat = format_statistic(res.statistic)
     if name == SEASONAL:
-        return f"d_{getattr(res, 'lag', 's')} = {_dw_value(stat)}"
-    text = f"{_SYMBOL.get(name, 'statistic')} = {format_number(stat)}"
+        return f"d at lag {getattr(res, 'lag', 's')} = {stat}"
+    text = f"{_SYMBOL.get(name, 'statistic')} = {stat}"
     if name in (BG, LB) and res.df:
         text += f" (df {res.df[0]:g})"
     if name == RUNS and hasattr(res, "runs"):
-        text += f" ({res.runs} runs, {res.expected_runs:.0f} expected)"
+        text += f" ({format_count(res.runs)} runs, {format_count(round(res.expected_runs))} expected)"
     return text
 
 
@@ -120,7 +94,7 @@ def test_rows(diag, alpha: float | None = None) -> list[tuple[str, ...]]:
             reading = "no p-value"
             decision = getattr(res, "bounds_decision", None)
             if decision:
-                reading = f"bounds: {decision}"
+                reading = f"bounds: {bounds_words(decision, str(res.alternative))}"
         elif alpha is not None and alpha != diag.alpha and v.judged:
             reading = "evidence" if p < alpha else "no evidence"
         else:
@@ -172,7 +146,7 @@ def primary_test(diag) -> str | None:
 
 
 def key_figures(diag) -> list[tuple[str, str]]:
-    """(label, value) pairs for the headline: the finding, the leading test, n, k', alpha, order.
+    """(label, value) pairs for the headline: the finding, the leading test, n, k', α, order.
 
     Every figure comes from the verdict: the leading test's statistic, the family's p-value
     (weighted-Holm adjusted for two), the rule; no p-value when the rows are not in time order.
@@ -189,17 +163,17 @@ def key_figures(diag) -> list[tuple[str, str]]:
             label = "adjusted p" if len(v.family) > 1 else "p-value"
             out.append((label, format_pvalue(v.pvalue, log10_p(res) if len(v.family) == 1 else None)))
         if lead == DW:
-            out.append(("implied rho", format_number(1 - res.statistic / 2, 3)))
+            out.append(("implied \u03c1", format_statistic(1 - res.statistic / 2)))
             bounds = getattr(res, "bounds", None)
             if bounds is not None:
-                out.append(("dL / dU", f"{bounds.lower:.3f} / {bounds.upper:.3f}"))
+                out.append(("dL / dU", f"{format_statistic(bounds.lower)} / {format_statistic(bounds.upper)}"))
     if v.rule and v.finding != "cannot judge":
         out.append(("rule", v.rule))
-    out.append(("n", f"{diag.n:,}"))
+    out.append(("n", format_count(diag.n)))
     kp = k_prime_text(diag)
     if kp is not None:
         out.append(("k'", kp))
-    out.append(("alpha", f"{diag.alpha:g}"))
+    out.append(("\u03b1", format_level(diag.alpha)))
     out.append(("alternative", str(diag.alternative)))
     out.append(("order", str(diag.order.order_used)))
     index = diag.data.index
@@ -256,10 +230,10 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
         known = ", ".join(repr(t) for t in diag.tests)
         raise ValueError(f"'test' must be one of the tests run ({known}) (got {test!r})")
     if v.finding == "cannot judge":
-        return f"No serial-correlation finding can be reported: {v.reason} (n = {diag.n:,})."
+        return f"No serial-correlation finding can be reported: {v.reason} (n = {format_count(diag.n)})."
     if v.finding == "not meaningful":
         return (
-            f"No serial-correlation result can be reported: {v.reason} (n = {diag.n:,}); sort the rows "
+            f"No serial-correlation result can be reported: {v.reason} (n = {format_count(diag.n)}); sort the rows "
             "by time and test again."
         )
     name = primary_test(diag) if test is None else test
@@ -272,18 +246,16 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
         return f"*{sym}*" if md else sym
 
     exact, method = _method_phrase(str(res.method))
-    sizes = [f"{it('n')} = {diag.n:,}"]
+    sizes = [f"{it('n')} = {format_count(diag.n)}"]
     if name in (DW, SEASONAL):
         kp = k_prime_text(diag)
         if kp is not None:
             sizes.append(f"{it('k')}\u2032 = {kp}" if md else f"k' = {kp}")
-        if name == SEASONAL:
-            sizes.append(f"lag {getattr(res, 'lag', '')}")
-        value = _dw_value(res.statistic)
-        head = f"{name} {it('d')} = {value}" if name == DW else f"{name} {it('d')}_{res.lag} = {value}"
+        value = format_statistic(res.statistic)
+        head = f"{name} {it('d')} = {value}" if name == DW else f"{name} {it('d')} at lag {res.lag} = {value}"
     else:
         symbol = _SYMBOL.get(name, "statistic")
-        head = f"{name} {it(symbol)} = {format_number(res.statistic)}"
+        head = f"{name} {it(symbol)} = {format_statistic(res.statistic)}"
         if res.df:
             sizes.append("df " + ", ".join(f"{d:g}" for d in res.df))
     alt = _ALT_WORDS.get(str(res.alternative), f"against {res.alternative}")
@@ -292,8 +264,8 @@ def report_sentence(diag, fmt: str = "markdown", *, test: str | None = None) -> 
         tail = "no exact p-value (the design is not known)"
         if bounds is not None:
             tail += (
-                f"; bounds at alpha {bounds.alpha:g}: dL = {bounds.lower:.3f}, dU = {bounds.upper:.3f}, "
-                f"decision '{res.bounds_decision}'"
+                f"; bounds at \u03b1 = {format_level(bounds.alpha)}: dL = {format_statistic(bounds.lower)}, "
+                f"dU = {format_statistic(bounds.upper)}, {bounds_words(res.bounds_decision, str(res.alternative))}"
             )
         return f"{head} ({', '.join(sizes)}), {tail}."
     pword = f"{it('p')}-value"
@@ -335,8 +307,8 @@ def power_text(curve) -> str:
     """One line on the power curve: where power reaches the target."""
     rho = curve.min_detectable_rho
     if rho is None or np.isnan(rho):
-        return f"On this grid the test does not reach power {TARGET_POWER:g} (n = {curve.n})."
+        return f"On this grid the test does not reach power {TARGET_POWER:g} (n = {format_count(curve.n)})."
     return (
-        f"Power reaches {TARGET_POWER:g} at rho = {rho:.3f} "
-        f"(n = {curve.n}, alpha {curve.alpha:g}, {curve.n_sim} draws)."
+        f"Power reaches {TARGET_POWER:g} at \u03c1 = {format_statistic(rho)} "
+        f"(n = {format_count(curve.n)}, \u03b1 = {format_level(curve.alpha)}, {format_count(curve.n_sim)} draws)."
     )

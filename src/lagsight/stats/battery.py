@@ -163,10 +163,10 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
     n = e.shape[0]
     order = check_int(max_lag, "max_lag", minimum=1)
     X, top = _unit_columns(exog, n, full_rank=False)  # a deficient design falls back to pinv below
-    notes = [f"Pre-sample residuals set to zero; all {n} observations used."]
+    notes = [f"Pre-sample residuals set to zero; all {n:,} observations used."]
     constant = not has_constant(X)
     if constant:
-        notes.append("A constant was added to the auxiliary regression (exog has none).")
+        notes.append("A constant was added to the auxiliary regression (the design has none).")
     k_aux = X.shape[1] + int(constant) + order
     if n <= k_aux:
         raise ValueError(
@@ -200,7 +200,7 @@ def breusch_godfrey(resid, exog, *, max_lag: int) -> BreuschGodfreyResult:
         pvalue=float(stats.chi2.sf(lm, order)),
         alternative=f"autocorrelation up to lag {order}",
         df=(float(order),),
-        method="LM = n*R^2 of the auxiliary regression, chi-square",
+        method="LM = n\u00b7R\u00b2 of the auxiliary regression, chi-square",
         name="Breusch-Godfrey",
         notes=tuple(notes),
         f_statistic=float(f_stat),
@@ -283,7 +283,7 @@ def ljung_box(resid, *, max_lag, model_df: int = 0) -> PortmanteauResult:
         pvalue=float(table["lb_pvalue"].iloc[-1]),
         alternative=f"autocorrelation at some lag up to {int(top)}",
         df=(float(top - model_df),),
-        method=f"Ljung-Box Q, chi-square; statistic and pvalue refer to the largest lag ({int(top)})",
+        method=f"Ljung-Box Q, chi-square; statistic and p-value at the largest lag ({int(top)})",
         name="Ljung-Box",
         notes=tuple(notes),
         lags=readonly(lag_arr),
@@ -399,9 +399,12 @@ def durbin_h(resid, exog, endog, *, lag_column=None, alternative="positive") -> 
     # Var(b_lag) in the original units: b_lag = b_scaled * y_scale / col_scale[lag]
     var_lag = float((fit.bse[lag_column] * (y_scale / col_scale[lag_column])) ** 2)
     nv = n * var_lag
-    method = "normal; rho = 1 - d/2 from the Durbin-Watson d"
+    method = "normal; \u03c1 = 1 \u2212 d/2 from the Durbin-Watson d"
     if nv >= 1.0:
-        notes.append(f"h is undefined because n*Var(b_lag) = {nv:.4g} >= 1; use durbin_alternative() instead.")
+        notes.append(
+            f"h is undefined because n times the variance of the lagged response's coefficient is {nv:.4g} "
+            "(1 or more); Durbin's alternative test does not need it."
+        )
         h = pval = lower = upper = math.nan
     else:
         h = rho * math.sqrt(n / (1.0 - nv))
@@ -465,9 +468,9 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
         m, _aux_rows(X, top, e, lags, start=order), k + order, _aux_precondition(X, top, e, lags, start=order)
     )
     notes = (
-        f"The first {order} observation(s) are dropped: their lagged residuals are pre-sample; {m} rows used.",
-        "Assumes resid are OLS residuals of the response on exog (which may include the "
-        "lagged response), homoskedastic errors, and no constant added beyond those in exog.",
+        f"The first {order:,} observation(s) are dropped: their lagged residuals are pre-sample; {m:,} rows used.",
+        "Assumes the residuals are the OLS residuals of the response on the design (which may include the "
+        "lagged response), homoskedastic errors, and no constant added beyond those in the design.",
     )
     if order == 1:
         t = float(fit.params[-1] / fit.bse[-1])
@@ -478,7 +481,7 @@ def durbin_alternative(resid, exog, *, max_lag: int = 1, alternative: str = "two
             pvalue=_upper_means_positive(lower, upper, alternative),
             alternative=alternative,
             df=(df,),
-            method="t-test of the e_{t-1} coefficient, Student t",
+            method="t-test of the coefficient on the lag-1 residual, Student t",
             name="Durbin's alternative",
             notes=notes,
             lower_tail=lower,
@@ -529,15 +532,16 @@ def seasonal_lag_test(resid, exog, *, period, alternative="positive") -> DurbinA
     df = float(fit.df_resid)
     lower, upper = float(stats.t.cdf(t, df)), float(stats.t.sf(t, df))
     notes = (
-        f"The first {period} observations are dropped (their lag-{period} residuals are pre-sample); {m} rows used.",
-        "Large-sample test; assumes homoskedastic errors and resid the OLS residuals of exog.",
+        f"The first {period:,} observations are dropped (their lag-{period} residuals are pre-sample); "
+        f"{m:,} rows used.",
+        "Large-sample test; assumes homoskedastic errors and that the residuals are the OLS residuals of the design.",
     )
     return DurbinAlternativeResult(
         statistic=t,
         pvalue=_upper_means_positive(lower, upper, alternative),
         alternative=alternative,
         df=(df,),
-        method=f"t-test of the e_(t-{period}) coefficient given e_(t-1), Student t",
+        method=f"t-test of the coefficient on the lag-{period} residual given lag 1, Student t",
         name=f"Lag {period} given lag 1",
         notes=notes,
         lower_tail=lower,

@@ -54,8 +54,8 @@ class BoundsResult:
     def __str__(self) -> str:
         const = "with" if self.has_constant else "without"
         return (
-            f"Durbin-Watson bounds (n={self.n}, k'={self.k_prime}, alpha={self.alpha:g}, {const} constant)\n"
-            f"  dL {self.lower:.4f}   dU {self.upper:.4f}\n"
+            f"Durbin-Watson bounds (n = {self.n:,}, k' = {self.k_prime}, \u03b1 = {self.alpha:g}, {const} constant)\n"
+            f"  dL {self.lower:.3f}   dU {self.upper:.3f}\n"
             f"  method: {self.method}"
         )
 

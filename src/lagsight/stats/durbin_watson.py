@@ -177,7 +177,7 @@ class DurbinWatsonDistribution:
             Wt, rank, self._basis_map = _orthonormal_basis(X, None if single else np.concatenate(chains))
             if rank < X.shape[1]:
                 self.notes.append(
-                    f"the design has rank {rank} < {X.shape[1]} columns; it was reduced to its column space"
+                    f"the design has rank {rank} < {X.shape[1]:,} columns; it was reduced to its column space"
                 )
         else:
             Wt, rank = None, 0
@@ -507,7 +507,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
     proj = dist.project(u, X)
     if float(np.dot(proj, proj)) > 1e-12 * float(np.dot(u, u)):
         notes.append(
-            "the residuals are not orthogonal to exog; the exact distribution assumes they are "
+            "the residuals are not orthogonal to the design; the exact distribution assumes they are "
             "the OLS residuals of this design"
         )
     lower, upper, method, (log_lower, log_upper) = dist.tails_with_logs(d)
@@ -519,7 +519,7 @@ def durbin_watson_exact(resid, exog, *, alternative="positive", lag=1, alpha=0.0
             bounds = dw_bounds(n, kp, alpha=alpha, has_constant=dist.has_constant)
             decision = bounds.decision(d, alternative)
         else:
-            notes.append(f"bounds dL/dU not computed for n > {BOUNDS_MAX_N}; the exact p-value replaces them")
+            notes.append(f"bounds dL/dU not computed for n > {BOUNDS_MAX_N:,}; the exact p-value replaces them")
     result = DurbinWatsonResult(
         statistic=d,
         pvalue=pvalue,

@@ -47,6 +47,12 @@ __all__ = [
 ]
 
 HAC_RULES = ("newey-west-1994", "common")
+#: how each lag rule (an API value of ``lag_rule``; 'user' for a lag that was given) reads in prose
+HAC_RULE_WORDS = {
+    "newey-west-1994": "Newey-West (1994) automatic lag",
+    "common": "common rule \u230a4 (n/100)^(2/9)\u230b",
+    "user": "lag given",
+}
 RHO_METHODS = ("regression", "autocorrelation")
 
 
@@ -100,7 +106,7 @@ def hac_lag(n: int, *, lag_rule: str = "newey-west-1994", resid=None, exog=None)
             lag=min(int(math.floor(bw)), n - 1),
             n=n,
             bandwidth=bw,
-            notes=("floor(4 (n/100)^(2/9)): a common-practice rule of thumb.",),
+            notes=("\u230a4 (n/100)^(2/9)\u230b: a common-practice rule of thumb.",),
         )
     if resid is None:
         raise ValueError("'resid' must be given for rule 'newey-west-1994' (got None)")
@@ -135,7 +141,7 @@ def _plugin_lag(n: int, resid, X: np.ndarray | None) -> HacLag:
     notes = []
     if X is None:
         values = resid
-        notes.append("No exog given: h_t = e_t (weight on a location model).")
+        notes.append("No design given: the lag is chosen from the residuals alone (a location model).")
     else:
         const = constant_columns(X)
         w = (~const).astype(float) if (~const).any() else np.ones(X.shape[1])
@@ -147,7 +153,7 @@ def _plugin_lag(n: int, resid, X: np.ndarray | None) -> HacLag:
     s1 = 2.0 * np.dot(np.arange(1, m + 1), sig[1:])
     if not s0 > 0:
         bw = _common_lag(n)
-        notes.append("Plug-in failed (s0 <= 0); fell back to the common rule.")
+        notes.append("The plug-in estimate failed (s\u2080 \u2264 0); the common rule was used instead.")
         return HacLag(
             lag_rule=rule, lag=min(int(math.floor(bw)), n - 1), n=n, bandwidth=bw, pilot_lag=m, notes=tuple(notes)
         )
@@ -527,22 +533,22 @@ def _fgls_fit(ols: _Fit, *, keep_first, tol, maxiter, names, rho_method) -> FGLS
     lag_ss, s2 = moments.lag_ss(fit.params), moments.quasi_ss(fit.params, rho) / (n - 2)
     name = "Prais-Winsten" if keep_first else "Cochrane-Orcutt"
     how = (
-        "rho = sum u_t u_{t-1} / sum u_{t-1}^2 (residual regression)"
+        "\u03c1 = \u03a3 u\u209c u\u209c\u208b\u2081 / \u03a3 u\u209c\u208b\u2081\u00b2 (residual regression)"
         if rho_method == "regression"
-        else "rho = sum u_t u_{t-1} / sum u_t^2 (first-order autocorrelation)"
+        else "\u03c1 = \u03a3 u\u209c u\u209c\u208b\u2081 / \u03a3 u\u209c\u00b2 (first-order autocorrelation)"
     )
-    notes = ["rho_se is the OLS standard error of the slope of u_t on u_{t-1} from the final residuals."]
+    notes = ["The standard error of \u03c1 is the OLS standard error of the slope of the final residuals on their lag."]
     if keep_first:
-        notes.append("First observation kept, scaled by sqrt(1 - rho^2).")
+        notes.append("First observation kept, scaled by \u221a(1 \u2212 \u03c1\u00b2).")
     else:
         notes.append("First observation dropped (no previous value to quasi-difference with).")
     if outside is not None:
         notes.append(
-            f"rho reached {outside:.4f}, outside (-1, 1): the errors look non-stationary "
+            f"\u03c1 reached {outside:.4f}, outside (\u22121, 1): the errors look non-stationary "
             "(a unit root or worse); consider differencing the data."
         )
     if not converged:
-        notes.append(f"rho did not converge within {maxiter} iterations (tol {tol:g}).")
+        notes.append(f"\u03c1 did not converge within {maxiter:,} iterations (tolerance {tol:g}).")
     bse = fit.bse
     return FGLSResult(
         rho=float(rho),
@@ -611,8 +617,8 @@ class InferenceComparison:
 
     def __str__(self) -> str:
         return (
-            f"OLS vs HAC ({self.hac_lag} lags) vs {self.fgls_method} (rho={self.rho:.4f}), "
-            f"alpha={self.alpha:g}\n{self.table.to_string()}"
+            f"OLS vs HAC ({self.hac_lag} lags, {HAC_RULE_WORDS.get(self.lag_rule, self.lag_rule)}) vs "
+            f"{self.fgls_method} (\u03c1 = {self.rho:.3f}), \u03b1 = {self.alpha:g}\n{self.table.to_string()}"
         )
 
 

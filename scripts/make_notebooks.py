@@ -29,7 +29,13 @@ NOTEBOOKS = {
             "fit = smf.ols('demand_ml ~ temp_c + rain_mm + weekend', data=demand).fit()\n"
             "fit.params.round(3)",
         ),
-        ("md", "## The added line\n\nLoad the extension once, then hand the fitted model to `%lagsight`."),
+        (
+            "md",
+            "## The added line\n\nLoad the extension once, then hand the fitted model to `%lagsight` (a bare "
+            "`%lagsight` takes the model the previous cell fitted and says so). The panel leads with the verdict, "
+            "the 0\u20134 scale and the correlogram on one screen; the sections below it open on demand, and "
+            "*Download the report* gives a standalone HTML file in the browser.",
+        ),
         ("code", "%load_ext lagsight\n%lagsight fit"),
         ("md", "The magic returns the diagnosis, so it can be kept and used from Python:"),
         ("code", "d = %lagsight fit --quiet\nprint(d.verdict.headline)\nd.remedies.table.round(4)"),

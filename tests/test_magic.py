@@ -314,7 +314,7 @@ def test_no_argument_takes_the_model_the_previous_cell_fitted_and_says_so(fresh_
     # the same statistic as naming it (statsmodels' durbin_watson as the reference)
     assert d.tests[DW].statistic == pytest.approx(sm_durbin_watson(ip.user_ns["only"].resid), rel=1e-12)
     assert re.fullmatch(r"%lagsight took only: the fitted model cell \[\d+\] assigned\.", d.notes[0]), d.notes[0]
-    assert preferences(d)["name"] == "only" and preferences(d)["hint_syntax"] == "magic"
+    assert preferences(d)["name"] == "only" and d.hint_syntax == "magic"
     # a second fitted model elsewhere: the previous cell still decides
     ip.user_ns["other"] = ip.user_ns["only"].model.fit()
     run(ip, "newest = smf.ols('demand_ml ~ rain_mm', data=frame).fit()")

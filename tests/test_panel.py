@@ -511,3 +511,18 @@ def test_notes_show_in_the_headline_and_test_notes_in_the_test_view():
     assert "10 rows have no group label and were left out." in panel.headline.value
     assert "the design has rank 2 &lt; 3 columns" in panel.test_view.value
     assert "10 rows have no group label" in panel.snapshot()["text/html"]
+
+
+def test_residuals_only_show_the_scale_at_once_and_the_cautions_line():
+    # residuals alone (no design): Durbin-Watson runs with k' assumed, and its 0-4 scale is on show from the
+    # start, beside whichever test leads (before, it appeared only once Durbin-Watson was picked)
+    rng = np.random.default_rng(4)
+    u = np.zeros(300)
+    for t in range(1, 300):
+        u[t] = 0.5 * u[t - 1] + rng.normal()
+    d = lagsight.diagnose(u)
+    panel = DiagnosisPanel(d, snapshot_delay=0, prefetch_delay=None)
+    assert panel.test != DW and "<svg" in panel.scale_view.value
+    line = panel.cautions_view.value
+    assert "Not rejecting is not proof of independence." in line and "<details" in line
+    assert "power section" not in line and "power curve" not in line  # none shown, so none pointed at

@@ -60,9 +60,7 @@ _VIEW_KEYS = ("max_lag", "band", "lag", "test", "figures")
 _PREFS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
-def set_preferences(
-    diag, *, mode: str | None = None, name: str | None = None, hint_syntax: str | None = None, **view_options
-) -> None:
+def set_preferences(diag, *, mode: str | None = None, name: str | None = None, **view_options) -> None:
     """Remember how ``diag`` is to be displayed (used by the magic's ``--static`` / ``--quiet``).
 
     Parameters
@@ -70,8 +68,6 @@ def set_preferences(
     mode : {'panel', 'static', 'quiet'}, optional
     name : str, optional
         The model's variable name (names a downloaded report).
-    hint_syntax : {'api', 'magic'}, optional
-        Whose syntax the panel writes hints in.
     **view_options
         ``max_lag``, ``band``, ``lag``, ``test`` or ``figures`` for the views.
     """
@@ -85,8 +81,6 @@ def set_preferences(
         prefs["mode"] = mode
     if name is not None:
         prefs["name"] = str(name)
-    if hint_syntax is not None:
-        prefs["hint_syntax"] = hint_syntax
     prefs.update({k: v for k, v in view_options.items() if v is not None})
     _PREFS[diag] = prefs
 
@@ -278,7 +272,6 @@ def show(diag, *, mode: str | None = None, widgets: bool | None = None, **view_o
         panel = DiagnosisPanel(
             diag,
             name=prefs.get("name"),
-            hint_syntax=prefs.get("hint_syntax", "api"),
             **_view(diag, view_options),
         )
     except Exception as err:  # the static view still shows; say why the panel did not

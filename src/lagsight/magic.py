@@ -168,7 +168,7 @@ class LagsightMagics(Magics):
 
             diag = dataclasses.replace(diag, notes=(f"%lagsight took {expr}: {took}.", *diag.notes))
         mode = "quiet" if args.quiet else ("static" if args.static else "panel")
-        set_preferences(diag, mode=mode, name=expr, hint_syntax="magic")
+        set_preferences(diag, mode=mode, name=expr)
         if silent:
             silence_in_cell(diag, self.shell)
         return diag

@@ -180,8 +180,6 @@ class DiagnosisPanel:
         How the live views embed figures (the snapshot always uses PNG).
     name : str, optional
         The model's variable name, used to name a downloaded report.
-    hint_syntax : {'api', 'magic'}
-        Whose syntax hints are written in (the magic passes 'magic').
     snapshot_delay : float
         Seconds of quiet after a change before the snapshot is refreshed, while an
         event loop runs (a live kernel): changes in between are merged and
@@ -221,7 +219,6 @@ class DiagnosisPanel:
         lag=1,
         figures="svg",
         name=None,
-        hint_syntax="api",
         snapshot_delay=SNAPSHOT_DELAY,
         prefetch_delay=PREFETCH_DELAY,
     ):
@@ -243,7 +240,6 @@ class DiagnosisPanel:
         self.base = self.current = diag
         self.figure_format = figures
         self.name = None if name is None else str(name)
-        self.hint_syntax = hint_syntax
         self.snapshot_delay = float(snapshot_delay)
         self.prefetch_delay = None if prefetch_delay is None else float(prefetch_delay)
         self.renders = 0

@@ -292,6 +292,10 @@ def test_the_report_button_offers_a_browser_download_and_writes_nothing(panel, t
     page = base64.b64decode(link.group(2)).decode("utf-8")
     same_ids = lambda text: re.sub(r"lgs[0-9a-f]+[a-z]+\d+-", "", text)  # noqa: E731  (SVG id prefixes count up)
     assert same_ids(page) == same_ids(panel.report_html())
+    # assembled from the panel's own figures, it is the report save_html writes for this view
+    from lagsight.render.html import diagnosis_html
+
+    assert same_ids(diagnosis_html(panel.current, **panel.view_options)) in same_ids(page)
     assert "<svg" in page and "http://" not in page and "https://" not in page
     # the link is withdrawn when the view changes (it would hold an older state)
     panel.lag_slider.value = 4

@@ -748,10 +748,12 @@ class DiagnosisPanel:
         self._timed("alpha/alternative", redraw)
 
     def report_html(self) -> str:
-        """The standalone HTML report of the current view (what the download holds)."""
+        """The standalone HTML report of the current view (what the download holds), with every figure as
+        SVG from the panel's cache."""
         from .render.html import report_page
 
-        return report_page(self.current, **self.view_options)
+        body = self._assembled_html(tuple(self._specs()), "svg")
+        return report_page(self.current, body=body, **self.view_options)
 
     def prepare_download(self) -> str | None:
         """Build the report of the current view and offer it as a browser download (the panel's button).
@@ -802,16 +804,21 @@ class DiagnosisPanel:
         Assembled from the panel's own figures (each drawn once); PNG because
         sanitizing viewers (an untrusted notebook in JupyterLab) drop inline SVG.
         """
+        return self._assembled_html(SNAPSHOT_FIGURES, "png")
+
+    def _assembled_html(self, names, fmt: str) -> str:
+        """The static HTML of the current view with the figures ``names`` (those drawn here) as ``fmt``, taken
+        from the panel's cache (each state is drawn and converted once)."""
         from .render.html import FigureView, build_view, render_html
 
         view = build_view(self.current, **{**self.view_options, "figures": "none"})
         figs = []
         for name, (_, _, title) in self._specs().items():
-            if name not in SNAPSHOT_FIGURES:
+            if name not in names:
                 continue
             try:
-                figs.append(FigureView(name, title, *self._figure(name, "png")))
-            except Exception as err:  # shown in the snapshot in place of the figure
+                figs.append(FigureView(name, title, *self._figure(name, fmt)))
+            except Exception as err:  # shown in place of the figure
                 figs.append(FigureView(name, title, "", "", f"{title} could not be drawn: {_message(err)}"))
         return render_html(dataclasses.replace(view, figures=tuple(figs)))
 
@@ -928,13 +935,21 @@ class DiagnosisPanel:
         return any(self._draw_ahead(name, None, **state) for name, state in choices)
 
     def _draw_ahead(self, name: str, diag, **state) -> bool:
-        """Draw figure ``name`` for a state not on show, unless cached; True when something was drawn."""
+        """Draw figure ``name`` for a state not on show, unless cached, in two steps (build the figure, then
+        convert it), so a control moved meanwhile waits for half a figure at most; True when a step ran."""
         if self._cached(name, diag, **state):
             return False
+        key, make, _ = self._specs(diag, **state)[name]
+        entry = self._entry(key)
         try:
-            self._figure(name, diag=diag, **state)
+            if entry[0] is None:  # step 1: build; the conversion is the next step
+                with caught_warnings() as caught:
+                    self._draw_figure(make, entry)
+                entry[2] = " ".join([entry[2], *(f"({n})" for n in caught.notes())]).strip()
+            else:  # step 2: convert (only the markup is kept)
+                self._figure(name, diag=diag, **state)
         except Exception:  # not retried ahead; the view shows the error if it is picked
-            self._not_ahead.add(self._specs(diag, **state)[name][0])
+            self._not_ahead.add(key)
         return True
 
     def _schedule_prefetch(self, delay) -> None:

@@ -424,11 +424,15 @@ _PAGE = """<!DOCTYPE html>
 """
 
 
-def report_page(diag, **view_options) -> str:
-    """The standalone HTML report as a string (one page, figures inline, no network)."""
+def report_page(diag, *, body: str | None = None, **view_options) -> str:
+    """The standalone HTML report as a string (one page, figures inline, no network).
+
+    ``body`` is the diagnosis's HTML when the caller has it already (the panel assembles it from the
+    figures it has drawn); default :func:`diagnosis_html`.
+    """
     from .. import __version__
 
-    body = diagnosis_html(diag, **view_options)
+    body = diagnosis_html(diag, **view_options) if body is None else body
     return _PAGE.format(title=_e(f"lagsight report: {diag.data.source}"), body=body, version=_e(__version__))
 
 

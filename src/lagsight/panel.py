@@ -265,8 +265,8 @@ class DiagnosisPanel:
                 widget.add_class(c)
             return widget
 
-        def view(cls, height=None):
-            return tag(w.HTML(layout=w.Layout(min_height=height) if height else w.Layout()), cls, "lgs-view")
+        def view(cls):
+            return tag(w.HTML(), cls, "lgs-view")
 
         def label(text):
             return tag(w.Label(text, layout=w.Layout(margin="0 2px 0 8px")), "lgs-control-label")

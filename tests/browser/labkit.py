@@ -7,6 +7,7 @@ in its own runtime folder and stopped by PID too).
 
 from __future__ import annotations
 
+import contextlib
 import itertools
 import json
 import os
@@ -181,6 +182,15 @@ def shot(target, name: str, **options) -> Path:
 def cell_at(page, index: int):
     """Cell ``index`` of the notebook on show (Lab or Notebook 7)."""
     return page.locator(".jp-NotebookPanel:visible .jp-Notebook .jp-Cell").nth(index)
+
+
+@contextlib.contextmanager
+def running(server):
+    """The server started, and stopped by its PID on the way out (the module fixtures' one pattern)."""
+    try:
+        yield server.start()
+    finally:
+        server.stop()
 
 
 # -- page helpers ------------------------------------------------------------------------------------------

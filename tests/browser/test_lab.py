@@ -35,6 +35,7 @@ from labkit import (  # noqa: E402, I001  (importing labkit puts tests/notebooks
     choose_no_kernel,
     live_notebook,
     open_notebook,
+    running,
     run_live_notebook,
     save,
     shot,
@@ -66,11 +67,8 @@ _live_notebook, _shot = live_notebook, shot
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
     root = tmp_path_factory.mktemp("lab")
-    server = LabServer(root / "jupyter", root / "work")
-    try:
-        yield server.start()
-    finally:
-        server.stop()
+    with running(LabServer(root / "jupyter", root / "work")) as server:
+        yield server
 
 
 @pytest.fixture(scope="module")
@@ -312,11 +310,8 @@ def test_nbconvert_html_offline(saved, origin, browser, tmp_path):
 def lab_no_kernel(tmp_path_factory):
     """A second Lab that offers no kernel and has its own notebook-signing secret (so nothing is trusted)."""
     root = tmp_path_factory.mktemp("lab-no-kernel")
-    server = LabServer(root / "jupyter", root / "work", kernels=False)
-    try:
-        yield server.start()
-    finally:
-        server.stop()
+    with running(LabServer(root / "jupyter", root / "work", kernels=False)) as server:
+        yield server
 
 
 @pytest.mark.parametrize("trusted", [False, True], ids=["untrusted", "trusted"])

@@ -43,11 +43,8 @@ THEMES = {"light": "JupyterLab Light", "dark": "JupyterLab Dark"}
 @pytest.fixture(scope="module")
 def lab(tmp_path_factory):
     root = tmp_path_factory.mktemp("lab-layout")
-    server = labkit.LabServer(root / "jupyter", root / "work")
-    try:
-        yield server.start()
-    finally:
-        server.stop()
+    with labkit.running(labkit.LabServer(root / "jupyter", root / "work")) as server:
+        yield server
 
 
 @pytest.fixture(scope="module")

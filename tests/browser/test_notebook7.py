@@ -24,11 +24,8 @@ CHANGE_TIMEOUT = 30_000  # ms for a view to redraw after a control moved
 @pytest.fixture(scope="module")
 def nb7(tmp_path_factory):
     root = tmp_path_factory.mktemp("notebook7")
-    server = labkit.NotebookServer(root / "jupyter", root / "work")
-    try:
-        yield server.start()
-    finally:
-        server.stop()
+    with labkit.running(labkit.NotebookServer(root / "jupyter", root / "work")) as server:
+        yield server
 
 
 @pytest.fixture(scope="module")

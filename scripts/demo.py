@@ -29,7 +29,7 @@ def main() -> int:
 
     fit = smf.ols("demand_ml ~ temp_c + rain_mm + weekend", data=water_demand()).fit()
     diag = lagsight.diagnose(fit)
-    report = diag.save_html(OUT / "quickstart_report.html")
+    report = diag.save_html(OUT / "quickstart_report.html", overwrite=True)  # the demo rewrites its own output
     print(diag.verdict.headline)
     print(f"executed notebook: {executed}")
     print(f"HTML report: {report}")

@@ -274,6 +274,11 @@ class DiagnosisPanel:
         def box(children, *classes, kind=w.VBox):
             return tag(kind(children, layout=w.Layout(min_width="0", width="100%")), *classes)
 
+        def controls(first, text, buttons):
+            """A control, then toggle buttons with their label kept beside them (the row may wrap between)."""
+            beside = box([label(text), buttons], "lgs-controls", "lgs-nowrap", kind=w.HBox)
+            return box([first, beside], "lgs-controls", kind=w.HBox)
+
         alphas = sorted(set(ALPHAS) | {diag.alpha})
         self.style = tag(w.HTML(self._style_markup()), "lgs-style")
         self.headline = view("lgs-headline-view")
@@ -387,14 +392,7 @@ class DiagnosisPanel:
 
         level = box(
             [
-                box(
-                    [
-                        self.alpha_picker,
-                        box([label("alternative"), self.alternative_picker], "lgs-controls", "lgs-nowrap", kind=w.HBox),
-                    ],
-                    "lgs-controls",
-                    kind=w.HBox,
-                ),
+                controls(self.alpha_picker, "alternative", self.alternative_picker),
                 self.cautions_view,
             ],
             "lgs-level",
@@ -414,14 +412,7 @@ class DiagnosisPanel:
                     box(
                         [
                             section("Correlogram of the residuals"),
-                            box(
-                                [
-                                    self.lag_slider,
-                                    box([label("band"), self.band_toggle], "lgs-controls", "lgs-nowrap", kind=w.HBox),
-                                ],
-                                "lgs-controls",
-                                kind=w.HBox,
-                            ),
+                            controls(self.lag_slider, "band", self.band_toggle),
                             self.correlogram_view,
                         ],
                         "lgs-cell",

@@ -27,7 +27,7 @@ from ..stats.correlogram import Correlogram, lag_pairs, ljung_box_q
 from ..stats.power import TARGET_POWER
 from .export import figure_to_png, figure_to_png_data_uri, figure_to_svg
 from .scale import ALTERNATIVE_WORDS, bounds_figure, density_grid, scale_figure
-from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, figure_rc
+from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, figure_rc, figure_title
 from .text import format_pvalue, order_caveat
 
 __all__ = [
@@ -239,14 +239,7 @@ def correlogram_figure(
         for ax in axes:
             ax.set_ylim(-lim, lim)
         band_words = "Bartlett band (ACF)" if band == "bartlett" else "white-noise band"
-        fig.text(
-            left,
-            1 - 0.16 / height,
-            f"Residual autocorrelation, lags 1\u2013{shown:,}",
-            fontsize=10,
-            fontweight="bold",
-            va="center",
-        )
+        figure_title(fig, left, height, f"Residual autocorrelation, lags 1\u2013{shown:,}", top=0.16)
         handles = [
             Line2D([], [], marker="s", ls="none", color=PALETTE["orange"], ms=4.5, label="outside the band"),
             Line2D([], [], color=PALETTE["blue_light"], lw=6, label=f"{z_note} {band_words}"),
@@ -461,9 +454,7 @@ def residuals_figure(diag, *, max_points: int = MAX_POINTS, width: float = FIG_W
         _group_digits(ax)
         first, last = x_at([0, n - 1])
         ax.set_xlim(first, last if n > 1 else first + 1)
-        fig.text(
-            0.62 / width, 1 - 0.17 / height, "Residuals in test order", fontsize=10, fontweight="bold", va="center"
-        )
+        figure_title(fig, 0.62 / width, height, "Residuals in test order")
     cap = f"Residuals in the order tested ({diag.order.order_used}), n = {n:,}."
     if keep.size < n:
         cap += (
@@ -533,14 +524,7 @@ def power_figure(curve, *, width: float = FIG_WIDTH) -> Figure:
         ax.set_ylim(0, 1.02)
         ax.set_xlabel("AR(1) coefficient \u03c1 of the errors")
         ax.set_ylabel("probability of detection")
-        fig.text(
-            0.62 / width,
-            1 - 0.17 / height,
-            f"Power of the exact Durbin-Watson test, n = {curve.n:,}",
-            fontsize=10,
-            fontweight="bold",
-            va="center",
-        )
+        figure_title(fig, 0.62 / width, height, f"Power of the exact Durbin-Watson test, n = {curve.n:,}")
     cap = (
         f"Share of {curve.n_sim:,} simulated series with AR(1) errors per \u03c1 in which the exact test "
         f"rejects at \u03b1 = {curve.alpha:g} ({ALTERNATIVE_WORDS.get(curve.alternative, 'two-sided')}), "
@@ -618,14 +602,7 @@ def groups_figure(summary, *, width: float = FIG_WIDTH, max_labels: int = 30) ->
             bbox_to_anchor=(0.14 / width, 0.04 / height),
             frameon=False,
         )
-        fig.text(
-            0.14 / width,
-            1 - 0.17 / height,
-            f"Durbin-Watson d by group ({_groups_count(summary)})",
-            fontsize=10,
-            fontweight="bold",
-            va="center",
-        )
+        figure_title(fig, 0.14 / width, height, f"Durbin-Watson d by group ({_groups_count(summary)})")
     cap = (
         "Each group is tested in its own time order; squares (orange) mark groups with evidence after the "
         "Benjamini-Hochberg adjustment."

@@ -23,7 +23,7 @@ from ..battery_run import DW
 from ..stats.bounds import BOUNDS_MAX_N, dw_bounds
 from ..verdict import log10_p
 from .density import density_grid, exact_point, grid_entry
-from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, REGION_STYLE, figure_rc
+from .style import FIG_WIDTH, MIN_FONT_PT, PALETTE, REGION_STYLE, figure_rc, figure_title
 from .text import format_pvalue, order_caveat
 
 __all__ = ["scale_figure", "bounds_figure", "density_grid", "exact_point", "LabelPlacer"]
@@ -366,7 +366,7 @@ def _wrap_notes(notes: list[str], width: float) -> list[str]:
 
 
 def _header(fig, left: float, height: float, title: str, subtitle: str) -> None:
-    fig.text(left, 1 - 0.17 / height, title, fontsize=10, fontweight="bold", va="center", color=PALETTE["ink"])
+    figure_title(fig, left, height, title)
     fig.text(left, 1 - 0.37 / height, subtitle, fontsize=MIN_FONT_PT, va="center", color=PALETTE["muted"])
 
 

@@ -13,7 +13,7 @@ from contextlib import contextmanager
 
 import matplotlib as mpl
 
-__all__ = ["PALETTE", "REGION_STYLE", "FIGURE_RC", "figure_rc", "CSS", "FIG_WIDTH", "MIN_FONT_PT"]
+__all__ = ["PALETTE", "REGION_STYLE", "FIGURE_RC", "figure_rc", "figure_title", "CSS", "FIG_WIDTH", "MIN_FONT_PT"]
 
 #: named colours used by every figure (hex strings)
 PALETTE = {
@@ -79,6 +79,16 @@ FIGURE_RC = {
     "text.color": PALETTE["ink"],
     "axes.unicode_minus": True,
 }
+
+
+#: size of a figure's title, pt
+TITLE_PT = 10.0
+
+
+def figure_title(fig, left: float, height: float, text: str, *, top: float = 0.17) -> None:
+    """The title every lagsight figure carries: bold, ``top`` inches below the top edge, at ``left`` (a figure
+    fraction); ``height`` is the figure's height in inches."""
+    fig.text(left, 1 - top / height, text, fontsize=TITLE_PT, fontweight="bold", va="center", color=PALETTE["ink"])
 
 
 @contextmanager
